@@ -1,0 +1,139 @@
+"""The ``diagap`` command line. Only this module prints and chooses exit codes.
+
+Exit codes: 0 success; 2 bad input (design or command-line error: one line on stderr, no output
+files); 3 the design collapses (bias at or above pull-in: everything that does not depend on the
+bias point is written, the coupled results are marked collapsed); 1 an unexpected internal error.
+"""
+from __future__ import annotations
+
+import argparse
+import json
+import logging
+import sys
+from importlib.metadata import PackageNotFoundError, version
+from pathlib import Path
+
+__all__ = ["main", "EXIT_OK", "EXIT_INTERNAL", "EXIT_INPUT", "EXIT_COLLAPSED"]
+
+EXIT_OK, EXIT_INTERNAL, EXIT_INPUT, EXIT_COLLAPSED = 0, 1, 2, 3
+
+_EPILOG = """exit codes:
+  0  success
+  1  unexpected internal error (please report it, with the design file)
+  2  bad input: a design or command-line error, reported on one line; no output files written
+  3  the design collapses: the bias voltage is at or above pull-in; outputs that do not depend on
+     the bias point are written and the coupled results are marked "collapsed"
+
+CAUTION: bias (polarization) voltages can be hazardous. diagap's results are design estimates; they
+do not replace prototypes, measurement, the applicable safety codes or qualified review."""
+
+
+def _version() -> str:
+    try:
+        return version("diagap")
+    except PackageNotFoundError:  # pragma: no cover - running from a source tree
+        return "0+unknown"
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse that reports usage errors on one line with exit code 2."""
+
+    def error(self, message):  # noqa: D401
+        self.exit(EXIT_INPUT, f"diagap: error: {message} (see 'diagap {self.prog.split()[-1]} --help')\n"
+                  if " " in self.prog else f"diagap: error: {message} (see 'diagap --help')\n")
+
+
+def _add_common(p: argparse.ArgumentParser) -> None:
+    p.add_argument("--accuracy", choices=("draft", "normal", "fine"),
+                   help="override the design's analysis.accuracy")
+    p.add_argument("--no-cache", action="store_true", help="do not read or write the mesh cache")
+    p.add_argument("-v", "--verbose", action="store_true", help="log progress to stderr")
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = _Parser(prog="diagap", description=(
+        "diagap: finite-element design of capacitive microphone capsules - diaphragm mechanics, "
+        "air-gap electrostatics with a perforated backplate, pull-in, squeeze-film damping and "
+        "noise, a lumped model and an audit of the textbook assumptions."),
+        epilog=_EPILOG, formatter_class=argparse.RawDescriptionHelpFormatter)
+    parser.add_argument("--version", action="version", version=f"diagap {_version()}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+
+    run = sub.add_parser("run", help="analyse a design (default: the built-in demo)",
+                         description="Analyse a design and write OUT/summary.json and the other "
+                         "outputs. With no DESIGN, the built-in demo (an invented scenario).",
+                         epilog=_EPILOG, formatter_class=argparse.RawDescriptionHelpFormatter)
+    run.add_argument("design", nargs="?", help="design file (TOML); omit for the built-in demo")
+    run.add_argument("-o", "--out", default="diagap-out", help="output folder (default: diagap-out)")
+    run.add_argument("--json", action="store_true", help="print summary.json instead of the table")
+    _add_common(run)
+
+    init = sub.add_parser("init", help="write a commented starter design file",
+                          description="Write a commented starter design (an invented example).")
+    init.add_argument("file", help="path of the new design file (TOML)")
+    init.add_argument("--demo", action="store_true", help="write the built-in demo design instead")
+    init.add_argument("--force", action="store_true", help="overwrite an existing file")
+    return parser
+
+
+def _cmd_init(args) -> int:
+    from .design import demo_text, starter_text
+
+    path = Path(args.file)
+    if path.exists() and not args.force:
+        print(f"diagap: error: {path} exists (use --force to overwrite)", file=sys.stderr)
+        return EXIT_INPUT
+    path.write_text(demo_text() if args.demo else starter_text(), encoding="utf-8")
+    print(f"wrote {path}")
+    return EXIT_OK
+
+
+def _cmd_run(args) -> int:
+    from .design import demo_design, load_design
+    from .pipeline import run_design
+    from .table import summary_table
+    from .writer import write_outputs
+
+    design = load_design(args.design) if args.design else demo_design()
+    if args.accuracy:
+        design = design.with_accuracy(args.accuracy)
+    result = run_design(design)
+    summary = result.summary()
+    write_outputs(result, Path(args.out))
+    if args.json:
+        print(json.dumps(summary, indent=2))
+    else:
+        print(summary_table(summary))
+        print(f"\noutputs written to {Path(args.out)}/")
+    return EXIT_COLLAPSED if result.collapsed else EXIT_OK
+
+
+_COMMANDS = {"run": _cmd_run, "init": _cmd_init}
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    if args.command is None:
+        parser.print_help()
+        return EXIT_OK
+    logging.basicConfig(level=logging.INFO if getattr(args, "verbose", False) else logging.WARNING,
+                        format="diagap: %(message)s")
+    if getattr(args, "no_cache", False):
+        from meshes import set_enabled
+
+        set_enabled(False)
+    from .design import DesignError
+
+    try:
+        return _COMMANDS[args.command](args)
+    except DesignError as exc:
+        print(f"diagap: error: {exc}", file=sys.stderr)
+        return EXIT_INPUT
+    except KeyboardInterrupt:
+        print("diagap: interrupted", file=sys.stderr)
+        return 130
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())
