@@ -1,0 +1,307 @@
+"""Electromechanical equilibrium of the diaphragm under bias, electrostatic softening and pull-in.
+
+Physics
+-------
+With the diaphragm deflection w(x, y) (positive towards the backplate, m), the rest gap g and the
+air-gap capacitance per unit area c(ĝ) (F/m², from the unit-cell electrostatics, so the
+perforation's effect is included), the electrostatic pressure on the electrode area Ω_e at bias V is
+
+    p_e(w) = ½ V² π(g − w),     π(ĝ) = −dc/dĝ   (Pa/V²; π = ε0/ĝ² for solid parallel plates),
+
+and the static equilibrium of the linear plate (stiffness operator K of D∇⁴w − T∇²w) reads
+
+    K u = V² f(u),   f_i(u) = ∫_Ωe ½ π(g − w) N_i dA,   w = Σ u_i N_i          (N, per V²)
+
+Its tangent (the stiffness seen by small motions at constant voltage) is
+
+    J(u) = K − V² G(u),   G_ij = ∫_Ωe ½ |π'(g − w)| N_i N_j dA     (π' < 0: softening).
+
+Method
+------
+Displacement control: the centre deflection w0 = cᵀu is prescribed and λ = V² is an unknown, so
+the branch is followed through the fold. Newton's method on the bordered system
+
+    [J  −f] [δu]   [λ f − K u]
+    [cᵀ  0] [δλ] = [w0 − cᵀu ]
+
+is solved by block elimination with two solves with J. J = K − λG is a compact perturbation of
+K, so GMRES preconditioned by one sparse LU of K (computed once) converges in a few iterations.
+Pull-in is the fold of λ(w0): the maximum of λ, where J stops being positive definite (its
+smallest eigenvalue relative to K, μ = 1 − λ·max eig(K⁻¹G), reaches 0). The fold is located by a
+parabola through the three largest λ of the branch, refined by bisection steps in w0.
+
+Quadrature: the electrode integrals are sums over quadrature points q with weights W_q (m²):
+w_q = (B u)_q with B the (sparse) interpolation matrix of the FE basis at those points.
+All inputs are SI; internally deflections are scaled by g and λ by a reference V².
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Callable
+
+import numpy as np
+import scipy.sparse as sp
+import scipy.sparse.linalg as spla
+
+__all__ = ["PlateSystem", "ElectrostaticLoad", "EquilibriumPoint", "Branch", "trace_branch",
+           "equilibrium_at_voltage", "softened_modes", "center_compliance", "CoupledError"]
+
+
+class CoupledError(RuntimeError):
+    """The nonlinear solver did not converge."""
+
+
+@dataclass(frozen=True)
+class PlateSystem:
+    """A linear diaphragm model reduced to what the coupling needs (SI, consistent units).
+
+    K: (n, n) sparse stiffness (N/m in the generalised coordinates u, metres), constrained DOFs
+    removed; M: (n, n) mass matrix (kg) or None; B: (nq, n) sparse interpolation w_q = (B u)_q (m)
+    at the electrode quadrature points; weights: (nq,) quadrature weights (m²);
+    center: (n,) row giving the centre deflection cᵀu (m); mass-normalised modes are not needed.
+    """
+
+    K: sp.spmatrix
+    B: sp.spmatrix
+    weights: np.ndarray
+    center: np.ndarray
+    M: sp.spmatrix | None = None
+
+
+@dataclass(frozen=True)
+class ElectrostaticLoad:
+    """π(ĝ) = −dc/dĝ and its derivative, from the capacitance density c(ĝ) (F/m², ĝ in m)."""
+
+    pressure_per_v2: Callable[[np.ndarray], np.ndarray]  # π(ĝ)/2 · 2 = −dc/dĝ  (F/m³)
+    pressure_slope_per_v2: Callable[[np.ndarray], np.ndarray]  # dπ/dĝ (F/m⁴)
+    min_gap_m: float = 0.0  # below this the local gap is outside the model's validity
+
+    @staticmethod
+    def parallel_plate() -> "ElectrostaticLoad":
+        from scipy.constants import epsilon_0
+
+        return ElectrostaticLoad(lambda g: epsilon_0 / g**2, lambda g: -2.0 * epsilon_0 / g**3)
+
+
+@dataclass(frozen=True)
+class EquilibriumPoint:
+    center_deflection_m: float
+    voltage_v: float
+    u: np.ndarray = field(repr=False)
+    min_stiffness_ratio: float  # μ: smallest eigenvalue of J relative to K (1 at V = 0, 0 at pull-in)
+
+
+@dataclass(frozen=True)
+class Branch:
+    points: tuple[EquilibriumPoint, ...]
+    pull_in_voltage_v: float
+    pull_in_center_deflection_m: float
+
+    def voltages(self) -> np.ndarray:
+        return np.array([p.voltage_v for p in self.points])
+
+    def deflections(self) -> np.ndarray:
+        return np.array([p.center_deflection_m for p in self.points])
+
+
+class _Solver:
+    """Newton for K u = λ f(u) with either w0 (displacement control) or λ prescribed."""
+
+    def __init__(self, system: PlateSystem, load: ElectrostaticLoad, gap_m: float):
+        self.s, self.load, self.g = system, load, gap_m
+        self.K = sp.csc_matrix(system.K)
+        self.B = sp.csr_matrix(system.B)
+        self.BT = sp.csr_matrix(self.B.T)
+        self.W = np.asarray(system.weights, float)
+        self.c = np.asarray(system.center, float)
+        self.lu = spla.splu(self.K)
+        self.n = self.K.shape[0]
+
+    def local_gap(self, u):
+        return self.g - self.B @ u
+
+    def force(self, u):  # f(u) per V²
+        gl = self.local_gap(u)
+        if np.any(gl <= self.load.min_gap_m) or np.any(gl <= 0):
+            raise CoupledError("the diaphragm touches the backplate (local gap <= 0)")
+        return self.BT @ (self.W * 0.5 * self.load.pressure_per_v2(gl))
+
+    def g_diag(self, u):  # ½|π'| at the points
+        return 0.5 * np.abs(self.load.pressure_slope_per_v2(self.local_gap(u))) * self.W
+
+    def tangent_op(self, lam, u):
+        d = lam * self.g_diag(u)
+        K, B, BT = self.K, self.B, self.BT
+        return spla.LinearOperator((self.n, self.n), matvec=lambda x: K @ x - BT @ (d * (B @ x)),
+                                   dtype=float)
+
+    def solve_t(self, lam, u, rhs):
+        """Solve J x = rhs by GMRES preconditioned with K⁻¹."""
+        op = self.tangent_op(lam, u)
+        prec = spla.LinearOperator((self.n, self.n), matvec=self.lu.solve, dtype=float)
+        x0 = self.lu.solve(rhs)
+        x, info = spla.gmres(op, rhs, x0=x0, M=prec, rtol=1e-12, atol=0.0, restart=60, maxiter=20)
+        if info != 0:  # nearly singular J (at the fold): fall back to a direct solve
+            d = lam * self.g_diag(u)
+            J = (self.K - self.BT @ sp.diags(d) @ self.B).tocsc()
+            x = spla.spsolve(J, rhs)
+        return x
+
+    def min_stiffness_ratio(self, lam, u) -> float:
+        """μ = 1 − λ·max eig(K⁻¹ G): J is positive definite while μ > 0."""
+        d = self.g_diag(u)
+        if lam <= 0 or not np.any(d):
+            return 1.0
+        B, BT = self.B, self.BT
+        op = spla.LinearOperator((self.n, self.n), matvec=lambda x: self.lu.solve(BT @ (d * (B @ x))),
+                                 dtype=float)
+        if self.n <= 8:
+            dense = np.column_stack([op.matvec(e) for e in np.eye(self.n)])
+            return float(1.0 - lam * np.max(np.linalg.eigvals(dense).real))
+        vals = spla.eigs(op, k=1, which="LM", return_eigenvectors=False, tol=1e-8, maxiter=2000)
+        return float(1.0 - lam * np.max(vals.real))
+
+    def displacement_control(self, w0, u, lam, tol=1e-11, maxit=30):
+        for _ in range(maxit):
+            f = self.force(u)
+            r = lam * f - self.K @ u
+            a = self.solve_t(lam, u, f)
+            b = self.solve_t(lam, u, r)
+            dlam = (w0 - self.c @ u - self.c @ b) / (self.c @ a)
+            du = b + dlam * a
+            u, lam = u + du, lam + dlam
+            if np.max(np.abs(du)) <= tol * max(abs(w0), 1e-30) and abs(dlam) <= tol * abs(lam):
+                return u, lam
+        raise CoupledError(f"Newton (displacement control) did not converge at w0 = {w0:.4g} m")
+
+    def voltage_control(self, lam, u, tol=1e-11, maxit=50):
+        for _ in range(maxit):
+            r = lam * self.force(u) - self.K @ u
+            du = self.solve_t(lam, u, r)
+            u = u + du
+            if np.max(np.abs(du)) <= tol * max(np.max(np.abs(u)), 1e-30):
+                return u
+        raise CoupledError(f"Newton (voltage control) did not converge at V² = {lam:.4g} V²")
+
+
+def _point(solver: _Solver, u, lam) -> EquilibriumPoint:
+    return EquilibriumPoint(float(solver.c @ u), float(np.sqrt(max(lam, 0.0))), u,
+                            solver.min_stiffness_ratio(lam, u))
+
+
+def _vertex(x: np.ndarray, y: np.ndarray) -> tuple[float, float]:
+    """Vertex of the parabola through three points."""
+    a, b, c = np.polyfit(x, y, 2)
+    if a >= 0:
+        i = int(np.argmax(y))
+        return float(x[i]), float(y[i])
+    xv = -b / (2 * a)
+    return float(xv), float(np.polyval([a, b, c], xv))
+
+
+def trace_branch(system: PlateSystem, load: ElectrostaticLoad, gap_m: float, *,
+                 steps: int = 16, max_fraction: float = 0.75, refine: int = 6) -> Branch:
+    """Follow the equilibrium branch from rest to beyond the fold; return it with the pull-in point.
+
+    The centre deflection is stepped uniformly up to ``max_fraction``·g (stopping early once λ has
+    clearly passed its maximum); the fold is then refined by ``refine`` bisection steps around the
+    maximum of λ(w0) and located by a parabola through the three best points.
+    """
+    solver = _Solver(system, load, gap_m)
+    u = np.zeros(solver.n)
+    # first guess of λ from the linear problem: w0 = λ cᵀK⁻¹f(0)
+    f0 = solver.force(u)
+    s0 = solver.c @ solver.lu.solve(f0)
+    if s0 <= 0:
+        raise CoupledError("the electrostatic load does not pull the centre towards the backplate")
+    dw = max_fraction * gap_m / steps
+    lam = dw / s0
+    pts: list[tuple[float, float, np.ndarray]] = [(0.0, 0.0, u)]
+    for k in range(1, steps + 1):
+        w0 = k * dw
+        try:
+            u_k, lam_k = solver.displacement_control(w0, pts[-1][2], lam)
+        except CoupledError:
+            break
+        pts.append((w0, lam_k, u_k))
+        lam = lam_k
+        if len(pts) >= 4 and pts[-1][1] < pts[-2][1] < pts[-3][1]:
+            break
+    lams = np.array([p[1] for p in pts])
+    i = int(np.argmax(lams))
+    if i == len(pts) - 1:
+        raise CoupledError(f"no pull-in found up to a centre deflection of "
+                           f"{pts[-1][0] / gap_m:.2f} gap")
+    # bisection-style refinement around the maximum of λ(w0)
+    for _ in range(refine):
+        w_lo, w_hi = pts[i - 1][0], pts[i + 1][0]
+        for w0 in (0.5 * (w_lo + pts[i][0]), 0.5 * (pts[i][0] + w_hi)):
+            u_k, lam_k = solver.displacement_control(w0, pts[i][2], pts[i][1])
+            pts.append((w0, lam_k, u_k))
+        pts.sort(key=lambda p: p[0])
+        lams = np.array([p[1] for p in pts])
+        i = int(np.argmax(lams))
+    w_pi, lam_pi = _vertex(np.array([p[0] for p in pts[i - 1:i + 2]]), lams[i - 1:i + 2])
+    points = tuple(_point(solver, p[2], p[1]) for p in pts)
+    return Branch(points, float(np.sqrt(lam_pi)), float(w_pi))
+
+
+def equilibrium_at_voltage(system: PlateSystem, load: ElectrostaticLoad, gap_m: float,
+                           voltage_v: float, branch: Branch) -> EquilibriumPoint:
+    """The stable equilibrium at ``voltage_v`` (< pull-in) on the traced ``branch``.
+
+    Found by Brent's method on λ(w0) − V² over the stable part of the branch, each evaluation a
+    displacement-controlled Newton solve, so it stays robust close to the fold.
+    """
+    from scipy.optimize import brentq
+
+    if voltage_v >= branch.pull_in_voltage_v:
+        raise CoupledError(f"bias {voltage_v:g} V is at or above pull-in "
+                           f"({branch.pull_in_voltage_v:.4g} V)")
+    solver = _Solver(system, load, gap_m)
+    lam_t = voltage_v**2
+    if lam_t == 0.0:
+        return _point(solver, np.zeros(solver.n), 0.0)
+    stable = [p for p in branch.points if p.center_deflection_m <= branch.pull_in_center_deflection_m]
+    lo = max((p for p in stable if p.voltage_v**2 <= lam_t), key=lambda p: p.center_deflection_m)
+    hi = [p for p in stable if p.voltage_v**2 > lam_t and p.center_deflection_m > lo.center_deflection_m]
+    w_hi = hi[0].center_deflection_m if hi else branch.pull_in_center_deflection_m
+    cache = {"u": lo.u, "lam": lo.voltage_v**2 or lam_t}
+
+    def residual(w0):
+        u, lam = solver.displacement_control(w0, cache["u"], cache["lam"])
+        cache.update(u=u, lam=lam)
+        return lam - lam_t
+
+    w = brentq(residual, lo.center_deflection_m, w_hi, xtol=1e-12 * gap_m, rtol=1e-12)
+    u, lam = solver.displacement_control(w, cache["u"], cache["lam"])
+    return _point(solver, u, lam)
+
+
+def softened_modes(system: PlateSystem, load: ElectrostaticLoad, gap_m: float,
+                   point: EquilibriumPoint, n_modes: int = 1) -> np.ndarray:
+    """Natural frequencies (Hz) of small motions about ``point`` at constant voltage:
+    (K − V²G) φ = ω² M φ. Needs ``system.M``."""
+    if system.M is None:
+        raise ValueError("system.M is required for the softened modes")
+    solver = _Solver(system, load, gap_m)
+    lam = point.voltage_v**2
+    J = (solver.K - solver.BT @ sp.diags(lam * solver.g_diag(point.u)) @ solver.B).tocsc()
+    if J.shape[0] <= max(8, n_modes + 1):
+        from scipy.linalg import eigh
+
+        vals = eigh(J.toarray(), system.M.toarray(), eigvals_only=True)[:n_modes]
+    else:
+        vals = spla.eigsh(J, k=n_modes, M=sp.csc_matrix(system.M), sigma=0.0, which="LM",
+                          return_eigenvectors=False)
+    vals = np.sort(vals.real)
+    return np.sqrt(np.maximum(vals, 0.0)) / (2 * np.pi)
+
+
+def center_compliance(system: PlateSystem, load: ElectrostaticLoad, gap_m: float,
+                      point: EquilibriumPoint, unit_pressure_load: np.ndarray) -> float:
+    """Centre deflection per pascal (m/Pa) of small static pressures about ``point`` at constant
+    voltage: cᵀ J⁻¹ f_p, with ``unit_pressure_load`` the load vector f_p of 1 Pa on the diaphragm."""
+    solver = _Solver(system, load, gap_m)
+    x = solver.solve_t(point.voltage_v**2, point.u, np.asarray(unit_pressure_load, float))
+    return float(solver.c @ x)
