@@ -22,8 +22,14 @@ from __future__ import annotations
 import numpy as np
 from skfem import ElementTriArgyris
 from skfem.element import DiscreteField
+import scipy.sparse as sp
 
-__all__ = ["ElementTriArgyrisLocal", "MONOMIAL_POWERS", "monomials", "local_coefficients"]
+from .locate import TriangleLocator
+
+__all__ = [
+    "ElementTriArgyrisLocal", "ArgyrisEvaluator", "MONOMIAL_POWERS", "monomials",
+    "local_coefficients",
+]
 
 #: exponents (a, b) of the 21 monomials ξ^a η^b of degree ≤ 5
 MONOMIAL_POWERS = np.array([(a, b) for a in range(6) for b in range(6) if a + b <= 5])
@@ -154,3 +160,44 @@ class ElementTriArgyrisLocal(ElementTriArgyris):
             self._last = (mapping, X, tind, self._all_fields(mapping, X, tind))
         value, grad, hess = self._last[3]
         return (DiscreteField(value=value[i], grad=grad[:, i], hess=hess[:, :, i]),)
+
+
+class ArgyrisEvaluator:
+    """Fast evaluation of Argyris fields at arbitrary points of a mesh.
+
+    Parameters
+    ----------
+    mesh : skfem.MeshTri
+    element : ElementTriArgyrisLocal used for the field
+    element_dofs : (21, nel) global DOF numbers per triangle (``basis.element_dofs``)
+
+    Points outside the mesh polygon use the polynomial of the nearest triangle (see
+    :mod:`fem.locate`); coordinates are those of the mesh.
+    """
+
+    def __init__(self, mesh, element: ElementTriArgyrisLocal, element_dofs: np.ndarray):
+        self.centre, self.scale, self.coef = element.coefficients(mesh)
+        self.element_dofs = np.asarray(element_dofs)
+        self.n_dofs = int(self.element_dofs.max()) + 1
+        self.locator = TriangleLocator(mesh.p, mesh.t)
+
+    def _local(self, x, y):
+        e = self.locator.find(x, y)
+        s = self.scale[e]
+        xi = (np.ravel(x) - self.centre[0, e]) / s
+        eta = (np.ravel(y) - self.centre[1, e]) / s
+        return e, monomials(xi, eta, order=0)[""]
+
+    def values(self, u: np.ndarray, x: np.ndarray, y: np.ndarray) -> np.ndarray:
+        """Field with global DOF vector ``u`` at the points (shape of ``x``)."""
+        poly = np.einsum("eki,ie->ek", self.coef, u[self.element_dofs], optimize=True)
+        e, m = self._local(x, y)
+        return np.einsum("nk,nk->n", m, poly[e]).reshape(np.shape(x))
+
+    def matrix(self, x: np.ndarray, y: np.ndarray) -> sp.csr_matrix:
+        """Sparse (npts × n_dofs) matrix mapping a DOF vector to the values at the points."""
+        e, m = self._local(x, y)
+        phi = np.einsum("nk,nki->ni", m, self.coef[e])
+        rows = np.repeat(np.arange(e.size), 21)
+        cols = self.element_dofs[:, e].T.ravel()
+        return sp.csr_matrix((phi.ravel(), (rows, cols)), shape=(e.size, self.n_dofs))

@@ -43,7 +43,7 @@ import numpy as np
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
-__all__ = ["PlateSystem", "ElectrostaticLoad", "EquilibriumPoint", "Branch", "trace_branch",
+__all__ = ["CouplingSystem", "ElectrostaticLoad", "EquilibriumPoint", "Branch", "trace_branch",
            "equilibrium_at_voltage", "softened_modes", "center_compliance", "CoupledError"]
 
 
@@ -52,7 +52,7 @@ class CoupledError(RuntimeError):
 
 
 @dataclass(frozen=True)
-class PlateSystem:
+class CouplingSystem:
     """A linear diaphragm model reduced to what the coupling needs (SI, consistent units).
 
     K: (n, n) sparse stiffness (N/m in the generalised coordinates u, metres), constrained DOFs
@@ -107,7 +107,7 @@ class Branch:
 class _Solver:
     """Newton for K u = λ f(u) with either w0 (displacement control) or λ prescribed."""
 
-    def __init__(self, system: PlateSystem, load: ElectrostaticLoad, gap_m: float):
+    def __init__(self, system: CouplingSystem, load: ElectrostaticLoad, gap_m: float):
         self.s, self.load, self.g = system, load, gap_m
         self.K = sp.csc_matrix(system.K)
         self.B = sp.csr_matrix(system.B)
@@ -199,7 +199,7 @@ def _vertex(x: np.ndarray, y: np.ndarray) -> tuple[float, float]:
     return float(xv), float(np.polyval([a, b, c], xv))
 
 
-def trace_branch(system: PlateSystem, load: ElectrostaticLoad, gap_m: float, *,
+def trace_branch(system: CouplingSystem, load: ElectrostaticLoad, gap_m: float, *,
                  steps: int = 16, max_fraction: float = 0.75, refine: int = 6) -> Branch:
     """Follow the equilibrium branch from rest to beyond the fold; return it with the pull-in point.
 
@@ -246,7 +246,7 @@ def trace_branch(system: PlateSystem, load: ElectrostaticLoad, gap_m: float, *,
     return Branch(points, float(np.sqrt(lam_pi)), float(w_pi))
 
 
-def equilibrium_at_voltage(system: PlateSystem, load: ElectrostaticLoad, gap_m: float,
+def equilibrium_at_voltage(system: CouplingSystem, load: ElectrostaticLoad, gap_m: float,
                            voltage_v: float, branch: Branch) -> EquilibriumPoint:
     """The stable equilibrium at ``voltage_v`` (< pull-in) on the traced ``branch``.
 
@@ -278,7 +278,7 @@ def equilibrium_at_voltage(system: PlateSystem, load: ElectrostaticLoad, gap_m: 
     return _point(solver, u, lam)
 
 
-def softened_modes(system: PlateSystem, load: ElectrostaticLoad, gap_m: float,
+def softened_modes(system: CouplingSystem, load: ElectrostaticLoad, gap_m: float,
                    point: EquilibriumPoint, n_modes: int = 1) -> np.ndarray:
     """Natural frequencies (Hz) of small motions about ``point`` at constant voltage:
     (K − V²G) φ = ω² M φ. Needs ``system.M``."""
@@ -298,7 +298,7 @@ def softened_modes(system: PlateSystem, load: ElectrostaticLoad, gap_m: float,
     return np.sqrt(np.maximum(vals, 0.0)) / (2 * np.pi)
 
 
-def center_compliance(system: PlateSystem, load: ElectrostaticLoad, gap_m: float,
+def center_compliance(system: CouplingSystem, load: ElectrostaticLoad, gap_m: float,
                       point: EquilibriumPoint, unit_pressure_load: np.ndarray) -> float:
     """Centre deflection per pascal (m/Pa) of small static pressures about ``point`` at constant
     voltage: cᵀ J⁻¹ f_p, with ``unit_pressure_load`` the load vector f_p of 1 Pa on the diaphragm."""

@@ -8,14 +8,14 @@ import pytest
 import scipy.sparse as sp
 from scipy.constants import epsilon_0
 
-from fem.coupled import (ElectrostaticLoad, PlateSystem, equilibrium_at_voltage, softened_modes,
+from fem.coupled import (ElectrostaticLoad, CouplingSystem, equilibrium_at_voltage, softened_modes,
                          trace_branch, center_compliance)
 
 K, G, A, M = 50.0, 4e-6, np.pi * (0.5e-3) ** 2, 2e-9
 
 
 def _piston(nq=7):
-    return PlateSystem(K=sp.csr_matrix([[K]]), B=sp.csr_matrix(np.ones((nq, 1))),
+    return CouplingSystem(K=sp.csr_matrix([[K]]), B=sp.csr_matrix(np.ones((nq, 1))),
                        weights=np.full(nq, A / nq), center=np.array([1.0]), M=sp.csr_matrix([[M]]))
 
 
