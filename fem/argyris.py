@@ -37,28 +37,39 @@ MONOMIAL_POWERS = np.array([(a, b) for a in range(6) for b in range(6) if a + b 
 _EDGES = ((0, 1), (1, 2), (0, 2))  # local vertex pairs of skfem's RefTri edges
 
 
-def _pow(x: np.ndarray, k: np.ndarray) -> np.ndarray:
-    """x[..., None] ** k with negative exponents giving zero (derivative of a constant)."""
-    out = x[..., None] ** np.maximum(k, 0)
-    return np.where(k >= 0, out, 0.0)
+def _powers(x: np.ndarray) -> np.ndarray:
+    """Stack of x**0 … x**5 and a final zero slice (index −1 → 0 for derivatives of constants)."""
+    out = np.empty((7,) + np.shape(x))
+    out[0] = 1.0
+    for k in range(1, 6):
+        out[k] = out[k - 1] * x
+    out[6] = 0.0
+    return out
 
 
 def monomials(xi: np.ndarray, eta: np.ndarray, order: int = 2) -> dict:
     """The 21 monomials ξ^a η^b and their derivatives up to ``order`` (0, 1 or 2).
 
     Returns a dict with keys ``""``, ``"x"``, ``"y"``, ``"xx"``, ``"xy"``, ``"yy"`` (as far as
-    ``order`` reaches), each an array of shape ``xi.shape + (21,)``; derivatives are with
+    ``order`` reaches), each an array of shape ``(21,) + xi.shape``; derivatives are with
     respect to the local coordinates ξ, η.
     """
     a, b = MONOMIAL_POWERS[:, 0], MONOMIAL_POWERS[:, 1]
-    out = {"": _pow(xi, a) * _pow(eta, b)}
+    px, py = _powers(xi), _powers(eta)
+    shape = (21,) + (1,) * np.ndim(xi)
+    ca, cb = a.reshape(shape).astype(float), b.reshape(shape).astype(float)
+
+    def term(da, db):
+        return px[np.where(a - da >= 0, a - da, 6)] * py[np.where(b - db >= 0, b - db, 6)]
+
+    out = {"": term(0, 0)}
     if order >= 1:
-        out["x"] = a * _pow(xi, a - 1) * _pow(eta, b)
-        out["y"] = b * _pow(xi, a) * _pow(eta, b - 1)
+        out["x"] = ca * term(1, 0)
+        out["y"] = cb * term(0, 1)
     if order >= 2:
-        out["xx"] = a * (a - 1) * _pow(xi, a - 2) * _pow(eta, b)
-        out["xy"] = a * b * _pow(xi, a - 1) * _pow(eta, b - 1)
-        out["yy"] = b * (b - 1) * _pow(xi, a) * _pow(eta, b - 2)
+        out["xx"] = ca * (ca - 1) * term(2, 0)
+        out["xy"] = ca * cb * term(1, 1)
+        out["yy"] = cb * (cb - 1) * term(0, 2)
     return out
 
 
@@ -94,7 +105,7 @@ def local_coefficients(p: np.ndarray, t: np.ndarray):
     for k in range(3):
         m = monomials(loc[k, 0], loc[k, 1])
         for j, key in enumerate(("", "x", "y", "xx", "xy", "yy")):
-            rows[:, 6 * k + j, :] = m[key]
+            rows[:, 6 * k + j, :] = m[key].T
             order[6 * k + j] = len(key)
     for k, (i, j) in enumerate(_EDGES):
         lo = np.where(t[i] < t[j], i, j)
@@ -105,7 +116,7 @@ def local_coefficients(p: np.ndarray, t: np.ndarray):
         normal /= np.linalg.norm(normal, axis=1, keepdims=True)
         mid = 0.5 * (loc[i] + loc[j])
         m = monomials(mid[0], mid[1], order=1)
-        rows[:, 18 + k, :] = normal[:, :1] * m["x"] + normal[:, 1:] * m["y"]
+        rows[:, 18 + k, :] = (normal[:, 0] * m["x"] + normal[:, 1] * m["y"]).T
         order[18 + k] = 1
     coef = np.linalg.inv(rows)
     coef *= scale[:, None, None] ** order[None, None, :]
@@ -145,20 +156,31 @@ class ElementTriArgyrisLocal(ElementTriArgyris):
         eta = (x[1] - centre[1, tind][:, None]) / s
         m = monomials(xi, eta)
         c = coef[tind]  # (nel, 21, 21)
+        nel, nq = xi.shape
+        grad = np.empty((2, 21, nel, nq))
+        hess = np.empty((2, 2, 21, nel, nq))
+        value = np.empty((21, nel, nq))
+        targets = (("", 0, value), ("x", 1, grad[0]), ("y", 1, grad[1]),
+                   ("xx", 2, hess[0, 0]), ("xy", 2, hess[0, 1]), ("yy", 2, hess[1, 1]))
+        for key, power, out in targets:
+            cp = c / scale[tind][:, None, None] ** power if power else c
+            out[...] = np.einsum("keq,eki->ieq", m[key], cp, optimize=True)
+        hess[1, 0] = hess[0, 1]
+        return value, grad, hess
 
-        def comb(key, power):
-            return np.einsum("eqk,eki->ieq", m[key], c, optimize=True) / s**power
+    def fields(self, mapping, X, tind=None):
+        """All 21 basis functions at once: value (21, nel, nq), grad (2, 21, …), hess (2, 2, 21, …).
 
-        value = comb("", 0)
-        gx, gy = comb("x", 1), comb("y", 1)
-        hxx, hxy, hyy = comb("xx", 2), comb("xy", 2), comb("yy", 2)
-        return value, np.stack([gx, gy]), np.array([[hxx, hxy], [hxy, hyy]])
-
-    def gbasis(self, mapping, X, i, tind=None):
+        The result of the last call is cached (keyed on the identity of the arguments), so the
+        21 calls of :meth:`gbasis` made by a basis cost one evaluation.
+        """
         last = self._last
         if last is None or last[0] is not mapping or last[1] is not X or last[2] is not tind:
             self._last = (mapping, X, tind, self._all_fields(mapping, X, tind))
-        value, grad, hess = self._last[3]
+        return self._last[3]
+
+    def gbasis(self, mapping, X, i, tind=None):
+        value, grad, hess = self.fields(mapping, X, tind)
         return (DiscreteField(value=value[i], grad=grad[:, i], hess=hess[:, :, i]),)
 
 
@@ -186,7 +208,7 @@ class ArgyrisEvaluator:
         s = self.scale[e]
         xi = (np.ravel(x) - self.centre[0, e]) / s
         eta = (np.ravel(y) - self.centre[1, e]) / s
-        return e, monomials(xi, eta, order=0)[""]
+        return e, monomials(xi, eta, order=0)[""].T
 
     def values(self, u: np.ndarray, x: np.ndarray, y: np.ndarray) -> np.ndarray:
         """Field with global DOF vector ``u`` at the points (shape of ``x``)."""

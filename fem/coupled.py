@@ -135,17 +135,19 @@ class _Solver:
         return spla.LinearOperator((self.n, self.n), matvec=lambda x: K @ x - BT @ (d * (B @ x)),
                                    dtype=float)
 
+    def factor_t(self, lam, u):
+        """Sparse LU of J = K − λG (symmetric mode, no pivoting; partial pivoting as fallback)."""
+        d = lam * self.g_diag(u)
+        J = (self.K - self.BT @ sp.diags(d) @ self.B).tocsc()
+        try:
+            return spla.splu(J, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.0,
+                             options={"SymmetricMode": True})
+        except RuntimeError:  # exactly singular pivot (at the fold): pivot
+            return spla.splu(J)
+
     def solve_t(self, lam, u, rhs):
-        """Solve J x = rhs by GMRES preconditioned with K⁻¹."""
-        op = self.tangent_op(lam, u)
-        prec = spla.LinearOperator((self.n, self.n), matvec=self.lu.solve, dtype=float)
-        x0 = self.lu.solve(rhs)
-        x, info = spla.gmres(op, rhs, x0=x0, M=prec, rtol=1e-12, atol=0.0, restart=60, maxiter=20)
-        if info != 0:  # nearly singular J (at the fold): fall back to a direct solve
-            d = lam * self.g_diag(u)
-            J = (self.K - self.BT @ sp.diags(d) @ self.B).tocsc()
-            x = spla.spsolve(J, rhs)
-        return x
+        """Solve J x = rhs (direct)."""
+        return self.factor_t(lam, u).solve(np.asarray(rhs, float))
 
     def min_stiffness_ratio(self, lam, u) -> float:
         """μ = 1 − λ·max eig(K⁻¹ G): J is positive definite while μ > 0."""
@@ -161,32 +163,45 @@ class _Solver:
         vals = spla.eigs(op, k=1, which="LM", return_eigenvectors=False, tol=1e-8, maxiter=2000)
         return float(1.0 - lam * np.max(vals.real))
 
-    def displacement_control(self, w0, u, lam, tol=1e-11, maxit=30):
+    def displacement_control(self, w0, u, lam, tol=1e-10, maxit=40, exact_slope=False):
+        """Newton (chord steps with the last factorisation while they contract fast) for
+        K u = λ f(u) with cᵀu = w0; returns (u, λ) and sets ``last_slope`` = dλ/dw0."""
+        if w0 == 0.0:
+            return np.zeros(self.n), 0.0
+        lu, prev = None, None
         for _ in range(maxit):
             f = self.force(u)
             r = lam * f - self.K @ u
-            a = self.solve_t(lam, u, f)
-            b = self.solve_t(lam, u, r)
+            if lu is None:
+                lu = self.factor_t(lam, u)
+            a, b = lu.solve(f), lu.solve(r)
             dlam = (w0 - self.c @ u - self.c @ b) / (self.c @ a)
             du = b + dlam * a
             u, lam = u + du, lam + dlam
-            if np.max(np.abs(du)) <= tol * max(abs(w0), 1e-30) and abs(dlam) <= tol * abs(lam):
+            self.last_slope = 1.0 / (self.c @ a)  # dλ/dw0 along the branch (0 at the fold)
+            step = np.max(np.abs(du))
+            if step <= tol * max(abs(w0), 1e-6 * self.g) and abs(dlam) <= tol * max(abs(lam), 1e-300):
+                if exact_slope:  # from the tangent at the solution, not the chord
+                    self.last_slope = 1.0 / (self.c @ self.factor_t(lam, u).solve(self.force(u)))
                 return u, lam
+            if prev is not None and step > 0.1 * prev:
+                lu = None  # slow contraction: refactor the tangent
+            prev = step
         raise CoupledError(f"Newton (displacement control) did not converge at w0 = {w0:.4g} m")
 
-    def voltage_control(self, lam, u, tol=1e-11, maxit=50):
+    def voltage_control(self, lam, u, tol=1e-10, maxit=30):
         for _ in range(maxit):
             r = lam * self.force(u) - self.K @ u
             du = self.solve_t(lam, u, r)
             u = u + du
-            if np.max(np.abs(du)) <= tol * max(np.max(np.abs(u)), 1e-30):
+            if np.max(np.abs(du)) <= tol * max(np.max(np.abs(u)), 1e-6 * self.g):
                 return u
         raise CoupledError(f"Newton (voltage control) did not converge at V² = {lam:.4g} V²")
 
 
-def _point(solver: _Solver, u, lam) -> EquilibriumPoint:
-    return EquilibriumPoint(float(solver.c @ u), float(np.sqrt(max(lam, 0.0))), u,
-                            solver.min_stiffness_ratio(lam, u))
+def _point(solver: _Solver, u, lam, stability: bool = True) -> EquilibriumPoint:
+    mu = solver.min_stiffness_ratio(lam, u) if stability else float("nan")
+    return EquilibriumPoint(float(solver.c @ u), float(np.sqrt(max(lam, 0.0))), u, mu)
 
 
 def _vertex(x: np.ndarray, y: np.ndarray) -> tuple[float, float]:
@@ -199,50 +214,61 @@ def _vertex(x: np.ndarray, y: np.ndarray) -> tuple[float, float]:
     return float(xv), float(np.polyval([a, b, c], xv))
 
 
+def lam_k_prev_slope_small(pts) -> bool:
+    """Use the exact tangent slope once the branch flattens (λ' below a quarter of its start)."""
+    return len(pts) >= 2 and pts[-1][3] < 0.25 * pts[0][3]
+
+
 def trace_branch(system: CouplingSystem, load: ElectrostaticLoad, gap_m: float, *,
-                 steps: int = 16, max_fraction: float = 0.75, refine: int = 6) -> Branch:
+                 steps: int = 12, max_fraction: float = 0.72) -> Branch:
     """Follow the equilibrium branch from rest to beyond the fold; return it with the pull-in point.
 
-    The centre deflection is stepped uniformly up to ``max_fraction``·g (stopping early once λ has
-    clearly passed its maximum); the fold is then refined by ``refine`` bisection steps around the
-    maximum of λ(w0) and located by a parabola through the three best points.
+    The centre deflection w0 is stepped uniformly (secant predictor, Newton corrector) up to
+    ``max_fraction``·g, stopping one step after the fold. Along the branch dλ/dw0 = 1/(cᵀJ⁻¹f)
+    comes free with each Newton step; the fold is its zero, found by Brent's method inside the
+    bracketing step, so V_PI is accurate to the Newton tolerance, not to the step size.
     """
+    from scipy.optimize import brentq
+
     solver = _Solver(system, load, gap_m)
     u = np.zeros(solver.n)
-    # first guess of λ from the linear problem: w0 = λ cᵀK⁻¹f(0)
     f0 = solver.force(u)
     s0 = solver.c @ solver.lu.solve(f0)
     if s0 <= 0:
         raise CoupledError("the electrostatic load does not pull the centre towards the backplate")
     dw = max_fraction * gap_m / steps
-    lam = dw / s0
-    pts: list[tuple[float, float, np.ndarray]] = [(0.0, 0.0, u)]
+    pts: list[tuple[float, float, np.ndarray, float]] = [(0.0, 0.0, u, 1.0 / s0)]
     for k in range(1, steps + 1):
         w0 = k * dw
+        if len(pts) >= 2:  # secant predictor along the branch
+            (w_a, l_a, u_a, _), (w_b, l_b, u_b, _) = pts[-2], pts[-1]
+            t = (w0 - w_b) / (w_b - w_a)
+            u_pred, lam_pred = u_b + t * (u_b - u_a), l_b + t * (l_b - l_a)
+        else:
+            u_pred, lam_pred = (w0 / s0) * solver.lu.solve(f0), w0 / s0
         try:
-            u_k, lam_k = solver.displacement_control(w0, pts[-1][2], lam)
+            u_k, lam_k = solver.displacement_control(w0, u_pred, lam_pred,
+                                                     exact_slope=lam_k_prev_slope_small(pts))
         except CoupledError:
             break
-        pts.append((w0, lam_k, u_k))
-        lam = lam_k
-        if len(pts) >= 4 and pts[-1][1] < pts[-2][1] < pts[-3][1]:
+        pts.append((w0, lam_k, u_k, solver.last_slope))
+        if solver.last_slope < 0:
             break
-    lams = np.array([p[1] for p in pts])
-    i = int(np.argmax(lams))
-    if i == len(pts) - 1:
+    if pts[-1][3] >= 0:
         raise CoupledError(f"no pull-in found up to a centre deflection of "
                            f"{pts[-1][0] / gap_m:.2f} gap")
-    # bisection-style refinement around the maximum of λ(w0)
-    for _ in range(refine):
-        w_lo, w_hi = pts[i - 1][0], pts[i + 1][0]
-        for w0 in (0.5 * (w_lo + pts[i][0]), 0.5 * (pts[i][0] + w_hi)):
-            u_k, lam_k = solver.displacement_control(w0, pts[i][2], pts[i][1])
-            pts.append((w0, lam_k, u_k))
-        pts.sort(key=lambda p: p[0])
-        lams = np.array([p[1] for p in pts])
-        i = int(np.argmax(lams))
-    w_pi, lam_pi = _vertex(np.array([p[0] for p in pts[i - 1:i + 2]]), lams[i - 1:i + 2])
-    points = tuple(_point(solver, p[2], p[1]) for p in pts)
+    lo, hi = pts[-2], pts[-1]
+    state = {"u": lo[2], "lam": lo[1]}
+
+    def slope(w0):
+        u_k, lam_k = solver.displacement_control(w0, state["u"], state["lam"], exact_slope=True)
+        state.update(u=u_k, lam=lam_k)
+        return solver.last_slope
+
+    w_pi = brentq(slope, lo[0], hi[0], xtol=1e-10 * gap_m, rtol=1e-12)
+    u_pi, lam_pi = solver.displacement_control(w_pi, state["u"], state["lam"])
+    pts.insert(-1, (w_pi, lam_pi, u_pi, 0.0))
+    points = tuple(_point(solver, p[2], p[1], stability=False) for p in pts)
     return Branch(points, float(np.sqrt(lam_pi)), float(w_pi))
 
 
@@ -273,6 +299,14 @@ def equilibrium_at_voltage(system: CouplingSystem, load: ElectrostaticLoad, gap_
         cache.update(u=u, lam=lam)
         return lam - lam_t
 
+    if voltage_v < 0.9 * branch.pull_in_voltage_v and hi:  # well below the fold: Newton in V
+        l_lo, l_hi = lo.voltage_v**2, hi[0].voltage_v**2
+        t = (lam_t - l_lo) / (l_hi - l_lo)
+        try:
+            u = solver.voltage_control(lam_t, lo.u + t * (hi[0].u - lo.u))
+            return _point(solver, u, lam_t)
+        except CoupledError:
+            pass
     w = brentq(residual, lo.center_deflection_m, w_hi, xtol=1e-12 * gap_m, rtol=1e-12)
     u, lam = solver.displacement_control(w, cache["u"], cache["lam"])
     return _point(solver, u, lam)

@@ -119,6 +119,7 @@ def main(argv: list[str] | None = None) -> int:
         return EXIT_OK
     logging.basicConfig(level=logging.INFO if getattr(args, "verbose", False) else logging.WARNING,
                         format="diagap: %(message)s")
+    logging.getLogger("skfem").setLevel(logging.WARNING)
     if getattr(args, "no_cache", False):
         from meshes import set_enabled
 

@@ -83,8 +83,8 @@ SCHEMA: dict[str, dict[str, Field]] = {
         "hole_pitch": _length(),
     },
     "acoustics": {
-        "back_volume": Field("m^3", low=0.0),
-        "vent_resistance": Field("Pa*s/m^3", low=0.0),
+        "back_volume": Field("m^3", low=0.0, required=True),
+        "vent_resistance": Field("Pa*s/m^3", low=0.0, required=True),
         "temperature": Field("K", low=173.15, high=473.15, low_open=False, high_open=False,
                              default=293.15),
         "static_pressure": Field("Pa", low=1e3, high=1e6, low_open=False, high_open=False,
@@ -145,8 +145,8 @@ class Backplate:
 
 @dataclass(frozen=True)
 class Acoustics:
-    back_volume_m3: float | None  # None: open back (no back-volume stiffness)
-    vent_resistance_pa_s_per_m3: float | None  # None: sealed (no pressure-equalisation path)
+    back_volume_m3: float  # closed volume behind the backplate
+    vent_resistance_pa_s_per_m3: float  # static-pressure equalisation path
     temperature_k: float
     static_pressure_pa: float
 

@@ -53,10 +53,31 @@ def _stage(result: RunResult, name: str, func, *args, **kw):
 
 
 def run_design(design: Design) -> RunResult:
-    """Run every stage of the analysis for ``design``."""
+    """Run every stage of the analysis for ``design``.
+
+    A bias at or above pull-in marks the run ``collapsed``: the sections that do not depend on the
+    bias point (mechanics, electrostatics, damping) are kept, the coupled section reports the
+    pull-in voltage with ``collapsed = true``, and the lumped response and audit rows that need a
+    bias point are left out.
+    """
     from fem.plate import solve_plate
+
+    from .audit import audit_design
+    from .stages import (coupled_stage, damping_stage, electrostatics_stage, lumped_model,
+                         response_stage)
 
     result = RunResult(design)
     acc = design.analysis.accuracy
-    _stage(result, "mechanics", solve_plate, plate_problem(design), accuracy=acc)
+    problem = plate_problem(design)
+    mech = _stage(result, "mechanics", solve_plate, problem, accuracy=acc)
+    es = _stage(result, "electrostatics", electrostatics_stage, design, mech)
+    cp = _stage(result, "coupled", coupled_stage, design, problem, es)
+    result.collapsed = bool(cp.objects["coupled"].collapsed)
+    f_res = cp.objects["coupled"].resonance_at_bias_hz or mech.natural_frequencies_hz[0]
+    damp = _stage(result, "damping", damping_stage, design, mech, f_res)
+    if not result.collapsed:
+        model = lumped_model(design, mech, es, cp, damp)
+        _stage(result, "response", response_stage, model)
+    sections = {k: v.to_summary() for k, v in result.sections.items()}
+    _stage(result, "audit", audit_design, design, sections)
     return result

@@ -13,8 +13,8 @@ height H lies above it. Two kinds of cell:
   out of the backplate layer; linear tetrahedra with the same two boundary groups.
 
 Both meshes are graded towards the hole rim (the two circles r = a, z = 1 and z = 1 + t) with
-the size law h(d) = min(h_max, h_rim + grading·d), d being the distance to the nearer rim, given
-to gmsh as a ``MathEval`` size field. The air is built from fragments (gap, hole, air above) so
+the size law of :class:`MeshSizes` (linear growth with the distance d to the nearer rim, capped
+in the gap layer and overall), given to gmsh as a ``MathEval`` size field. The air is built from fragments (gap, hole, air above) so
 that the plane z = 1 is a mesh surface also inside the hole. Meshes are cached on disk
 (:mod:`meshes.cache`). This module knows nothing of physics: names refer to geometry only.
 """
@@ -36,6 +36,8 @@ __all__ = [
     "tagged_mesh_arrays",
     "to_skfem",
 ]
+
+_GENERATOR = 1  # bump when the output of this module changes (invalidates cached meshes)
 
 
 @dataclass(frozen=True)
@@ -67,20 +69,33 @@ class CellGeometry:
 
 @dataclass(frozen=True)
 class MeshSizes:
-    """Element size law h(d) = min(h_max, h_rim + grading·d) (units of the gap)."""
+    """Element size law (units of the gap).
+
+    h = min(h_max, h_rim + grading·d, h_gap + grading·max(0, z − 1)): graded from ``h_rim``
+    at the hole rim (distance d), at most ``h_gap`` inside the gap layer (growing again above
+    it) and at most ``h_max`` anywhere.
+    """
 
     h_rim: float
     grading: float
     h_max: float
+    h_gap: float
 
     def as_dict(self) -> dict:
-        return {"h_rim": self.h_rim, "grading": self.grading, "h_max": self.h_max}
+        return {"h_rim": self.h_rim, "grading": self.grading, "h_max": self.h_max,
+                "h_gap": self.h_gap}
 
     def check(self) -> None:
-        if not (0 < self.h_rim <= self.h_max) or self.grading <= 0:
+        if not (0 < self.h_rim <= min(self.h_max, self.h_gap)) or self.grading <= 0:
             raise ValueError(
-                f"mesh sizes must satisfy 0 < h_rim <= h_max and grading > 0, got "
-                f"h_rim={self.h_rim}, h_max={self.h_max}, grading={self.grading}")
+                f"mesh sizes must satisfy 0 < h_rim <= min(h_max, h_gap) and grading > 0, "
+                f"got h_rim={self.h_rim}, h_max={self.h_max}, h_gap={self.h_gap}, "
+                f"grading={self.grading}")
+
+
+def _num(value: float) -> str:
+    """A float as gmsh's expression parser reads it (plain digits, no numpy repr)."""
+    return f"{float(value):.17g}"
 
 
 def _size_field(gmsh, expr: str) -> None:
@@ -92,15 +107,18 @@ def _size_field(gmsh, expr: str) -> None:
     gmsh.option.setNumber("Mesh.MeshSizeFromCurvature", 0)
 
 
-def _rim_law(sizes: MeshSizes, distance: str) -> str:
-    return f"Min({sizes.h_max!r}, {sizes.h_rim!r} + {sizes.grading!r}*({distance}))"
+def _rim_law(sizes: MeshSizes, distance: str, height: str) -> str:
+    gr = _num(sizes.grading)
+    return (f"Min({_num(sizes.h_max)}, Min({_num(sizes.h_rim)} + {gr}*({distance}), "
+            f"{_num(sizes.h_gap)} + {gr}*Max(0, {height} - 1)))")
 
 
 def tagged_mesh_arrays(gmsh, dim: int) -> dict:
-    """Nodes, cells and named boundary facets of the current gmsh model as arrays.
+    """Nodes, cells and named groups of the current gmsh model as arrays.
 
-    Returns ``{"p": (dim, N), "t": (dim+1, M), "b_<name>": (dim, K)}`` where each ``b_<name>``
-    holds the facets (node index tuples) of the physical group ``name`` of dimension dim − 1.
+    Returns ``{"p": (dim, N), "t": (dim+1, M), "b_<name>": (dim, K), "s_<name>": (L,)}``:
+    ``b_<name>`` holds the facets (node index tuples) of the physical group ``name`` of
+    dimension dim − 1 and ``s_<name>`` the cell indices of a physical group of dimension dim.
     Nodes not used by any cell are removed.
     """
     tags, coords, _ = gmsh.model.mesh.getNodes()
@@ -108,21 +126,30 @@ def tagged_mesh_arrays(gmsh, dim: int) -> dict:
     index = np.full(int(tags.max()) + 1, -1, dtype=np.int64)
     index[tags.astype(np.int64)] = np.arange(tags.size)
     cell_type, facet_type = {2: (2, 1), 3: (4, 2)}[dim]
-    etypes, _, enodes = gmsh.model.mesh.getElements(dim)
-    t = np.vstack([index[n.astype(np.int64)].reshape(-1, dim + 1)
-                   for et, n in zip(etypes, enodes) if et == cell_type]).T
+    blocks, owner = [], []
+    for _, ent in gmsh.model.getEntities(dim):
+        et, _, en = gmsh.model.mesh.getElements(dim, ent)
+        for e, n in zip(et, en):
+            if e == cell_type:
+                blocks.append(index[n.astype(np.int64)].reshape(-1, dim + 1))
+                owner.append(np.full(blocks[-1].shape[0], ent))
+    t, owner = np.vstack(blocks).T, np.concatenate(owner)
     used = np.unique(t)
     remap = np.full(xyz.shape[1], -1, dtype=np.int64)
     remap[used] = np.arange(used.size)
     out = {"p": np.ascontiguousarray(xyz[:, used]), "t": np.ascontiguousarray(remap[t])}
+    for gtag_dim, gtag in gmsh.model.getPhysicalGroups(dim):
+        name = gmsh.model.getPhysicalName(gtag_dim, gtag)
+        ents = gmsh.model.getEntitiesForPhysicalGroup(gtag_dim, gtag)
+        out[f"s_{name}"] = np.nonzero(np.isin(owner, ents))[0]
     for gdim, gtag in gmsh.model.getPhysicalGroups(dim - 1):
         name = gmsh.model.getPhysicalName(gdim, gtag)
-        blocks = []
+        fblocks = []
         for ent in gmsh.model.getEntitiesForPhysicalGroup(gdim, gtag):
             et, _, en = gmsh.model.mesh.getElements(gdim, ent)
-            blocks += [index[n.astype(np.int64)].reshape(-1, dim)
-                       for e, n in zip(et, en) if e == facet_type]
-        facets = remap[np.vstack(blocks).T] if blocks else np.zeros((dim, 0), np.int64)
+            fblocks += [index[n.astype(np.int64)].reshape(-1, dim)
+                        for e, n in zip(et, en) if e == facet_type]
+        facets = remap[np.vstack(fblocks).T] if fblocks else np.zeros((dim, 0), np.int64)
         out[f"b_{name}"] = np.ascontiguousarray(facets)
     return out
 
@@ -130,8 +157,9 @@ def tagged_mesh_arrays(gmsh, dim: int) -> dict:
 def to_skfem(arrays: dict):
     """A scikit-fem mesh (MeshTri or MeshTet1) with the named boundaries of ``arrays``.
 
-    Raises ValueError if a named boundary does not match mesh facets (an empty or wrong
-    selection would silently give a zero capacitance).
+    Named boundaries may be interior facets (thin electrodes); ``s_<name>`` arrays become
+    subdomains. Raises ValueError if a named boundary does not match mesh facets (an empty or
+    wrong selection would silently give a zero capacitance).
     """
     p, t = arrays["p"], arrays["t"]
     mesh = (MeshTri if p.shape[0] == 2 else MeshTet1)(p, t)
@@ -150,7 +178,9 @@ def to_skfem(arrays: dict):
         if np.any(keys[idx] != k):
             raise ValueError(f"mesh boundary {name[2:]!r} has facets that are not mesh facets")
         bounds[name[2:]] = np.unique(idx)
-    return mesh.with_boundaries(bounds)
+    mesh = mesh.with_boundaries(bounds, boundaries_only=False)
+    subs = {k[2:]: arrays[k] for k in arrays if k.startswith("s_")}
+    return mesh.with_subdomains(subs) if subs else mesh
 
 
 def _classify_2d(gmsh, geo: CellGeometry, groups: dict) -> None:
@@ -189,11 +219,11 @@ def _build_axisymmetric(geo: CellGeometry, sizes: MeshSizes) -> dict:
             parts = [occ.addRectangle(0, 0, 0, R, 1.0), occ.addRectangle(0, 1.0, 0, a, t),
                      occ.addRectangle(0, 1.0 + t, 0, R, H)]
             occ.fragment([(2, parts[0])], [(2, q) for q in parts[1:]])
-            distance = (f"Min(Sqrt((x-{a!r})^2 + (y-1)^2), "
-                        f"Sqrt((x-{a!r})^2 + (y-{1 + t!r})^2))")
+            distance = (f"Min(Sqrt((x-{_num(a)})^2 + (y-1)^2), "
+                        f"Sqrt((x-{_num(a)})^2 + (y-{_num(1 + t)})^2))")
         occ.synchronize()
         _classify_2d(gmsh, geo, ("bottom", "backplate"))
-        _size_field(gmsh, _rim_law(sizes, distance))
+        _size_field(gmsh, _rim_law(sizes, distance, "y"))
         gmsh.option.setNumber("Mesh.Algorithm", 5)
         gmsh.model.mesh.generate(2)
         return tagged_mesh_arrays(gmsh, 2)
@@ -217,7 +247,7 @@ def axisymmetric_cell_mesh(geo: CellGeometry, sizes: MeshSizes) -> MeshTri:
     """
     _check_geometry(geo, prism=False)
     sizes.check()
-    params = {**geo.as_dict(), **sizes.as_dict()}
+    params = {**geo.as_dict(), **sizes.as_dict(), "gen": _GENERATOR}
     arr = cached_arrays("cell-rz", params, lambda: _build_axisymmetric(geo, sizes))
     return to_skfem(arr)
 
@@ -273,9 +303,9 @@ def _build_prism(lattice: str, geo: CellGeometry, sizes: MeshSizes) -> dict:
         occ.synchronize()
         _classify_3d(gmsh, geo)
         rho = "Sqrt(x^2 + y^2)"
-        distance = (f"Min(Sqrt(({rho}-{a!r})^2 + (z-1)^2), "
-                    f"Sqrt(({rho}-{a!r})^2 + (z-{1 + t!r})^2))")
-        _size_field(gmsh, _rim_law(sizes, distance))
+        distance = (f"Min(Sqrt(({rho}-{_num(a)})^2 + (z-1)^2), "
+                    f"Sqrt(({rho}-{_num(a)})^2 + (z-{_num(1 + t)})^2))")
+        _size_field(gmsh, _rim_law(sizes, distance, "z"))
         gmsh.option.setNumber("Mesh.Algorithm3D", 1)
         gmsh.model.mesh.generate(3)
         return tagged_mesh_arrays(gmsh, 3)
@@ -293,6 +323,6 @@ def prism_cell_mesh(lattice: str, geo: CellGeometry, sizes: MeshSizes) -> MeshTe
         raise ValueError(f"hole radius {geo.hole_radius} must be below the half pitch "
                          f"{geo.cell_radius}")
     sizes.check()
-    params = {"lattice": lattice, **geo.as_dict(), **sizes.as_dict()}
+    params = {"lattice": lattice, **geo.as_dict(), **sizes.as_dict(), "gen": _GENERATOR}
     arr = cached_arrays("cell-prism", params, lambda: _build_prism(lattice, geo, sizes))
     return to_skfem(arr)

@@ -1,0 +1,231 @@
+"""Equivalent circuit of the capsule: acoustic, mechanical and electrical elements.
+
+Analogy: acoustic impedance analogy throughout — pressure ↔ voltage, volume velocity ↔ current.
+The diaphragm's mechanical elements enter through its effective area A (force = A·Δp, volume
+velocity U = A·ẋ): acoustic mass M_a = m/A², resistance R_a = b/A², compliance C_a = A²/k.
+
+Circuit (front node ``p`` driven by the sound pressure, back-volume node ``b``, output node ``v``)::
+
+    p ──[ M_a ─ R_a(f) ─ C_a ─ (−k_e) ─ E_Γ ]── b ──┬── C_bv ── ground
+    │        diaphragm branch, current U          │
+    └────────────────[ R_v ]───────────────────────┘       (vent, front ↔ back volume)
+
+    V_b (AC ground) ──[ R_bias ]── v ──┬── C0 ∥ C_p ∥ C_in ── ground
+                                       └── motional current (Γ/A)·U ── ground
+
+Equations (phasors e^{jωt}; x = U/(jωA)):
+
+* diaphragm branch: p − p_b = Z_d·U − (Γ/A)·v − f_n/A, with
+  Z_d = jωM_a + b(ω)/A² + (k + k_film(ω) − k_e)/(jωA²);
+  this is m ẍ + b ẋ + (k + k_film)x = A(p − p_b) + k_e x + Γ v + f_n divided by A, the
+  linearised force δF = Γδv + k_e δx of :mod:`lumped.model`;
+* back-volume node (KCL): jωC_bv·p_b = U + (p − p_b + e_v)/R_v, C_bv = V/(γ p0)
+  (Beranek, *Acoustics*, 1954, ch. 5 [from memory]);
+* output node (KCL): (e_R − v)/R = jωC_node·v + (Γ/A)·U, the motional current being
+  d(Γx)/dt from δq = C0 δv + Γ δx;
+
+with noise sources f_n (force on the diaphragm), e_v (pressure in series with the vent) and e_R
+(voltage in series with R_bias).  Eliminating p_b and v gives the total branch impedance
+
+    Z = Z_d + 1/Y_b + (Γ/A)²/Y_e,   Y_b = jωC_bv + 1/R_v,   Y_e = 1/R + jωC_node,
+
+    U = [p·H_v − e_v/(R_v Y_b) + f_n/A + (Γ/A)·e_R/(R·Y_e)] / Z,   H_v = jωR_vC_bv/(1 + jωR_vC_bv),
+    v = [e_R/R − (Γ/A)·U] / Y_e.
+
+Constant voltage and constant charge are the two limits of the same term (Γ/A)²/Y_e: for
+ωRC_node ≪ 1 it is (Γ/A)²R, a small resistance, and the diaphragm feels the softening −k_e alone
+(constant voltage); for ωRC_node ≫ 1 it is the compliance A²C_node/Γ², a stiffness Γ²/C_node that
+restores k − k_e + Γ²/C_node (constant charge).  The same Y_e gives the electrical high-pass
+v = −(Γ/C_node)·x·jωτ/(1 + jωτ), τ = R·C_node, when the motion is imposed.  Units: SI.
+
+:class:`NonlinearTransducer` is the large-signal form of the same two-port (readout q/C_t(x) and
+force ½v²C'(x)) used by :mod:`lumped.distortion`.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from .model import CapacitanceCurve, LumpedModel, LumpedModelError
+
+__all__ = ["AcousticElements", "acoustic_elements", "CircuitSolution", "solve_circuit",
+           "NonlinearTransducer"]
+
+
+@dataclass(frozen=True)
+class AcousticElements:
+    """Element values of the equivalent circuit (acoustic analogy, SI).
+
+    Attributes
+    ----------
+    mass_kg_per_m4 : M_a = m/A².
+    resistance_pa_s_per_m3 : R_a = b/A² (low-frequency b).
+    compliance_m3_per_pa : C_a = A²/k (mechanical stiffness only, no bias, no film).
+    electrostatic_compliance_m3_per_pa : A²/k_e (negative compliance in the branch, inf if k_e=0).
+    back_volume_compliance_m3_per_pa : C_bv = V/(γ p0).
+    vent_resistance_pa_s_per_m3 : R_v.
+    transduction_pa_per_v : Γ/A — pressure per volt in the branch; also amperes of motional
+        current per m³/s of volume velocity.
+    node_capacitance_f : C0 + C_p + C_in.
+    bias_resistance_ohm : R_bias.
+    """
+
+    mass_kg_per_m4: float
+    resistance_pa_s_per_m3: float
+    compliance_m3_per_pa: float
+    electrostatic_compliance_m3_per_pa: float
+    back_volume_compliance_m3_per_pa: float
+    vent_resistance_pa_s_per_m3: float
+    transduction_pa_per_v: float
+    node_capacitance_f: float
+    bias_resistance_ohm: float
+
+
+def acoustic_elements(model: LumpedModel) -> AcousticElements:
+    """Element values of ``model`` in the acoustic impedance analogy."""
+    a2 = model.area_m2**2
+    ke = model.electrostatic_stiffness_n_per_m
+    return AcousticElements(
+        mass_kg_per_m4=model.mass_kg / a2,
+        resistance_pa_s_per_m3=model.damping_n_s_per_m / a2,
+        compliance_m3_per_pa=a2 / model.stiffness_n_per_m,
+        electrostatic_compliance_m3_per_pa=a2 / ke if ke != 0 else np.inf,
+        back_volume_compliance_m3_per_pa=model.back_volume_compliance_m3_per_pa,
+        vent_resistance_pa_s_per_m3=model.vent_resistance_pa_s_per_m3,
+        transduction_pa_per_v=model.transduction_n_per_v / model.area_m2,
+        node_capacitance_f=model.node_capacitance_f,
+        bias_resistance_ohm=model.bias_resistance_ohm,
+    )
+
+
+@dataclass(frozen=True)
+class CircuitSolution:
+    """Per-frequency pieces of the solved circuit (complex arrays, SI).
+
+    Attributes
+    ----------
+    frequency_hz : (n,)
+    branch_impedance : Z, total impedance in the diaphragm branch (Pa·s/m³).
+    electrical_admittance : Y_e = 1/R + jωC_node (S).
+    vent_highpass : H_v = jωR_vC_bv/(1 + jωR_vC_bv).
+    back_admittance : Y_b = jωC_bv + 1/R_v (m³/(Pa·s)).
+    """
+
+    frequency_hz: np.ndarray
+    branch_impedance: np.ndarray
+    electrical_admittance: np.ndarray
+    vent_highpass: np.ndarray
+    back_admittance: np.ndarray
+    model: LumpedModel
+
+    @property
+    def omega(self) -> np.ndarray:
+        return 2.0 * np.pi * self.frequency_hz
+
+    def volume_velocity(self, *, pressure_pa=0.0, force_n=0.0, vent_pressure_pa=0.0,
+                        resistor_voltage_v=0.0) -> np.ndarray:
+        """Diaphragm volume velocity U (m³/s) for the given source phasors."""
+        m = self.model
+        g = m.transduction_n_per_v / m.area_m2
+        rhs = (pressure_pa * self.vent_highpass
+               - vent_pressure_pa / (m.vent_resistance_pa_s_per_m3 * self.back_admittance)
+               + force_n / m.area_m2
+               + g * resistor_voltage_v / (m.bias_resistance_ohm * self.electrical_admittance))
+        return rhs / self.branch_impedance
+
+    def output_voltage(self, *, resistor_voltage_v=0.0, **sources) -> np.ndarray:
+        """Output node voltage v (V) for the given source phasors."""
+        m = self.model
+        u = self.volume_velocity(resistor_voltage_v=resistor_voltage_v, **sources)
+        g = m.transduction_n_per_v / m.area_m2
+        return (resistor_voltage_v / m.bias_resistance_ohm - g * u) / self.electrical_admittance
+
+    def displacement(self, **sources) -> np.ndarray:
+        """Centre displacement x = U/(jωA) (m)."""
+        return self.volume_velocity(**sources) / (1j * self.omega * self.model.area_m2)
+
+
+def _frequencies(freqs_hz) -> np.ndarray:
+    f = np.atleast_1d(np.asarray(freqs_hz, float))
+    if f.ndim != 1 or not np.all(np.isfinite(f)) or np.any(f <= 0):
+        raise LumpedModelError(f"freqs_hz = {f.tolist()[:4]}...: must be finite and > 0 Hz")
+    return f
+
+
+def solve_circuit(model: LumpedModel, freqs_hz) -> CircuitSolution:
+    """Assemble and reduce the circuit at each frequency (see the module docstring)."""
+    f = _frequencies(freqs_hz)
+    w = 2.0 * np.pi * f
+    a = model.area_m2
+    b, k_film = model.film(f)
+    k_branch = model.stiffness_n_per_m + k_film - model.electrostatic_stiffness_n_per_m
+    z_d = 1j * w * model.mass_kg / a**2 + b / a**2 + k_branch / (1j * w * a**2)
+    c_bv = model.back_volume_compliance_m3_per_pa
+    r_v = model.vent_resistance_pa_s_per_m3
+    y_b = 1j * w * c_bv + 1.0 / r_v
+    y_e = 1.0 / model.bias_resistance_ohm + 1j * w * model.node_capacitance_f
+    g = model.transduction_n_per_v / a
+    z = z_d + 1.0 / y_b + g**2 / y_e
+    h_v = 1j * w * r_v * c_bv / (1.0 + 1j * w * r_v * c_bv)
+    return CircuitSolution(f, z, y_e, h_v, y_b, model)
+
+
+class NonlinearTransducer:
+    """The capsule as a nonlinear element: readout v(x, q) and force F(x, q), with derivatives.
+
+    With C_t(x) = C(x) + C_p + C_in (C from :meth:`LumpedModel.curve`) and the node charge q:
+    v = q/C_t(x), F = ½v²C'(x) − F0 with F0 = ½V_b²C'(x_b) the static force at the bias point,
+    so (ξ, q) = (0, Q0 = V_b·C_t(x_b)) is the equilibrium.  ``readout_nonlinear`` /
+    ``force_nonlinear`` false replace v or F by its linearisation about that point
+    (∂F/∂x = k_e − Γ²/C_t, ∂F/∂q = Γ/C_t, ∂v/∂x = −Γ/C_t, ∂v/∂q = 1/C_t at the bias point).
+    Arguments ξ are displacements from x_b (m), q in C.
+    """
+
+    def __init__(self, model: LumpedModel, readout_nonlinear: bool = True,
+                 force_nonlinear: bool = True):
+        self.curve: CapacitanceCurve = model.curve()
+        self.xb = model.bias_displacement_m
+        if not self.curve.contains(self.xb):
+            raise LumpedModelError(f"bias_displacement_m = {self.xb!r}: must lie inside the "
+                                   "capacitance curve's x range")
+        self.cpar = model.parasitic_capacitance_f + model.preamp_input_capacitance_f
+        self.vb = model.bias_voltage_v
+        c, c1, c2 = self._c(self.xb)
+        self.ct0 = c + self.cpar
+        self.q0 = self.vb * self.ct0
+        self.f0 = 0.5 * self.vb**2 * c1
+        self.c1 = c1
+        self.k_lin = 0.5 * self.vb**2 * c2 - self.vb**2 * c1**2 / self.ct0
+        self.g_lin = -self.vb * c1 / self.ct0
+        self.readout_nonlinear, self.force_nonlinear = readout_nonlinear, force_nonlinear
+
+    def _c(self, x):
+        return self.curve.capacitance(x), self.curve.slope(x), self.curve.curvature(x)
+
+    def force(self, xi, q):
+        """F_e(x_b + ξ, q) − F_e(x_b, Q0) and its derivatives by ξ and q."""
+        if not self.force_nonlinear:
+            fq = self.q0 * self.c1 / self.ct0**2
+            return (self.k_lin * xi + fq * (q - self.q0), np.full_like(xi, self.k_lin),
+                    np.full_like(xi, fq))
+        c, c1, c2 = self._c(self.xb + xi)
+        ct = c + self.cpar
+        f = 0.5 * q**2 * c1 / ct**2 - self.f0
+        return f, 0.5 * q**2 * (c2 / ct**2 - 2.0 * c1**2 / ct**3), q * c1 / ct**2
+
+    def scalar(self, xi: float, q: float) -> tuple[float, float]:
+        """(force, voltage) at one point, plain floats, both nonlinearities on."""
+        c, c1, _ = self.curve.scalar(self.xb + xi)
+        ct = c + self.cpar
+        v = q / ct
+        return 0.5 * v * v * c1 - self.f0, v
+
+    def voltage(self, xi, q):
+        """v(x_b + ξ, q) and its derivatives by ξ and q."""
+        if not self.readout_nonlinear:
+            return (self.vb + self.g_lin * xi + (q - self.q0) / self.ct0,
+                    np.full_like(xi, self.g_lin), np.full_like(xi, 1.0 / self.ct0))
+        c, c1, _ = self._c(self.xb + xi)
+        ct = c + self.cpar
+        return q / ct, -q * c1 / ct**2, 1.0 / ct

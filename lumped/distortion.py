@@ -1,0 +1,382 @@
+"""Harmonic distortion of the capsule versus sound pressure level (1-DOF nonlinear model).
+
+Model (SI; x = x_b + ξ, ξ the motion about the bias point; q the charge of the output node)::
+
+    m ξ̈ + b ξ̇ + k ξ = A·(p(t) − p_b) + F_e(x, q) − F_e(x_b, Q0)
+    C_bv ṗ_b = A ξ̇ + (p − p_b)/R_v                         (back volume, vent; linear)
+    q̇ = (V_b − v)/R_bias,   v = q / C_t(x),   C_t = C(x) + C_p + C_in
+    F_e = ½ v² C'(x)                                       (co-energy ½C v², force by dC/dx)
+
+with p(t) = √2·p_rms·cos ωt, p_rms = 20 µPa·10^(SPL/20), Q0 = V_b·C_t(x_b).  In the mid band
+(ωR_biasC_t ≫ 1) q is nearly constant over a cycle — the constant-charge regime, v = Q/C_t(x)
+with Q = C_t(x_b)·V_b — and its level is set by the resistor carrying no mean current,
+mean(v) = V_b.  The charge is kept as an unknown rather than frozen because the ripple
+q̃ ≈ −ṽ/(jωR) mixes with C(x) into the harmonics: with the corner a decade below the drive this
+changes THD by ~10 %.  Both electrostatic nonlinearities appear: the readout v = q/C_t(x) and the
+force F_e(x, q).  For a parallel-plate capacitor with C_p = C_in = 0 at held charge the readout
+v = Q(g − x)/(ε0A) is linear in x and the force ½Q²/(ε0A) does not depend on x (Senturia,
+*Microsystem Design*, 2001 [from memory]): no distortion in the constant-charge limit — a check
+used in the tests.  Mechanics and acoustics are linear (small-deflection stiffness, adiabatic
+back volume); they enter per harmonic with their exact frequency dependence (film b(f),
+k_film(f); vent high-pass H_v).
+
+Main method: harmonic balance.  ξ(θ) and q(θ) (θ = ωt) are truncated Fourier series
+a0 + Σ_{n≤N} a_n cos nθ + b_n sin nθ; the linear operators act per harmonic; the nonlinear force
+and voltage are sampled at M = 4N points and projected back (alternating frequency–time
+Galerkin); Newton's method with the exact Jacobian on unknowns scaled by the gap and by Q0.
+N doubles until the upper half of the harmonics carries less than 1e-4 of the THD (or
+1e-10 of the fundamental, the round-off floor).  Check:
+direct integration of the same equations with ``scipy.integrate.solve_ivp`` (DOP853), started
+from the linear steady state and run until the transients have decayed.
+
+THD = √(Σ_{n≥2}|V_n|²)/|V_1| of the output voltage (ratio to the fundamental).  A scan stops when
+the centre displacement leaves the sampled C(x) range (the curve is not known beyond it; it ends
+short of the backplate, where C diverges) or Newton fails; the reason is reported.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+from scipy.integrate import solve_ivp
+
+from .circuit import NonlinearTransducer, solve_circuit
+from .model import CapacitanceCurve, LumpedModel, LumpedModelError
+
+__all__ = ["HarmonicSolution", "DistortionResult", "ConvergenceError", "harmonic_balance",
+           "thd_time_domain", "distortion_vs_spl", "spl_to_pressure_amplitude"]
+
+P_REF_PA = 20e-6  # 0 dB SPL (ISO/IEC acoustics convention)
+
+
+class ConvergenceError(ArithmeticError):
+    """Newton's method or the time integration did not reach a periodic solution."""
+
+
+def spl_to_pressure_amplitude(spl_db: float) -> float:
+    """Peak pressure (Pa) of a sine of the given SPL (dB re 20 µPa rms)."""
+    return math.sqrt(2.0) * P_REF_PA * 10.0 ** (spl_db / 20.0)
+
+
+@dataclass(frozen=True)
+class HarmonicSolution:
+    """Periodic steady state at one SPL and frequency.
+
+    Attributes
+    ----------
+    spl_db, frequency_hz : drive.
+    displacement_harmonics_m : complex (N+1,), ξ = Re Σ X_n e^{jnωt} (X_0 the mean shift).
+    voltage_harmonics_v : complex (N+1,), output voltage about V_b (V_0 the mean shift).
+    thd : THD of the output voltage (fraction, ratio to the fundamental).
+    peak_displacement_m, min_displacement_m : extremes of x = x_b + ξ over the cycle (m).
+    charge_c : mean node charge (C).
+    truncation : share of the THD carried by the upper half of the harmonics.
+    """
+
+    spl_db: float
+    frequency_hz: float
+    displacement_harmonics_m: np.ndarray
+    voltage_harmonics_v: np.ndarray
+    thd: float
+    peak_displacement_m: float
+    min_displacement_m: float
+    charge_c: float
+    truncation: float
+    _coefficients: np.ndarray = field(repr=False)
+
+
+def _basis(n_harm: int, m_time: int):
+    th = 2.0 * np.pi * np.arange(m_time) / m_time
+    cols = [np.ones(m_time)]
+    for n in range(1, n_harm + 1):
+        cols += [np.cos(n * th), np.sin(n * th)]
+    e = np.column_stack(cols)
+    w = e.T * (2.0 / m_time)
+    w[0] /= 2.0
+    return e, w
+
+
+def _vent_highpass(model: LumpedModel, w):
+    rc = model.vent_resistance_pa_s_per_m3 * model.back_volume_compliance_m3_per_pa
+    return 1j * w * rc / (1.0 + 1j * w * rc)
+
+
+def _linear_operator(model: LumpedModel, f_hz: float, n_harm: int) -> np.ndarray:
+    """Block-diagonal linear operator (N/m) on [a0, a1, b1, ...] (displacement to force)."""
+    n = np.arange(1, n_harm + 1)
+    w = 2.0 * np.pi * f_hz * n
+    b, k_film = model.film(f_hz * n)
+    h_v = _vent_highpass(model, w)
+    kn = (model.stiffness_n_per_m + k_film - w**2 * model.mass_kg + 1j * w * b
+          + model.area_m2**2 / model.back_volume_compliance_m3_per_pa * h_v)
+    lop = np.zeros((2 * n_harm + 1, 2 * n_harm + 1))
+    lop[0, 0] = model.stiffness_n_per_m
+    for i, kk in enumerate(kn):
+        j = 1 + 2 * i
+        lop[j:j + 2, j:j + 2] = [[kk.real, kk.imag], [-kk.imag, kk.real]]
+    return lop
+
+
+def _forcing(model: LumpedModel, f_hz: float, spl_db: float, n_harm: int) -> np.ndarray:
+    g = model.area_m2 * _vent_highpass(model, 2.0 * np.pi * f_hz) * \
+        spl_to_pressure_amplitude(spl_db)
+    out = np.zeros(2 * n_harm + 1)
+    out[1], out[2] = g.real, -g.imag
+    return out
+
+
+def _derivative_operator(n_harm: int) -> np.ndarray:
+    """d/dθ on [a0, a1, b1, ...]: (a_n, b_n) → (n b_n, −n a_n)."""
+    d = np.zeros((2 * n_harm + 1, 2 * n_harm + 1))
+    for n in range(1, n_harm + 1):
+        j = 2 * n - 1
+        d[j, j + 1], d[j + 1, j] = n, -n
+    return d
+
+
+def _newton(model, es: NonlinearTransducer, f_hz, spl_db, n_harm, guess):
+    """Solve the harmonic-balance equations; unknowns [ξ/g coefficients, (q − Q0)/Q0 ones]."""
+    m_time, nb = 4 * n_harm, 2 * n_harm + 1
+    e, w = _basis(n_harm, m_time)
+    lop = _linear_operator(model, f_hz, n_harm)
+    fext = _forcing(model, f_hz, spl_db, n_harm)
+    dop = 2.0 * np.pi * f_hz * model.bias_resistance_ohm * _derivative_operator(n_harm)
+    g, kref, q0, vb = model.gap_m, model.stiffness_n_per_m, es.q0, es.vb
+    u = np.zeros(2 * nb) if guess is None else guess.copy()
+
+    def residual(u):
+        xi, q = e @ (g * u[:nb]), q0 * (1.0 + e @ u[nb:])
+        f, f_x, f_q = es.force(xi, q)
+        v, v_x, v_q = es.voltage(xi, q)
+        r_mech = (lop @ (g * u[:nb]) - fext - w @ f) / (kref * g)
+        r_elec = (dop @ (q0 * u[nb:]) + w @ v) / vb
+        r_elec[0] -= 1.0
+        jac = np.block([
+            [(lop - w @ (f_x[:, None] * e)) / kref, -(w @ (f_q[:, None] * e)) * q0 / (kref * g)],
+            [(w @ (v_x[:, None] * e)) * g / vb, (dop + w @ (v_q[:, None] * e)) * q0 / vb]])
+        return np.concatenate([r_mech, r_elec]), jac
+
+    r, jac = residual(u)
+    for _ in range(60):
+        step = np.linalg.solve(jac, -r)
+        lam = 1.0
+        while True:
+            r_new, jac_new = residual(u + lam * step)
+            if np.all(np.isfinite(r_new)) and (np.linalg.norm(r_new) < np.linalg.norm(r)
+                                               or lam < 1e-3):
+                break
+            lam *= 0.5
+        u, r, jac = u + lam * step, r_new, jac_new
+        if np.max(np.abs(lam * step)) < 1e-13 and np.linalg.norm(r) < 1e-9:
+            return u
+    raise ConvergenceError(f"harmonic balance did not converge at {spl_db:.1f} dB SPL")
+
+
+def _harmonics(samples: np.ndarray, n_harm: int) -> np.ndarray:
+    """Complex amplitudes (phasors of e^{jnθ}) of samples over one period, n = 0..N."""
+    z = np.fft.rfft(samples) / samples.size
+    z[1:] *= 2.0
+    return z[:n_harm + 1]
+
+
+def _thd(vh: np.ndarray) -> float:
+    return float(np.sqrt(np.sum(np.abs(vh[2:]) ** 2)) / np.abs(vh[1]))
+
+
+def _solution(model, es, f_hz, spl_db, n_harm, u) -> HarmonicSolution:
+    m_fine, nb = 16 * n_harm, 2 * n_harm + 1
+    e, _ = _basis(n_harm, m_fine)
+    xi, q = e @ (model.gap_m * u[:nb]), es.q0 * (1.0 + e @ u[nb:])
+    v, _, _ = es.voltage(xi, q)
+    vh = _harmonics(v - es.vb, n_harm)
+    thd = _thd(vh)
+    upper = np.sqrt(np.sum(np.abs(vh[n_harm // 2 + 1:]) ** 2)) / np.abs(vh[1])
+    return HarmonicSolution(float(spl_db), float(f_hz), _harmonics(xi, n_harm), vh, thd,
+                            float(es.xb + xi.max()), float(es.xb + xi.min()), float(q.mean()),
+                            float(upper / thd) if thd > 0 else 0.0, u)
+
+
+def _pad(u: np.ndarray, n_harm: int) -> np.ndarray:
+    """Coefficients of a solution re-cut to N harmonics (zeros added or dropped)."""
+    old, new = u.size // 2, 2 * n_harm + 1
+    k = min(old, new)
+    out = np.zeros(2 * new)
+    out[:k], out[new:new + k] = u[:k], u[old:old + k]
+    return out
+
+
+def harmonic_balance(model: LumpedModel, spl_db: float, frequency_hz: float = 1000.0, *,
+                     harmonics: int = 16, max_harmonics: int = 256,
+                     readout_nonlinear: bool = True, force_nonlinear: bool = True,
+                     initial: HarmonicSolution | None = None) -> HarmonicSolution:
+    """Periodic steady state by harmonic balance (see the module docstring).
+
+    Parameters
+    ----------
+    spl_db : sound pressure level, dB re 20 µPa.
+    frequency_hz : drive frequency (Hz).
+    harmonics : starting harmonic count N (doubled until converged, up to ``max_harmonics``).
+    readout_nonlinear, force_nonlinear : switch either nonlinearity off (linearised instead).
+    initial : a solution to continue from (e.g. at a nearby SPL).
+    """
+    es = NonlinearTransducer(model, readout_nonlinear, force_nonlinear)
+    n = harmonics
+    guess = None if initial is None else _pad(initial._coefficients, n)
+    while True:
+        sol = _solution(model, es, frequency_hz, spl_db, n,
+                        _newton(model, es, frequency_hz, spl_db, n, guess))
+        if sol.truncation * sol.thd < max(1e-4 * sol.thd, 1e-10) or 2 * n > max_harmonics:
+            return sol
+        guess, n = _pad(sol._coefficients, 2 * n), 2 * n
+
+
+def _decay_time_s(model: LumpedModel) -> float:
+    c_d = model.area_m2**2 / model.net_stiffness_n_per_m
+    tau_v = model.vent_resistance_pa_s_per_m3 * (model.back_volume_compliance_m3_per_pa + c_d)
+    tau_e = model.bias_resistance_ohm * (model.node_capacitance_f
+                                         + model.transduction_n_per_v**2
+                                         / model.net_stiffness_n_per_m)
+    tau_m = 2.0 * model.mass_kg / max(model.damping_n_s_per_m, 1e-300)
+    return max(tau_v, tau_e, tau_m)
+
+
+def thd_time_domain(model: LumpedModel, spl_db: float, frequency_hz: float = 1000.0, *,
+                    periods: int | None = None, rtol: float = 1e-10) -> float:
+    """THD of the output by direct integration (``scipy.integrate.solve_ivp``, DOP853).
+
+    The bias resistor is included (no constant-charge assumption).  Started from the linear
+    steady state; ``periods`` defaults to 6 decay times of the slowest mode plus 10 periods.
+    Needs ``film_damping = None`` (constant b, no film stiffness).
+    """
+    if model.film_damping is not None:
+        raise LumpedModelError("film_damping: must be None for the time-domain check "
+                               "(constant damping only)")
+    es = NonlinearTransducer(model, True, True)
+    w = 2.0 * np.pi * frequency_hz
+    pa = spl_to_pressure_amplitude(spl_db)
+    m_, b_, k_, a_ = (model.mass_kg, model.damping_n_s_per_m, model.stiffness_n_per_m,
+                      model.area_m2)
+    cbv, rv = model.back_volume_compliance_m3_per_pa, model.vent_resistance_pa_s_per_m3
+    rb = model.bias_resistance_ohm
+    x0 = pa * a_ / k_
+    sol = solve_circuit(model, [frequency_hz])
+    xlin = sol.displacement(pressure_pa=pa)[0]
+    vlin = sol.output_voltage(pressure_pa=pa)[0]
+    pblin = (1j * w * a_ * xlin + pa / rv) / sol.back_admittance[0]
+    qlin = -vlin / (1j * w * rb)
+    y0 = [xlin.real / x0, -xlin.imag / x0, pblin.real / pa, qlin.real / es.q0]
+
+    def rhs(th, y):
+        xi, q, p, pb = y[0] * x0, es.q0 * (1.0 + y[3]), pa * math.cos(th), y[2] * pa
+        f, v = es.scalar(xi, q)
+        acc = (-b_ * w * y[1] * x0 - k_ * xi + a_ * (p - pb) + f) / (m_ * w**2)
+        dpb = (a_ * w * y[1] * x0 + (p - pb) / rv) / (cbv * w)
+        dq = (es.vb - v) / (rb * w)
+        return [y[1], acc / x0, dpb / pa, dq / es.q0]
+
+    if periods is None:
+        periods = int(math.ceil(6.0 * _decay_time_s(model) * frequency_hz)) + 10
+    t_end = 2.0 * np.pi * periods
+    th = t_end - 2.0 * np.pi + 2.0 * np.pi * np.arange(256) / 256
+    out = solve_ivp(rhs, (0.0, t_end), y0, method="DOP853", t_eval=th, rtol=rtol,
+                    atol=rtol * 1e-2)
+    if not out.success:
+        raise ConvergenceError(f"time integration failed at {spl_db:.1f} dB SPL: {out.message}")
+    v, _, _ = es.voltage(out.y[0] * x0, es.q0 * (1.0 + out.y[3]))
+    return _thd(_harmonics(v - es.vb, 32))
+
+
+@dataclass(frozen=True)
+class DistortionResult:
+    """THD versus SPL at one frequency, and the SPLs where THD reaches 1 % and 10 %.
+
+    Attributes
+    ----------
+    frequency_hz : drive frequency (Hz).
+    spl_db, thd, peak_displacement_m : arrays over the SPLs that were solved (dB, fraction, m).
+    thd_1pct_spl_db, aop_10pct_spl_db : SPL (dB re 20 µPa) where THD = 1 % / 10 %, or None.
+    limit_reason : why the scan ended before its last SPL (None if it did not), or why a
+        threshold was not reached.
+    """
+
+    frequency_hz: float
+    spl_db: np.ndarray
+    thd: np.ndarray
+    peak_displacement_m: np.ndarray
+    thd_1pct_spl_db: float | None
+    aop_10pct_spl_db: float | None
+    limit_reason: str | None
+
+    def to_summary(self) -> dict:
+        """The distortion keys of summary.json's ``response`` section."""
+        return {"thd_1pct_spl_db": self.thd_1pct_spl_db,
+                "aop_10pct_spl_db": self.aop_10pct_spl_db,
+                "thd_frequency_hz": self.frequency_hz,
+                "thd_limit_note": self.limit_reason}
+
+
+def _limit(model: LumpedModel, curve: CapacitanceCurve, sol: HarmonicSolution) -> str | None:
+    """Why this solution is outside the model's validity, or None.
+
+    C(x) diverges where the diaphragm meets the backplate (x = g), so a sampled curve always ends
+    short of contact: leaving its range is the first sign of approaching the backplate.
+    """
+    hi, lo = sol.peak_displacement_m, sol.min_displacement_m
+    if hi > curve.x_max_m or lo < curve.x_min_m:
+        return (f"the centre displacement leaves the sampled C(x) range "
+                f"[{curve.x_min_m:.3g}, {curve.x_max_m:.3g}] m at {sol.spl_db:.1f} dB SPL "
+                f"(x from {lo:.3g} to {hi:.3g} m, peak {100 * hi / model.gap_m:.0f} % of the gap "
+                f"to the backplate)")
+    return None
+
+
+def _crossing(model, f_hz, level, sols, kw) -> float | None:
+    """SPL where THD first reaches ``level``: bracket on the scan, then bisection on HB."""
+    for s0, s1 in zip(sols[:-1], sols[1:]):
+        if s0.thd < level <= s1.thd:
+            lo, hi, start = s0.spl_db, s1.spl_db, s0
+            for _ in range(40):
+                mid = 0.5 * (lo + hi)
+                s = harmonic_balance(model, mid, f_hz, initial=start, **kw)
+                if s.thd < level:
+                    lo, start = mid, s
+                else:
+                    hi = mid
+                if hi - lo < 1e-4:
+                    break
+            return 0.5 * (lo + hi)
+    return None
+
+
+def distortion_vs_spl(model: LumpedModel, frequency_hz: float = 1000.0, spl_db=None,
+                      **kw) -> DistortionResult:
+    """THD versus SPL by harmonic balance with continuation, and the 1 % / 10 % points.
+
+    ``spl_db`` defaults to 60 … 160 dB in 2 dB steps; keywords go to :func:`harmonic_balance`.
+    The scan stops at the first SPL whose solution touches the backplate, leaves the C(x)
+    range or does not converge; thresholds not reached by then are None (see ``limit_reason``).
+    """
+    levels = np.arange(60.0, 160.0 + 1e-9, 2.0) if spl_db is None else np.asarray(spl_db, float)
+    curve = model.curve()
+    sols, reason, prev = [], None, None
+    for spl in levels:
+        try:
+            s = harmonic_balance(model, float(spl), frequency_hz, initial=prev, **kw)
+        except ConvergenceError as exc:
+            reason = str(exc)
+            break
+        reason = _limit(model, curve, s)
+        if reason is not None:
+            break
+        sols.append(s)
+        prev = s
+    x1 = _crossing(model, frequency_hz, 0.01, sols, kw)
+    x10 = _crossing(model, frequency_hz, 0.10, sols, kw)
+    if sols and sols[0].thd >= 0.01:
+        reason = f"THD is above 1 % already at the lowest SPL {sols[0].spl_db:.1f} dB"
+    elif x10 is None and reason is None:
+        reason = f"THD stays below 10 % up to {levels[-1]:.1f} dB SPL"
+    return DistortionResult(float(frequency_hz), np.array([s.spl_db for s in sols]),
+                            np.array([s.thd for s in sols]),
+                            np.array([s.peak_displacement_m for s in sols]), x1, x10, reason)

@@ -1,0 +1,146 @@
+"""Meshes of a pair of coaxial electrodes in open space, for edge-fringing studies.
+
+Scaled coordinates: lengths in units of the gap (the gap is 1). The mesh is the half plane
+x >= 0 (x = r for an axisymmetric pair, or the distance from the mid-line of a pair of strips)
+inside a half disk of radius ``outer_radius`` centred at the middle of the gap. It holds
+
+* the lower electrode: a thin (zero-thickness) conductor on z = 0, 0 <= x <= ``lower_radius``
+  (interior facets, boundary group ``"lower"``);
+* the upper electrode: 0 <= x <= ``upper_radius`` at z = 1 — a thin conductor when
+  ``thickness == 0``, otherwise the rectangle [0, upper_radius] x [1, 1 + thickness] is cut out
+  and its bottom, side and top form the group ``"upper"``;
+* optionally a solid ring [upper_radius, ring_radius] x [1, 1 + thickness] (the part of a
+  backplate beyond its electrode) as subdomain ``"ring"``;
+* the outer arc as boundary group ``"outer"``.
+
+The mesh is graded towards the electrode edges (points (lower_radius, 0), (upper_radius, 1) and
+(upper_radius, 1 + thickness)) with the law of :class:`meshes.cell.MeshSizes`, capped at
+``h_gap`` between the electrodes and growing with distance outside them (``MathEval`` field).
+Cached on disk. :func:`disk_pair_mesh` is the classic validation case of two equal thin disks.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from skfem import MeshTri
+
+from ._gmsh import gmsh_session
+from .cache import cached_arrays
+from .cell import MeshSizes, _num, tagged_mesh_arrays, to_skfem
+
+__all__ = ["PairGeometry", "electrode_pair_mesh", "disk_pair_mesh"]
+
+_GENERATOR = 1  # bump when the output of this module changes
+
+
+@dataclass(frozen=True)
+class PairGeometry:
+    """Two coaxial electrodes in units of the gap (see the module docstring)."""
+
+    lower_radius: float
+    upper_radius: float
+    thickness: float
+    outer_radius: float
+    ring_radius: float = 0.0
+
+    def as_dict(self) -> dict:
+        return {"rl": self.lower_radius, "ru": self.upper_radius, "t": self.thickness,
+                "R": self.outer_radius, "rb": self.ring_radius, "gen": _GENERATOR}
+
+    def check(self) -> None:
+        rl, ru, t, R = self.lower_radius, self.upper_radius, self.thickness, self.outer_radius
+        ok = rl > 0 and ru > 0 and t >= 0 and R > 2 * max(rl, ru, 1 + t)
+        ok = ok and (self.ring_radius == 0 or (t > 0 and self.ring_radius > ru))
+        ok = ok and self.ring_radius < 0.5 * R
+        if not ok:
+            raise ValueError(
+                f"electrode pair must satisfy radii > 0, thickness >= 0, outer radius > 2x the "
+                f"electrodes, ring radius 0 or above the upper radius (with thickness > 0); got "
+                f"{self}")
+
+
+def _classify(gmsh, geo: PairGeometry) -> None:
+    rl, ru, t = geo.lower_radius, geo.upper_radius, geo.thickness
+    tol = 1e-7 * max(1.0, geo.outer_radius)
+    groups = {"lower": [], "upper": [], "outer": []}
+    for dim, tag in gmsh.model.getEntities(1):
+        x0, y0, _, x1, y1, _ = gmsh.model.getBoundingBox(dim, tag)
+        # bounding boxes are padded (~1e-7): compare with tolerances, never exactly
+        if x1 < 10 * tol:
+            continue  # on the axis / mid-line
+        if abs(y0) < 10 * tol and abs(y1) < 10 * tol and x1 <= rl + 10 * tol:
+            groups["lower"].append(tag)
+        elif y0 > 1 - 10 * tol and y1 < 1 + t + 10 * tol and x1 <= ru + 10 * tol:
+            groups["upper"].append(tag)
+        elif x1 > 0.9 * geo.outer_radius:
+            groups["outer"].append(tag)
+    for name, tags in groups.items():
+        if not tags:
+            raise ValueError(f"electrode pair geometry has no {name!r} curves")
+        gmsh.model.addPhysicalGroup(1, tags, name=name)
+    if geo.ring_radius > 0:
+        ring = []
+        for dim, tag in gmsh.model.getEntities(2):
+            x0, y0, _, x1, y1, _ = gmsh.model.getBoundingBox(dim, tag)
+            if x0 > ru - 10 * tol and x1 < geo.ring_radius + 10 * tol and y0 > 1 - 10 * tol:
+                ring.append(tag)
+        if len(ring) != 1:
+            raise ValueError(f"electrode pair ring selection found {len(ring)} surfaces")
+        gmsh.model.addPhysicalGroup(2, ring, name="ring")
+
+
+def _size_expr(geo: PairGeometry, sizes: MeshSizes) -> str:
+    rl, ru, t = geo.lower_radius, geo.upper_radius, geo.thickness
+    rims = [(rl, 0.0), (ru, 1.0)] + ([(ru, 1.0 + t)] if t > 0 else [])
+    d = [f"Sqrt((x-{_num(x)})^2 + (y-{_num(y)})^2)" for x, y in rims]
+    dist = d[0]
+    for term in d[1:]:
+        dist = f"Min({dist}, {term})"
+    inner = min(rl, ru)
+    box = f"(Max(0, x-{_num(inner)}) + Max(0, -y) + Max(0, y-{_num(1 + t)}))"
+    gr = _num(sizes.grading)
+    return (f"Min({_num(sizes.h_max)}, Min({_num(sizes.h_rim)} + {gr}*{dist}, "
+            f"{_num(sizes.h_gap)} + {gr}*{box}))")
+
+
+def _build(geo: PairGeometry, sizes: MeshSizes) -> dict:
+    rl, ru, t, R = geo.lower_radius, geo.upper_radius, geo.thickness, geo.outer_radius
+    zc = 0.5 * (1.0 + t)
+    with gmsh_session("electrode-pair") as gmsh:
+        occ = gmsh.model.occ
+        disk = occ.addDisk(0, zc, 0, R, R)
+        half = occ.addRectangle(0, zc - 1.5 * R, 0, 1.5 * R, 3 * R)
+        dom, _ = occ.intersect([(2, disk)], [(2, half)])
+        tools = [(1, occ.addLine(occ.addPoint(0, 0, 0), occ.addPoint(rl, 0, 0)))]
+        if t == 0:
+            tools.append((1, occ.addLine(occ.addPoint(0, 1, 0), occ.addPoint(ru, 1, 0))))
+        else:
+            dom, _ = occ.cut(dom, [(2, occ.addRectangle(0, 1, 0, ru, t))])
+            if geo.ring_radius > 0:
+                tools.append((2, occ.addRectangle(ru, 1, 0, geo.ring_radius - ru, t)))
+        occ.fragment(dom, tools)
+        occ.synchronize()
+        _classify(gmsh, geo)
+        fid = gmsh.model.mesh.field.add("MathEval")
+        gmsh.model.mesh.field.setString(fid, "F", _size_expr(geo, sizes))
+        gmsh.model.mesh.field.setAsBackgroundMesh(fid)
+        for opt in ("MeshSizeExtendFromBoundary", "MeshSizeFromPoints", "MeshSizeFromCurvature"):
+            gmsh.option.setNumber(f"Mesh.{opt}", 0)
+        gmsh.option.setNumber("Mesh.Algorithm", 5)
+        gmsh.model.mesh.generate(2)
+        return tagged_mesh_arrays(gmsh, 2)
+
+
+def electrode_pair_mesh(geo: PairGeometry, sizes: MeshSizes) -> MeshTri:
+    """Triangular mesh of an electrode pair in open space (cached; see the module docstring)."""
+    geo.check()
+    sizes.check()
+    params = {**geo.as_dict(), **sizes.as_dict()}
+    return to_skfem(cached_arrays("electrode-pair", params, lambda: _build(geo, sizes)))
+
+
+def disk_pair_mesh(radius: float, outer_factor: float, sizes: MeshSizes) -> MeshTri:
+    """Two equal thin coaxial disks of radius ``radius`` (gap units), outer radius
+    ``outer_factor * radius``."""
+    geo = PairGeometry(radius, radius, 0.0, outer_factor * radius)
+    return electrode_pair_mesh(geo, sizes)

@@ -1,0 +1,151 @@
+"""Harmonic distortion of the nonlinear 1-DOF capsule model.
+
+Harmonic balance is checked against a direct time integration (scipy.integrate.solve_ivp, a
+general-purpose reference library), a Taylor expansion of the readout, the small-signal linear
+response, and the distortion-free parallel-plate capacitor at constant charge.  Parameter sets
+are invented.
+"""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+
+from lumped.circuit import NonlinearTransducer
+from lumped.distortion import (distortion_vs_spl, harmonic_balance, spl_to_pressure_amplitude,
+                               thd_time_domain)
+from lumped.model import LumpedModelError, from_capacitance_curve, parallel_plate_piston
+from lumped.response import frequency_response
+
+GAP = 4e-6
+
+
+def piston(**over):
+    """Invented parallel-plate capsule: f_res ≈ 26 kHz, Q ≈ 2, electrical corner ≈ 100 Hz."""
+    kw = dict(area_m2=math.pi * (0.4e-3) ** 2, gap_m=GAP, mass_kg=2e-9, stiffness_n_per_m=50.0,
+              damping_n_s_per_m=1.5e-4, bias_voltage_v=10.0, bias_resistance_ohm=1e9,
+              back_volume_m3=1e-8, vent_resistance_pa_s_per_m3=5.7e10,
+              parasitic_capacitance_f=0.3e-12)
+    kw.update(over)
+    return parallel_plate_piston(**kw)
+
+
+def bowed(**over):
+    """Invented capsule with a bowed-diaphragm C(x) = C_f + ε0A/(g − x)·(1 + x/(3g))."""
+    g = 2.5e-6
+    x = np.linspace(-g / 3, g / 3, 41)
+    c = 0.05e-12 + 8.854e-12 * 0.2e-6 / (g - x) * (1 + x / (3 * g))
+    kw = dict(bias_voltage_v=3.0, stiffness_n_per_m=40.0, mass_kg=5e-10, area_m2=0.12e-6,
+              damping_n_s_per_m=5e-5, back_volume_m3=2e-9, vent_resistance_pa_s_per_m3=2e11,
+              bias_resistance_ohm=1e14, gap_m=g, parasitic_capacitance_f=0.4e-12)
+    kw.update(over)
+    return from_capacitance_curve(tuple(zip(x, c)), **kw)
+
+
+def test_thd_grows_with_pressure_at_small_spl():
+    # second-order (quadratic) distortion: HD2 ∝ amplitude, i.e. +1 dB of THD per dB of SPL at
+    # small levels (common practice, no single source)
+    m = piston()
+    t80, t100 = harmonic_balance(m, 80.0).thd, harmonic_balance(m, 100.0).thd
+    assert 20 * math.log10(t100 / t80) == pytest.approx(20.0, abs=0.02)
+    v = harmonic_balance(m, 100.0).voltage_harmonics_v
+    assert abs(v[3]) < 1e-2 * abs(v[2])  # second harmonic dominates
+
+
+def test_harmonic_balance_matches_time_integration():
+    # reference: scipy.integrate.solve_ivp (DOP853) of the same ODEs, bias resistor included;
+    # acceptance 0.5 dB, observed ~1e-5 dB
+    m = piston()
+    spl = 126.0
+    hb = harmonic_balance(m, spl).thd
+    assert 0.005 < hb < 0.05
+    td = thd_time_domain(m, spl, rtol=1e-8)
+    assert 20 * math.log10(td / hb) == pytest.approx(0.0, abs=0.5)
+    assert td == pytest.approx(hb, rel=1e-3)
+
+
+def test_parallel_plate_at_constant_charge_is_distortion_free():
+    # Senturia, Microsystem Design, 2001 [from memory]: at constant charge a parallel-plate
+    # capacitor's voltage V = Q(g − x)/(ε0A) is linear in x and its force is independent of x.
+    # No stray capacitance and a bias resistor so large that the charge is held.
+    clean = harmonic_balance(piston(parasitic_capacitance_f=0.0, bias_resistance_ohm=1e16), 130.0)
+    stray = harmonic_balance(piston(bias_resistance_ohm=1e16), 130.0)
+    assert clean.thd < 1e-7
+    assert stray.thd > 1e-2  # the same motion with 0.3 pF stray capacitance does distort
+
+
+def test_readout_second_harmonic_matches_taylor_expansion():
+    # v = Q/C_t(x) = Q·[1/C_t0 − (C'/C_t0²)ξ + (C'²/C_t0³ − C''/(2C_t0²))ξ² + …] (Taylor); for
+    # ξ = X cos ωt the second harmonic is |a2|X²/2 against a fundamental |a1|X.  Force linearised;
+    # bias resistor large so the charge is constant.
+    m = bowed()
+    es = NonlinearTransducer(m)
+    cc = m.curve()
+    xb = m.bias_displacement_m
+    c, c1, c2 = cc.capacitance(xb), cc.slope(xb), cc.curvature(xb)
+    ct = c + m.parasitic_capacitance_f
+    q = m.bias_voltage_v * ct
+    a1, a2 = -q * c1 / ct**2, q * (c1**2 / ct**3 - c2 / (2 * ct**2))
+    spl = 100.0
+    x1 = abs(frequency_response(m, [1000.0]).displacement_per_pa[0]) * \
+        spl_to_pressure_amplitude(spl)
+    sol = harmonic_balance(m, spl, force_nonlinear=False)
+    assert abs(sol.displacement_harmonics_m[1]) == pytest.approx(x1, rel=1e-6)
+    assert sol.thd == pytest.approx(abs(a2) * x1 / (2 * abs(a1)), rel=1e-3)
+    assert es.q0 == pytest.approx(q, rel=1e-14)
+
+
+def test_fundamental_matches_linear_response():
+    # the harmonic-balance fundamental at a small level is the linear response (same circuit)
+    m = bowed(bias_resistance_ohm=3e11)
+    spl = 70.0
+    sol = harmonic_balance(m, spl)
+    h = frequency_response(m, [1000.0]).voltage_per_pa[0] * spl_to_pressure_amplitude(spl)
+    assert sol.voltage_harmonics_v[1] == pytest.approx(h, rel=1e-6)
+
+
+def test_harmonic_truncation_converged():
+    # at a high level, doubling the harmonic count from the adaptive choice changes THD by < 1e-6
+    m = piston()
+    a = harmonic_balance(m, 130.0)
+    n = a.voltage_harmonics_v.size - 1
+    b = harmonic_balance(m, 130.0, harmonics=2 * n)
+    assert a.truncation < 1e-4
+    assert b.thd == pytest.approx(a.thd, rel=1e-6)
+
+
+def test_scan_finds_1pct_point_and_reports_curve_limit():
+    m = piston()
+    r = distortion_vs_spl(m)
+    assert r.thd_1pct_spl_db is not None
+    assert harmonic_balance(m, r.thd_1pct_spl_db).thd == pytest.approx(0.01, rel=1e-3)
+    # the C(x) samples end at g/3: the scan stops there before THD reaches 10 %
+    assert r.aop_10pct_spl_db is None
+    assert "sampled C(x) range" in r.limit_reason
+    assert np.all(np.diff(r.thd) > 0)
+    s = r.to_summary()
+    assert s["thd_1pct_spl_db"] == r.thd_1pct_spl_db and s["aop_10pct_spl_db"] is None
+
+
+def test_scan_of_distortion_free_capsule_stops_at_curve_end():
+    # the constant-charge parallel plate without stray capacitance never distorts (Senturia 2001
+    # [from memory]): neither threshold is reached before the displacement leaves the C(x) samples
+    m = piston(parasitic_capacitance_f=0.0, bias_resistance_ohm=1e16)
+    r = distortion_vs_spl(m)
+    assert r.thd_1pct_spl_db is None and r.aop_10pct_spl_db is None
+    assert "sampled C(x) range" in r.limit_reason and np.all(r.thd < 1e-7)
+    assert r.peak_displacement_m[-1] <= GAP / 3
+
+
+def test_scan_reports_threshold_not_reached():
+    # a stiff diaphragm stays below 10 % THD up to the end of the range
+    m = piston(stiffness_n_per_m=5000.0)
+    r = distortion_vs_spl(m, spl_db=np.arange(100.0, 141.0, 10.0))
+    assert r.aop_10pct_spl_db is None and "below 10 %" in r.limit_reason
+    assert r.spl_db.size == 5
+
+
+def test_missing_curve_is_an_error():
+    with pytest.raises(LumpedModelError, match="capacitance_curve"):
+        harmonic_balance(piston().replace(capacitance_curve=None), 100.0)
