@@ -42,7 +42,7 @@ def coupling_system(plate, shape: str, electrode_size_m: float) -> CouplingSyste
     rows, cols, vals = [], [], []
     dofs = basis.element_dofs  # (21, nelems)
     for i in range(dofs.shape[0]):
-        phi = basis.basis[i][0].value[elems]  # (ne, nqp)
+        phi = np.asarray(basis.basis[i][0])[elems]  # (ne, nqp)
         r = (np.arange(elems.size)[:, None] * nqp + np.arange(nqp)[None, :])
         rows.append(r.ravel())
         cols.append(np.repeat(dofs[i, elems], nqp))

@@ -142,14 +142,15 @@ def audit_design(design, s: dict) -> Audit:
             rows.append(_row("continuum gas", "viscosity / effective viscosity", 1.0, factor,
                              factor - 1.0, "mu / mu_eff - 1 (Veijola et al. 1995)", 0.05, 0.30,
                              f"Knudsen number lambda/g = {kn:.3g}"))
-        sig = damp.get("squeeze_number_at_resonance")
-        curve = damp.get("damping_vs_frequency")
-        if sig is not None:
-            rows.append(_row("incompressible film", "squeeze number at resonance", 0.0, sig,
-                             sig, "squeeze number 12 mu omega L^2/(p0 g^2) at resonance", 1.0, 10.0,
-                             "above ~1 the film stores energy as a spring and damping falls"))
-        elif curve:
-            pass
+        ratio = damp.get("resonance_to_cutoff_ratio")
+        if ratio is not None:
+            sig = damp.get("squeeze_number_at_resonance")
+            rows.append(_row("incompressible film", "resonance / film cut-off frequency", 0.0,
+                             ratio, ratio, "f_res / f_c (f_c: damping force = film spring force)",
+                             0.1, 0.5,
+                             f"squeeze number at resonance {sig:.3g}; with holes the film stays "
+                             "incompressible well above sigma ~ 1, so the cut-off is the measure"
+                             if sig is not None else ""))
     if resp and "highpass_corner_hz" in resp:
         c0 = (es or {}).get("rest_capacitance_f")
         fc = resp["highpass_corner_hz"]

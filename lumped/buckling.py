@@ -12,13 +12,13 @@ from __future__ import annotations
 
 import math
 
-from scipy.optimize import brentq
-from scipy.special import j0, j1, jn_zeros
-
 __all__ = ["critical_tension_n_per_m"]
 
 
 def _ss_disk_lambda(nu: float) -> float:
+    from scipy.optimize import brentq
+    from scipy.special import j0, j1
+
     return brentq(lambda x: x * j0(x) - (1.0 - nu) * j1(x), 1.0, 3.8)
 
 
@@ -27,6 +27,8 @@ def critical_tension_n_per_m(shape: str, edge: str, size_m: float, bending_stiff
     """Magnitude of the compressive tension N (N/m) at which the flat plate buckles."""
     d, a = bending_stiffness, size_m
     if shape == "circle":
+        from scipy.special import jn_zeros
+
         lam = jn_zeros(1, 1)[0] if edge == "clamped" else _ss_disk_lambda(poisson_ratio)
         return lam**2 * d / a**2
     k = 5.30 if edge == "clamped" else 2.0

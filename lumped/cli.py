@@ -68,6 +68,23 @@ def build_parser() -> argparse.ArgumentParser:
     run.add_argument("--json", action="store_true", help="print summary.json instead of the table")
     _add_common(run)
 
+    from .sweep_cli import add_parser as add_sweep_parser
+
+    add_sweep_parser(sub, _add_common)
+
+    holes = sub.add_parser(
+        "holes", help="evaluate a backplate hole pattern on its own (about a second)",
+        description="Capacitance cost of a perforated backplate: the unit-cell capacitance "
+        "density at the gap, its ratio to a solid backplate (perforation factor), the open area "
+        "and the open-area rule of thumb, with the FE error estimate. Values take units.")
+    holes.add_argument("--gap", required=True, help='diaphragm-to-backplate gap, e.g. "4 um"')
+    holes.add_argument("--radius", required=True, help='hole radius, e.g. "4 um"')
+    holes.add_argument("--pitch", required=True, help='hole pitch, e.g. "20 um"')
+    holes.add_argument("--thickness", required=True, help='backplate thickness, e.g. "2 um"')
+    holes.add_argument("--lattice", default="hex", choices=("hex", "square"))
+    holes.add_argument("--json", action="store_true", help="print JSON")
+    _add_common(holes)
+
     init = sub.add_parser("init", help="write a commented starter design file",
                           description="Write a commented starter design (an invented example).")
     init.add_argument("file", help="path of the new design file (TOML)")
@@ -108,7 +125,22 @@ def _cmd_run(args) -> int:
     return EXIT_COLLAPSED if result.collapsed else EXIT_OK
 
 
-_COMMANDS = {"run": _cmd_run, "init": _cmd_init}
+def _cmd_sweep(args) -> int:
+    from .sweep_cli import cmd_sweep
+
+    return cmd_sweep(args)
+
+
+def _cmd_holes(args) -> int:
+    from .holes import evaluate_holes, holes_table
+
+    result = evaluate_holes(args.gap, args.radius, args.pitch, args.thickness, args.lattice,
+                            args.accuracy or "normal")
+    print(json.dumps(result, indent=2) if args.json else holes_table(result))
+    return EXIT_OK
+
+
+_COMMANDS = {"run": _cmd_run, "init": _cmd_init, "sweep": _cmd_sweep, "holes": _cmd_holes}
 
 
 def main(argv: list[str] | None = None) -> int:

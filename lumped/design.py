@@ -185,8 +185,11 @@ class Design:
         return _thaw(self.raw)
 
     def with_accuracy(self, accuracy: str) -> "Design":
-        return replace(self, analysis=Analysis(_choice("analysis.accuracy", accuracy,
-                                                       SCHEMA["analysis"]["accuracy"])))
+        """A copy with ``analysis.accuracy`` replaced (also in the raw table used by overrides)."""
+        level = _choice("analysis.accuracy", accuracy, SCHEMA["analysis"]["accuracy"])
+        raw = self.raw_dict()
+        raw.setdefault("analysis", {})["accuracy"] = level
+        return replace(self, analysis=Analysis(level), raw=_freeze(raw))
 
 
 def _freeze(d):

@@ -7,7 +7,7 @@ __all__ = ["summary_table"]
 ROWS = [
     ("mechanics", "center_compliance_m_per_pa", "centre compliance", 1e9, "nm/Pa"),
     ("mechanics", "volume_compliance_m3_per_pa", "volume compliance", 1e18, "um^3/Pa"),
-    ("mechanics", "natural_frequencies_hz", "natural frequencies (vacuum)", 1e-3, "kHz"),
+    ("mechanics", "distinct_frequencies_hz", "natural frequencies (vacuum)", 1e-3, "kHz"),
     ("mechanics", "effective_mass_kg", "effective mass", 1e9, "ug"),
     ("mechanics", "effective_stiffness_n_per_m", "effective stiffness", 1.0, "N/m"),
     ("mechanics", "effective_area_m2", "effective area", 1e6, "mm^2"),
@@ -35,7 +35,7 @@ ROWS = [
 
 def _fmt(v, scale):
     if isinstance(v, (list, tuple)):
-        return ", ".join(_fmt(x, scale) for x in v[:6]) + (" ..." if len(v) > 6 else "")
+        return ", ".join(f"{x * scale:.4g}" for x in v[:4]) + (" ..." if len(v) > 4 else "")
     if v is None:
         return "-"
     if isinstance(v, str):
@@ -56,7 +56,8 @@ def summary_table(summary: dict) -> str:
         if section != section_seen:
             lines.append(f"[{section}]")
             section_seen = section
-        err = unc.get(f"{section}.{key}")
+        err = unc.get(f"{section}.{key}", unc.get(f"{section}.natural_frequencies_hz")
+                      if key == "distinct_frequencies_hz" else None)
         err_s = f"{err:.1e}" if isinstance(err, (int, float)) else ""
         lines.append(f"  {label:<30} {_fmt(sec[key], scale):>28}  {unit:<13} {err_s:>10}")
     audit = summary.get("audit")

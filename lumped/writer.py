@@ -36,30 +36,37 @@ def json_ready(obj):
 
 
 def _producers(result):
-    """(file name, function(path)) pairs for every output this run can produce."""
+    """(relative file name, function(path)) pairs for every output this run can produce."""
+    from .report.outputs import report_files
+
     summary = json_ready(result.summary())
     yield "summary.json", lambda p: p.write_text(json.dumps(summary, indent=2) + "\n",
                                                  encoding="utf-8")
-    for name, section in result.sections.items():
-        for fname, func in getattr(section, "output_files", lambda: [])():
-            yield fname, func
+    yield from report_files(result)
 
 
 def write_outputs(result, out: Path) -> list[Path]:
-    """Write every output of ``result`` into ``out`` (created if needed); return the paths."""
+    """Write every output of ``result`` into ``out`` (created if needed); return the paths.
+
+    Names may contain sub-folders (``plots/response.png``). Everything is produced in a temporary
+    folder beside ``out`` first; only when all producers have succeeded are the files moved in.
+    """
     out = Path(out)
     out.parent.mkdir(parents=True, exist_ok=True)
     tmp = Path(tempfile.mkdtemp(prefix=".diagap-", dir=out.parent))
     try:
         names = []
         for fname, func in _producers(result):
-            func(tmp / fname)
+            target = tmp / fname
+            target.parent.mkdir(parents=True, exist_ok=True)
+            func(target)
             names.append(fname)
-        out.mkdir(parents=True, exist_ok=True)
         written = []
         for fname in names:
-            os.replace(tmp / fname, out / fname)
-            written.append(out / fname)
+            dest = out / fname
+            dest.parent.mkdir(parents=True, exist_ok=True)
+            os.replace(tmp / fname, dest)
+            written.append(dest)
         return written
     finally:
         shutil.rmtree(tmp, ignore_errors=True)

@@ -127,7 +127,7 @@ def spice_netlist(model: LumpedModel) -> str:
     """The netlist text (header, subcircuit, test bench)."""
     zs = impedance_scale(model)
     if model.film_damping is not None:
-        _log.warning("SPICE netlist: film damping table replaced by damping_n_s_per_m")
+        _log.info("SPICE netlist: film damping table replaced by damping_n_s_per_m")
     return "\n".join(_header(model, zs) + _subckt(model, zs) + _bench(model)) + "\n"
 
 
