@@ -34,7 +34,7 @@ from __future__ import annotations
 
 import math
 import time
-from dataclasses import dataclass
+from dataclasses import replace, dataclass
 
 import numpy as np
 from skfem import Basis, ElementTriP2
@@ -183,7 +183,57 @@ def _check_inputs(re, rd, g, t, shape, rb, eps_r, accuracy, span) -> None:
              f" must exceed twice the gap ({2 * g!r} m) for a rim model")
 
 
+#: largest electrode size / gap modelled directly; larger pairs are modelled at this ratio and
+#: the per-length edge capacitance is extended by the logarithmic law below.
+MAX_SIZE_RATIO = 120.0
+
+
 def rim_fringing(electrode_radius_m: float, diaphragm_radius_m: float, gap_m: float,
+                 backplate_thickness_m: float, shape: str = "circle",
+                 backplate_radius_m: float | None = None,
+                 backplate_relative_permittivity: float = 1.0, accuracy: str = "normal",
+                 gap_span: float = 1.0 / 3.0) -> RimResult:
+    """Rim fringing capacitance of the electrode pair (see :func:`rim_fringing_direct`).
+
+    Pairs whose size exceeds ``MAX_SIZE_RATIO`` gaps are modelled with the electrode scaled down
+    to that ratio (gap, thickness and the overhang of diaphragm and backplate beyond the electrode
+    kept, up to half the modelled electrode) and the edge capacitance per unit length is
+    extended with the logarithmic size law of thin plates in free space,
+    ΔC/ℓ = (ε0/2π)·ln(s), s the size ratio — the ln(a/d) term of Kirchhoff's disk formula
+    (Kirchhoff 1877) and of Palmer's strip formula (Palmer 1937). The law's own uncertainty is
+    taken as 10 % of the correction.
+    """
+    rb = electrode_radius_m if backplate_radius_m is None else backplate_radius_m
+    size = max(electrode_radius_m, diaphragm_radius_m, rb)
+    kw = dict(shape=shape, backplate_relative_permittivity=backplate_relative_permittivity,
+              accuracy=accuracy, gap_span=gap_span)
+    if size <= MAX_SIZE_RATIO * gap_m:
+        return rim_fringing_direct(electrode_radius_m, diaphragm_radius_m, gap_m,
+                                   backplate_thickness_m, backplate_radius_m=backplate_radius_m,
+                                   **kw)
+    # scale the electrode down to MAX_SIZE_RATIO gaps; keep the overhangs beyond it (they shape
+    # the edge field) in absolute size, at most half the modelled electrode
+    re_s = MAX_SIZE_RATIO * gap_m * electrode_radius_m / size
+    f = re_s / electrode_radius_m
+    over = min(diaphragm_radius_m - electrode_radius_m, 0.5 * re_s) if \
+        diaphragm_radius_m > electrode_radius_m else (diaphragm_radius_m - electrode_radius_m) * f
+    ring = None if backplate_radius_m is None else re_s + min(rb - electrode_radius_m, 0.5 * re_s)
+    small = rim_fringing_direct(re_s, re_s + over, gap_m, backplate_thickness_m,
+                                backplate_radius_m=ring, **kw)
+    perimeter = small.perimeter_m / f
+    extra = EPS0 / (2 * math.pi) * math.log(1.0 / f) * perimeter
+    coef = np.array(small.coefficients, dtype=float) / f
+    coef[0] += extra
+    c_rest = small.capacitance_f / f + extra
+    parallel = small.parallel_plate_capacitance_f / f**2
+    return replace(small, capacitance_f=c_rest,
+                   abs_error_f=small.abs_error_f / f + 0.1 * extra,
+                   pair_capacitance_f=parallel + c_rest, parallel_plate_capacitance_f=parallel,
+                   samples_f=np.asarray(small.samples_f) / f + extra, coefficients=coef,
+                   perimeter_m=perimeter, per_length_f_per_m=c_rest / perimeter)
+
+
+def rim_fringing_direct(electrode_radius_m: float, diaphragm_radius_m: float, gap_m: float,
                  backplate_thickness_m: float, shape: str = "circle",
                  backplate_radius_m: float | None = None,
                  backplate_relative_permittivity: float = 1.0, accuracy: str = "normal",

@@ -23,6 +23,7 @@ from .materials import MATERIALS
 __all__ = [
     "DesignError", "Design", "Diaphragm", "Backplate", "Acoustics", "Electrical", "Analysis",
     "load_design", "parse_design", "demo_design", "demo_text", "starter_text", "with_override",
+    "with_overrides",
 ]
 
 
@@ -448,16 +449,27 @@ def demo_design() -> Design:
 
 def with_override(design: Design, path: str, value) -> Design:
     """A copy of ``design`` with the key ``section.key`` set to ``value`` (validated again)."""
+    return with_overrides(design, {path: value})
+
+
+def with_overrides(design: Design, changes: dict) -> Design:
+    """A copy of ``design`` with several ``section.key`` values replaced at once (``None``
+    removes a key), validated once, so that combinations valid only together are accepted."""
     raw = design.raw_dict()
-    parts = path.split(".")
-    if len(parts) == 1 and parts[0] in _TOP:
-        raw[parts[0]] = value
-        return parse_design(raw)
-    if len(parts) != 2 or parts[0] not in SCHEMA:
-        raise DesignError(f"{path}: not a design key (use section.key, sections: "
-                          f"{', '.join(SCHEMA)})")
-    section, key = parts
-    if key not in SCHEMA[section]:
-        _check_keys(section, {key: None}, SCHEMA[section])
-    raw.setdefault(section, {})[key] = value
+    for path, value in changes.items():
+        parts = path.split(".")
+        if len(parts) == 1 and parts[0] in _TOP:
+            raw[parts[0]] = value
+            continue
+        if len(parts) != 2 or parts[0] not in SCHEMA:
+            raise DesignError(f"{path}: not a design key (use section.key, sections: "
+                              f"{', '.join(SCHEMA)})")
+        section, key = parts
+        if key not in SCHEMA[section]:
+            _check_keys(section, {key: None}, SCHEMA[section])
+        table = raw.setdefault(section, {})
+        if value is None:
+            table.pop(key, None)
+        else:
+            table[key] = value
     return parse_design(raw)
