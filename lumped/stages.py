@@ -22,6 +22,8 @@ __all__ = ["electrostatics_stage", "coupled_stage", "damping_stage", "lumped_mod
 GAP_TABLE = (0.25, 1.45)
 #: centre travel of the C(x) samples handed to the nonlinear (distortion) model, in gaps
 NONLINEAR_TRAVEL = 0.7
+#: the rim-fringing model covers local rim gaps g(1 ± RIM_SPAN)
+RIM_SPAN = 0.5
 
 
 @dataclass(frozen=True)
@@ -81,7 +83,7 @@ def electrostatics_stage(design: Design, mech) -> Section:
     half = d.shape == "square"
     rim = rim_fringing((0.5 if half else 1.0) * b.electrode_size_m,
                        (0.5 if half else 1.0) * d.size_m, g, b.thickness_m, shape=d.shape,
-                       accuracy=acc)
+                       accuracy=acc, gap_span=RIM_SPAN)
     x, y, w = electrode_quadrature(design)
     phi = mech.static_shape(x, y)
     phi_rim = float(np.mean(mech.static_shape(*_rim_points(design))))
@@ -96,7 +98,8 @@ def electrostatics_stage(design: Design, mech) -> Section:
         "rim_fringing_capacitance_f": rim.abs_error_f / max(rim.capacitance_f, 1e-300),
     }
     data = dev.to_summary()
-    return Section(data, unc, {"device": dev, "density": density, "rim": rim})
+    return Section(data, unc, {"device": dev, "density": density, "rim": rim,
+                               "phi_max": float(np.max(phi)), "phi_rim": phi_rim})
 
 
 def coupled_stage(design: Design, problem, es: Section) -> Section:
@@ -139,7 +142,11 @@ def lumped_model(design: Design, mech, es: Section, cp: Section, damp: Section):
     k = mech.effective_stiffness_n_per_m
     ratio = (res.resonance_at_bias_hz / res.resonance_no_bias_hz) ** 2
     k_e = k * (1.0 - ratio)
-    xs = np.linspace(-0.4 * g, NONLINEAR_TRAVEL * g, 111)
+    # keep every local gap inside the c(g) table and the rim model's range
+    pm, pr = max(es.objects["phi_max"], 1e-9), max(es.objects["phi_rim"], 1e-9)
+    x_hi = 0.999 * min(NONLINEAR_TRAVEL * g, (1 - GAP_TABLE[0]) * g / pm, RIM_SPAN * g / pr)
+    x_lo = -0.999 * min(0.4 * g, (GAP_TABLE[1] - 1) * g / pm, RIM_SPAN * g / pr)
+    xs = np.linspace(x_lo, x_hi, 111)
     curve = tuple((float(x), float(dev(x))) for x in xs)
     e, ac = design.electrical, design.acoustics
     film = FilmTable(tuple(sq.frequencies_hz.tolist()), tuple(sq.damping_spectrum_n_s_per_m.tolist()),

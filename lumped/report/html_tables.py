@@ -59,7 +59,13 @@ def format_value(v, scale: float = 1.0, digits: int = 5) -> str:
     if isinstance(v, (list, tuple)):
         return ", ".join(format_value(x, scale, digits) for x in v)
     x = float(v) * scale
-    return f"{x:.{digits}g}" if math.isfinite(x) else "—"
+    if not math.isfinite(x):
+        return "—"
+    text = f"{x:.{digits}g}"
+    if "e" in text:
+        mantissa, exponent = text.split("e")
+        text = f"{mantissa}×10<sup>{int(exponent)}</sup>"
+    return text
 
 
 def _table(head: tuple[str, ...], rows: list[str], cls: str = "") -> str:
@@ -119,8 +125,8 @@ def _uncertainty(unc: dict, section: str, key: str) -> str:
     return f"±{100.0 * u:.2g} %"
 
 
-def results_tables(summary: dict) -> str:
-    """One table per computed section: quantity, value, unit, estimated relative error."""
+def results_tables(summary: dict) -> list[tuple[str, str]]:
+    """(section, HTML) of one table per computed section: quantity, value, unit, est. error."""
     unc = summary.get("uncertainty", {})
     out = []
     for section, title in SECTION_TITLES.items():
@@ -135,9 +141,9 @@ def results_tables(summary: dict) -> str:
                         f"<td class=num>{format_value(sec[key], scale)}</td>"
                         f"<td>{display_unit(unit)}</td>"
                         f"<td class=num>{_uncertainty(unc, section, key)}</td></tr>")
-        out.append(f'<h3 id="res-{section}">{html.escape(title)}</h3>\n' +
-                   _table(("quantity", "value", "unit", "est. rel. error"), rows, "results"))
-    return "\n".join(out)
+        out.append((section, f'<h3 id="res-{section}">{html.escape(title)}</h3>\n' +
+                    _table(("quantity", "value", "unit", "est. rel. error"), rows, "results")))
+    return out
 
 
 _VERDICT = {"holds": ("✓ holds", False), "marginal": ("! marginal", True),

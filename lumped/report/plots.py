@@ -34,6 +34,7 @@ class Plot:
     """One report plot: ``plots/<name>.png``."""
 
     name: str
+    section: str  # the summary section it illustrates
     title: str
     caption: str
     draw: Callable[[], object]  # -> matplotlib.figure.Figure

@@ -144,7 +144,7 @@ def electro_plots(design, es, cp, cell) -> list[Plot]:
     if cell is not None:
         f, ul = prefixed(cell.cell_radius_m, "m")
         out.append(Plot(
-            "cell_field", "Unit cell: potential and field around a hole",
+            "cell_field", "electrostatics", "Unit cell: potential and field around a hole",
             f"Axisymmetric equal-area cell of the {cell.lattice} lattice at the rest gap "
             f"({cell.gap_m * f:.3g} {ul}), diaphragm at 0 V (thick line at z = 0), backplate at "
             f"1 V; hole radius {cell.hole_radius_m * f:.3g} {ul}. Both maps scale linearly with "
@@ -155,14 +155,14 @@ def electro_plots(design, es, cp, cell) -> list[Plot]:
         dev = es.objects["device"]
         x_b = cp.data.get("bias_center_deflection_m") if cp is not None else None
         out.append(Plot(
-            "capacitance", "Capacitance against centre displacement",
+            "capacitance", "electrostatics", "Capacitance against centre displacement",
             "Device capacitance C(x) with the diaphragm in its static deflection shape, and the "
             "linear (tangent) model used by the simple small-signal theory; the lower panel shows "
             "how far the linear model departs from C(x).",
             lambda: draw_capacitance(dev, bias_deflection_m=x_b)))
     if cp is not None and cp.data.get("branch"):
         out.append(Plot(
-            "bias_branch", "Bias branch and pull-in",
+            "bias_branch", "coupled", "Bias branch and pull-in",
             "Equilibrium centre deflection of the FE diaphragm under the electrostatic pressure "
             "of the bias voltage (no sound pressure). The voltage peaks at pull-in; beyond it "
             "the equilibria are unstable.",

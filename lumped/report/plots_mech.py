@@ -121,15 +121,15 @@ def mech_plots(mech) -> list[Plot]:
     fw, wl = prefixed(mech.center_compliance_m_per_pa, "m")
     modes = distinct_modes(mech)
     return [
-        Plot("deflection", "Static deflection",
+        Plot("deflection", "mechanics", "Static deflection",
              f"Deflection under a uniform pressure of 1 Pa along the x-axis (no bias); centre "
              f"compliance {mech.center_compliance_m_per_pa * fw:.4g} {wl}/Pa, {mech.model} model.",
              lambda: draw_deflection(mech)),
-        Plot("mode_profiles", "Mode shapes: profiles",
+        Plot("mode_profiles", "mechanics", "Mode shapes: profiles",
              f"First {len(modes)} distinct vacuum modes along the diameter through each mode's "
              "largest deflection (degenerate pairs shown once; their orientation is arbitrary).",
              lambda: draw_mode_profiles(mech)),
-        Plot("mode_maps", "Mode shapes: maps",
+        Plot("mode_maps", "mechanics", "Mode shapes: maps",
              "The same modes over the diaphragm; black contour lines at multiples of 1/4 of the "
              "largest |φ|, including the nodal line φ = 0; negative levels dashed.", lambda: draw_mode_maps(mech)),
     ]

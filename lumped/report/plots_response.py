@@ -145,7 +145,7 @@ def response_plots(design, damp, resp) -> list[Plot]:
         sq = damp.objects["squeeze"]
         f_res = resp.data.get("resonance_hz") if resp is not None else None
         out.append(Plot(
-            "squeeze_film", "Squeeze-film damping and stiffness",
+            "squeeze_film", "damping", "Squeeze-film damping and stiffness",
             f"Force per centre velocity (damping) and per centre displacement (stiffness) of the "
             f"air film on the mode-1 shape; below the cut-off ({_hz(sq.cutoff_frequency_hz)}) the "
             f"film acts as a damper, above it as a spring.",
@@ -154,13 +154,13 @@ def response_plots(design, damp, resp) -> list[Plot]:
         return out
     r = resp.objects["response"]
     out.append(Plot(
-        "response", "Frequency response",
+        "response", "response", "Frequency response",
         f"Output voltage per pascal of the lumped model at the bias point (bias resistor, "
         f"parasitic and preamp input capacitance, back volume and vent included). Sensitivity at 1 kHz: {r.sensitivity_db_v_per_pa:.2f} dB re 1 V/Pa.",
         lambda: draw_response(r)))
     d = resp.data
     out.append(Plot(
-        "noise", "Noise",
+        "noise", "response", "Noise",
         f"Input-referred noise density and its sources. A-weighted noise floor over 20 Hz – "
         f"20 kHz: {d['noise_dba_spl']:.1f} dB(A) SPL; SNR re 94 dB SPL: {d['snr_db']:.1f} dB(A).",
         lambda: draw_noise(resp)))
@@ -168,7 +168,7 @@ def response_plots(design, damp, resp) -> list[Plot]:
     if dist is not None and len(dist.spl_db):
         note = f" The scan stopped: {dist.limit_reason}." if dist.limit_reason else ""
         out.append(Plot(
-            "thd", "Distortion against sound pressure level",
+            "thd", "response", "Distortion against sound pressure level",
             f"Total harmonic distortion of the output at {_hz(dist.frequency_hz)} from the "
             f"one-degree-of-freedom model with the FE C(x) (nonlinear readout and electrostatic "
             f"force; linear mechanics).{note}", lambda: draw_thd(dist)))
