@@ -85,6 +85,12 @@ def build_parser() -> argparse.ArgumentParser:
     holes.add_argument("--json", action="store_true", help="print JSON")
     _add_common(holes)
 
+    ver = sub.add_parser("verify", help="run built-in validation cases against published references",
+                         description="Run the production solvers on problems with published "
+                         "closed forms or table values and print FE value, reference, deviation, "
+                         "error estimate and tolerance. Exit code 1 if a check fails.")
+    _add_common(ver)
+
     init = sub.add_parser("init", help="write a commented starter design file",
                           description="Write a commented starter design (an invented example).")
     init.add_argument("file", help="path of the new design file (TOML)")
@@ -140,7 +146,15 @@ def _cmd_holes(args) -> int:
     return EXIT_OK
 
 
-_COMMANDS = {"run": _cmd_run, "init": _cmd_init, "sweep": _cmd_sweep, "holes": _cmd_holes}
+def _cmd_verify(args) -> int:
+    from .verify import checks_table, run_checks
+
+    checks = run_checks(args.accuracy or "normal")
+    print(checks_table(checks))
+    return EXIT_OK if all(c.passed for c in checks) else EXIT_INTERNAL
+
+
+_COMMANDS = {"verify": _cmd_verify, "run": _cmd_run, "init": _cmd_init, "sweep": _cmd_sweep, "holes": _cmd_holes}
 
 
 def main(argv: list[str] | None = None) -> int:
@@ -166,6 +180,25 @@ def main(argv: list[str] | None = None) -> int:
     except KeyboardInterrupt:
         print("diagap: interrupted", file=sys.stderr)
         return 130
+    except ValueError as exc:
+        # an input that passed the design checks but that a solver cannot accept
+        if type(exc).__module__.split(".")[0] in ("fem", "lumped", "meshes"):
+            print(f"diagap: error: {exc}", file=sys.stderr)
+            return EXIT_INPUT
+        return _internal(exc, args)
+    except Exception as exc:  # noqa: BLE001 - the last line of defence of the CLI
+        return _internal(exc, args)
+
+
+def _internal(exc: Exception, args) -> int:
+    import traceback
+
+    if getattr(args, "verbose", False):
+        traceback.print_exc()
+    first = str(exc).splitlines()[0] if str(exc) else ""
+    print(f"diagap: internal error: {type(exc).__name__}: {first} (run with -v for the "
+          "traceback; please report it with the design file)", file=sys.stderr)
+    return EXIT_INTERNAL
 
 
 if __name__ == "__main__":  # pragma: no cover

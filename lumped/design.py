@@ -92,7 +92,7 @@ SCHEMA: dict[str, dict[str, Field]] = {
                                  default=101325.0),
     },
     "electrical": {
-        "bias_voltage": Field("V", low=0.0, low_open=False, required=True),
+        "bias_voltage": Field("V", low=0.0, required=True),
         "bias_resistance": Field("ohm", low=0.0, required=True),
         "parasitic_capacitance": Field("F", low=0.0, low_open=False, default=0.0),
         "preamp_input_capacitance": Field("F", low=0.0, low_open=False, default=0.0),

@@ -44,7 +44,8 @@ CASES = [
     ("backplate.hole_lattice", "hexagonal", r"backplate\.hole_lattice = 'hexagonal': must be one of hex, square, none"),
     ("acoustics.temperature", "900 degC", r"acoustics\.temperature = '900 degC': must be in \[173\.15, 473\.15\] K"),
     ("acoustics.static_pressure", "10 Pa", r"acoustics\.static_pressure = '10 Pa': must be in \[1000, 1e\+06\] Pa"),
-    ("electrical.bias_voltage", "-5 V", r"electrical\.bias_voltage = '-5 V': must be zero or positive"),
+    ("electrical.bias_voltage", "-5 V", r"electrical\.bias_voltage = '-5 V': must be positive"),
+    ("electrical.bias_voltage", "0 V", r"electrical\.bias_voltage = '0 V': must be positive"),
     ("electrical.bias_resistance", "10 pF", r"electrical\.bias_resistance = '10 pF': wrong dimension"),
     ("analysis.accuracy", "ultra", r"analysis\.accuracy = 'ultra': must be one of draft, normal, fine"),
 ]

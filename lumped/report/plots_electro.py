@@ -39,7 +39,8 @@ def draw_cell_field(cell):
     f, ul = prefixed(cell.cell_radius_m, "m")
     p = cell.points_m * f
     tri = Triangulation(p[:, 0], p[:, 1], cell.triangles)
-    fig, (a1, a2) = new_figure(7.6, 4.6, ncols=2, sharey=True)
+    fig, (a1, a2) = new_figure(7.6, 4.6, ncols=2, sharey=True, margins_in=(0.7, 0.2, 0.3, 0.35),
+                               wspace=0.08)
     filled = a1.tricontourf(tri, cell.potential_v, levels=np.linspace(0, 1, 21),
                             cmap=SEQUENTIAL_MAP)
     lines = a1.tricontour(tri, cell.potential_v, levels=np.linspace(0.1, 0.9, 9), colors="black",
@@ -80,7 +81,8 @@ def draw_capacitance(device, bias_deflection_m: float | None = None):
     lin = c0 + slope * x
     fx, xl = prefixed(g, "m")
     fc, cl = prefixed(c0, "F")
-    fig, (a1, a2) = new_figure(7.6, 5.0, nrows=2, sharex=True, height_ratios=[2.2, 1])
+    fig, (a1, a2) = new_figure(7.6, 5.0, nrows=2, sharex=True, height_ratios=[2.2, 1],
+                               margins_in=(0.9, 0.25, 0.6, 0.2), hspace=0.08)
     a1.plot(x * fx, c * fc, color="black", lw=1.8, label="C(x), FE (cell table + rim)")
     a1.plot(device.x_m * fx, device.capacitance_f * fc, ls="none", marker="o", ms=3.5,
             mfc="white", color="black", label="C(x) samples in summary.json")
@@ -108,7 +110,7 @@ def draw_bias_branch(coupled_data: dict, gap_m: float, bias_voltage_v: float):
     w_pi, v_pi = coupled_data["pull_in_center_deflection_m"], coupled_data["pull_in_voltage_v"]
     fw, wl = prefixed(gap_m, "m")
     stable = w <= w_pi * (1 + 1e-9)
-    fig, ax = new_figure(7.6, 4.2)
+    fig, ax = new_figure(7.6, 4.2, margins_in=(0.8, 0.8, 0.6, 0.2))
     ax.plot(v[stable] * 1.0, w[stable] * fw, color="black", ls=LINES[0], marker="o", ms=4,
             label="stable equilibria (FE)")
     if np.any(~stable):

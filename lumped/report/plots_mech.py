@@ -57,7 +57,7 @@ def draw_deflection(mech):
     s, w = _profile(mech, mech.static_deflection_m_per_pa, 0.0)
     fx, xl = prefixed(np.nanmax(np.abs(s)), "m")
     fw, wl = prefixed(np.nanmax(np.abs(w)), "m")
-    fig, ax = new_figure(7.6, 3.6)
+    fig, ax = new_figure(7.6, 3.6, margins_in=(0.9, 0.25, 0.6, 0.2))
     ax.plot(s * fx, w * fw, color="black", lw=1.8, label="FE, uniform pressure 1 Pa")
     ax.plot([0.0], [mech.center_compliance_m_per_pa * fw], ls="none", marker="o", mfc="white",
             color="black", label=f"centre: {mech.center_compliance_m_per_pa * fw:.4g} {wl}/Pa")
@@ -71,7 +71,7 @@ def draw_deflection(mech):
 
 def draw_mode_profiles(mech):
     """Profiles of the first distinct modes along the diameter through each one's maximum."""
-    fig, ax = new_figure(7.6, 4.0)
+    fig, ax = new_figure(7.6, 4.2, margins_in=(0.8, 0.25, 0.6, 0.2))
     ext = _half_extent_m(mech)
     fx, xl = prefixed(ext, "m")
     for k, (i, f) in enumerate(distinct_modes(mech)):
@@ -82,27 +82,29 @@ def draw_mode_profiles(mech):
                 label=f"mode {i}: {f * fi:.4g} {fl} (at {math.degrees(angle):.0f}°)")
     ax.axhline(0.0, color="0.6", lw=0.8)
     ax.set_xlabel(f"position along the diameter ({xl})")
-    ax.set_ylabel("mode shape φ (mode 1: φ(centre) = 1; others max |φ| = 1)")
+    ax.set_ylabel("mode shape φ")
     ax.grid(True, color="0.85")
     ax.legend(fontsize=8, loc="lower center", ncols=2)
     return fig
 
 
 def draw_mode_maps(mech):
-    """Filled contour maps of the first distinct modes on the plate mesh."""
+    """Filled contour maps of the first distinct modes on the plate mesh (one shared scale)."""
     from matplotlib.tri import Triangulation
 
     points, triangles, data = mech.nodal_fields()
     modes = distinct_modes(mech)
     ncols = 2 if len(modes) > 1 else 1
     nrows = math.ceil(len(modes) / ncols)
-    fig, axes = new_figure(7.6, 3.5 * nrows, nrows=nrows, ncols=ncols, squeeze=False)
+    fig, axes = new_figure(7.6, 3.2 * nrows + 0.3, nrows=nrows, ncols=ncols, squeeze=False,
+                           margins_in=(0.8, 1.3, 0.5, 0.35), wspace=0.3, hspace=0.35)
     fx, xl = prefixed(_half_extent_m(mech), "m")
     tri = Triangulation(points[:, 0] * fx, points[:, 1] * fx, np.asarray(triangles).T)
+    vmax = max(float(np.max(np.abs(data[f"mode_{i}"]))) for i, _ in modes) or 1.0
+    levels = np.linspace(-vmax, vmax, 17)
+    filled = None
     for ax, (i, f) in zip(axes.flat, modes):
         v = data[f"mode_{i}"]
-        vmax = float(np.max(np.abs(v))) or 1.0
-        levels = np.linspace(-vmax, vmax, 17)
         filled = ax.tricontourf(tri, v, levels=levels, cmap=SEQUENTIAL_MAP)
         ax.tricontour(tri, v, levels=levels[2:-2:2], colors="black", linewidths=0.6)
         fi, fl = prefixed(f, "Hz")
@@ -110,9 +112,10 @@ def draw_mode_maps(mech):
         ax.set_aspect("equal")
         ax.set_xlabel(f"x ({xl})")
         ax.set_ylabel(f"y ({xl})")
-        fig.colorbar(filled, ax=ax, shrink=0.85, label="φ")
     for ax in list(axes.flat)[len(modes):]:
         ax.set_visible(False)
+    cax = fig.add_axes((1 - 1.0 / 7.6, 0.15, 0.2 / 7.6, 0.7))
+    fig.colorbar(filled, cax=cax, label="mode shape φ")
     return fig
 
 
@@ -127,7 +130,8 @@ def mech_plots(mech) -> list[Plot]:
              lambda: draw_deflection(mech)),
         Plot("mode_profiles", "mechanics", "Mode shapes: profiles",
              f"First {len(modes)} distinct vacuum modes along the diameter through each mode's "
-             "largest deflection (degenerate pairs shown once; their orientation is arbitrary).",
+             "largest deflection (degenerate pairs shown once; their orientation is arbitrary). "
+             "Mode 1 is normalised to φ(centre) = 1, the others to max |φ| = 1.",
              lambda: draw_mode_profiles(mech)),
         Plot("mode_maps", "mechanics", "Mode shapes: maps",
              "The same modes over the diaphragm; black contour lines at multiples of 1/4 of the "

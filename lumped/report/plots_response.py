@@ -39,7 +39,8 @@ def _markers_line(ax, x: float | None, style, label: str):
 def draw_squeeze(sq, resonance_hz: float | None):
     """Film damping and stiffness against frequency."""
     f = np.asarray(sq.frequencies_hz, float)
-    fig, (a1, a2) = new_figure(7.6, 4.8, nrows=2, sharex=True)
+    fig, (a1, a2) = new_figure(7.6, 4.8, nrows=2, sharex=True,
+                               margins_in=(0.9, 0.25, 0.6, 0.2), hspace=0.08)
     a1.loglog(f, sq.damping_spectrum_n_s_per_m, color="black", marker="o", ms=3, lw=1.5)
     a1.set_ylabel("damping b (N·s/m)")
     k = np.asarray(sq.film_stiffness_n_per_m, float)
@@ -50,7 +51,7 @@ def draw_squeeze(sq, resonance_hz: float | None):
     for ax in (a1, a2):
         _markers_line(ax, sq.cutoff_frequency_hz, "-.", f"film cut-off {_hz(sq.cutoff_frequency_hz)}")
         _markers_line(ax, resonance_hz, ":", f"resonance {_hz(resonance_hz)}" if resonance_hz else "")
-        ax.grid(True, which="both", color="0.9")
+        ax.grid(True, which="major", color="0.85")
     a1.set_xlim(f[0], f[-1])
     a1.legend(fontsize=8, loc="lower left")
     return fig
@@ -60,7 +61,8 @@ def draw_response(resp):
     """Magnitude and phase of V_out/p with the corners and the resonance."""
     r = resp.response
     f = np.asarray(r.frequency_hz, float)
-    fig, (a1, a2) = new_figure(7.6, 5.4, nrows=2, sharex=True, height_ratios=[1.6, 1])
+    fig, (a1, a2) = new_figure(7.6, 5.4, nrows=2, sharex=True, height_ratios=[1.6, 1],
+                               margins_in=(0.9, 0.25, 0.6, 0.2), hspace=0.08)
     a1.semilogx(f, r.magnitude_db_v_per_pa, color="black", lw=1.8, label="|V_out / p|")
     a1.plot([1000.0], [resp.sensitivity_db_v_per_pa], ls="none", marker="o", ms=7, mfc="white",
             color="black", label=f"1 kHz: {resp.sensitivity_db_v_per_pa:.2f} dB re 1 V/Pa")
@@ -74,7 +76,7 @@ def draw_response(resp):
             q = f", Q = {resp.quality_factor:.3g}" if resp.quality_factor else ""
             _markers_line(ax, resp.resonance_hz, ":",
                           f"resonance {_hz(resp.resonance_hz)}{q}" if lab else None)
-        ax.grid(True, which="both", color="0.9")
+        ax.grid(True, which="major", color="0.85")
     top = float(np.max(r.magnitude_db_v_per_pa))
     a1.set_ylim(max(float(np.min(r.magnitude_db_v_per_pa)), top - 80.0) - 2.0, top + 6.0)
     a1.set_ylabel("sensitivity (dB re 1 V/Pa)")
@@ -93,7 +95,7 @@ def draw_noise(resp_section):
     total = np.asarray(resp_section.objects["noise_input_psd"], float)
     data = resp_section.data
     levels = data.get("noise_contributions_dba_spl", {})
-    fig, ax = new_figure(7.6, 4.6)
+    fig, ax = new_figure(7.6, 4.6, margins_in=(0.9, 0.8, 0.6, 0.2))
     ax.axvspan(20.0, 20e3, color="0.93", lw=0, label="audio band 20 Hz – 20 kHz")
     ax.loglog(f, np.sqrt(total), color="black", lw=2.2,
               label=f"total: {data['noise_dba_spl']:.1f} dB(A) SPL")
@@ -109,9 +111,9 @@ def draw_noise(resp_section):
     ax.set_xlabel("frequency (Hz)")
     ax.set_ylabel("input-referred noise (Pa/√Hz)")
     right = ax.secondary_yaxis("right", functions=(lambda p: 20 * np.log10(np.maximum(p, 1e-30) / _P_REF),
-                                                   lambda d: _P_REF * 10 ** (d / 20)))
+                                                   lambda d: _P_REF * 10 ** (np.clip(d, -400, 400) / 20)))
     right.set_ylabel("dB SPL in 1 Hz")
-    ax.grid(True, which="both", color="0.9")
+    ax.grid(True, which="major", color="0.85")
     ax.legend(fontsize=8, loc="upper right")
     return fig
 
@@ -120,7 +122,7 @@ def draw_thd(dist):
     """THD against SPL with the 1 % and 10 % levels."""
     spl = np.asarray(dist.spl_db, float)
     thd = np.maximum(np.asarray(dist.thd, float), 1e-9)
-    fig, ax = new_figure(7.6, 4.0)
+    fig, ax = new_figure(7.6, 4.0, margins_in=(0.8, 0.25, 0.6, 0.2))
     ax.semilogy(spl, 100.0 * thd, color="black", marker="o", ms=4, lw=1.5,
                 label=f"THD at {_hz(dist.frequency_hz)} (harmonic balance)")
     ax.axhline(1.0, color="0.35", ls="--", lw=1.2, label="1 %")
@@ -133,7 +135,7 @@ def draw_thd(dist):
                     label=f"{text} THD at {value:.1f} dB SPL")
     ax.set_xlabel("sound pressure level (dB SPL re 20 µPa)")
     ax.set_ylabel("total harmonic distortion (%)")
-    ax.grid(True, which="both", color="0.9")
+    ax.grid(True, which="major", color="0.85")
     ax.legend(fontsize=8, loc="upper left")
     return fig
 
