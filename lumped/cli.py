@@ -82,6 +82,9 @@ def build_parser() -> argparse.ArgumentParser:
     holes.add_argument("--pitch", required=True, help='hole pitch, e.g. "20 um"')
     holes.add_argument("--thickness", required=True, help='backplate thickness, e.g. "2 um"')
     holes.add_argument("--lattice", default="hex", choices=("hex", "square"))
+    holes.add_argument("--model", default="axisymmetric", choices=("axisymmetric", "3d"),
+                       help="unit cell: equal-area axisymmetric cell (default, fast) or the 3D "
+                       "lattice prism (slower; a check of the axisymmetric cell)")
     holes.add_argument("--json", action="store_true", help="print JSON")
     _add_common(holes)
 
@@ -141,7 +144,7 @@ def _cmd_holes(args) -> int:
     from .holes import evaluate_holes, holes_table
 
     result = evaluate_holes(args.gap, args.radius, args.pitch, args.thickness, args.lattice,
-                            args.accuracy or "normal")
+                            args.accuracy or "normal", model=args.model)
     print(json.dumps(result, indent=2) if args.json else holes_table(result))
     return EXIT_OK
 

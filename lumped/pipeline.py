@@ -71,7 +71,7 @@ def run_design(design: Design) -> RunResult:
     problem = plate_problem(design)
     mech = _stage(result, "mechanics", solve_plate, problem, accuracy=acc)
     es = _stage(result, "electrostatics", electrostatics_stage, design, mech)
-    cp = _stage(result, "coupled", coupled_stage, design, problem, es)
+    cp = _stage(result, "coupled", coupled_stage, design, problem, es, mech)
     result.collapsed = bool(cp.objects["coupled"].collapsed)
     f_res = cp.objects["coupled"].resonance_at_bias_hz or mech.natural_frequencies_hz[0]
     damp = _stage(result, "damping", damping_stage, design, mech, f_res)

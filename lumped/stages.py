@@ -102,20 +102,35 @@ def electrostatics_stage(design: Design, mech) -> Section:
                                "phi_max": float(np.max(phi)), "phi_rim": phi_rim})
 
 
-def coupled_stage(design: Design, problem, es: Section) -> Section:
-    """Equilibrium under bias, softening and pull-in of the FE diaphragm."""
+def coupled_stage(design: Design, problem, es: Section, mech) -> Section:
+    """Equilibrium under bias, softening and pull-in of the FE diaphragm.
+
+    The electrostatic spring is referred to the mode-1 centre coordinate: with the resonance
+    f_b at bias and f_0 without (same mesh, vacuum), k_soft = k_eff (f_b/f_0)² and
+    k_e = k_eff − k_soft (constant voltage; = −dF/dx of the electrostatic force)."""
     from fem.coupled_plate import solve_coupled
 
     b = design.backplate
     res = solve_coupled(problem, design.analysis.accuracy, b.electrode_size_m, b.gap_m,
                         design.electrical.bias_voltage_v, es.objects["density"])
-    return Section(res.to_summary(), dict(res.uncertainty), {"coupled": res})
+    data = res.to_summary()
+    unc = dict(res.uncertainty)
+    if not res.collapsed:
+        k = mech.effective_stiffness_n_per_m
+        soft = k * (res.resonance_at_bias_hz / res.resonance_no_bias_hz) ** 2
+        data["softened_stiffness_n_per_m"] = soft
+        data["electrostatic_stiffness_n_per_m"] = k - soft
+        unc["softened_stiffness_n_per_m"] = 2 * unc.get("resonance_at_bias_hz", 0.0) + \
+            mech.uncertainty.get("effective_stiffness_n_per_m", 0.0)
+    return Section(data, unc, {"coupled": res})
 
 
 def damping_stage(design: Design, mech, resonance_hz: float) -> Section:
     """Squeeze-film damping and film stiffness through the perforation, on the mode-1 shape."""
     from fem.air import air_properties
     from fem.squeeze import squeeze_film
+
+    from .noise import mechanical_thermal_noise
 
     d, b, a = design.diaphragm, design.backplate, design.acoustics
     air = air_properties(a.temperature_k, a.static_pressure_pa)
@@ -124,6 +139,10 @@ def damping_stage(design: Design, mech, resonance_hz: float) -> Section:
                        b.hole_lattice, b.thickness_m, air, lambda x, y: mech.mode_shape(1, x, y),
                        freqs, design.analysis.accuracy)
     data = res.to_summary(resonance_hz=resonance_hz)
+    thermal = mechanical_thermal_noise(res.frequencies_hz, res.damping_spectrum_n_s_per_m,
+                                       a.temperature_k, mech.effective_area_m2)
+    data["mechanical_noise_dba_spl"] = thermal.a_weighted_spl_db()
+    data["force_noise_n_per_rthz"] = float(np.sqrt(thermal.force_psd_n2_per_hz[0]))
     unc = {"damping_n_s_per_m": res.damping_relative_uncertainty,
            "cutoff_frequency_hz": data["cutoff_relative_uncertainty"]}
     return Section(data, unc, {"squeeze": res, "air": air})

@@ -38,7 +38,8 @@ table{border-collapse:collapse;margin:.4em 0 1em;font-size:.92em;width:100%}
 th,td{border:1px solid #999;padding:.25em .5em;vertical-align:top;text-align:left}
 th{background:#e8e8e8}td.num{text-align:right;font-variant-numeric:tabular-nums;white-space:nowrap}
 table.design,table.results{width:auto;min-width:60%}
-.small{font-size:.85em;color:#333}
+.small{font-size:.85em;color:#333}td .small{white-space:normal}
+table.audit td:nth-child(6){min-width:9em}table.audit td:nth-child(7){min-width:12em}
 td.verdict{white-space:nowrap}.v-holds{background:#e3f3e3}.v-marginal{background:#fff1c9}
 .v-fails{background:#f8d4d4}
 figure{margin:1.2em 0 1.8em;break-inside:avoid}

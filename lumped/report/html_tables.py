@@ -28,10 +28,9 @@ EXTRA_ROWS = [
     ("damping", "gas_spring_stiffness_n_per_m", "gas-spring stiffness (sealed film)", 1.0, "N/m"),
     ("damping", "knudsen_number", "Knudsen number (mean free path / gap)", 1.0, ""),
     ("damping", "squeeze_number_at_resonance", "squeeze number at resonance", 1.0, ""),
-    ("response", "sensitivity_v_per_pa", "sensitivity at 1 kHz", 1e3, "mV/Pa"),
+    ("response", "sensitivity_v_per_pa", "sensitivity at 1 kHz (linear)", 1e3, "mV/Pa"),
     ("response", "lowfreq_minus3db_hz", "low-frequency −3 dB point", 1.0, "Hz"),
     ("response", "peak_frequency_hz", "displacement peak", 1e-3, "kHz"),
-    ("response", "thd_limit_note", "distortion scan note", 1.0, ""),
 ]
 SECTION_TITLES = {"mechanics": "Diaphragm mechanics (vacuum, no bias)",
                   "electrostatics": "Air-gap electrostatics (rest gap)",
@@ -137,8 +136,9 @@ def results_tables(summary: dict) -> list[tuple[str, str]]:
         for s, key, label, scale, unit in ROWS + EXTRA_ROWS:
             if s != section or key not in sec or sec[key] is None:
                 continue
+            cls = "text" if isinstance(sec[key], str) else "num"
             rows.append(f"<tr><td>{html.escape(label)}</td>"
-                        f"<td class=num>{format_value(sec[key], scale)}</td>"
+                        f"<td class={cls}>{format_value(sec[key], scale)}</td>"
                         f"<td>{display_unit(unit)}</td>"
                         f"<td class=num>{_uncertainty(unc, section, key)}</td></tr>")
         out.append((section, f'<h3 id="res-{section}">{html.escape(title)}</h3>\n' +

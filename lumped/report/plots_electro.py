@@ -31,42 +31,53 @@ def _backplate_patch(ax, cell, f):
             ha="center", va="center", fontsize=8, bbox={"fc": "white", "ec": "none", "pad": 1})
 
 
+def _field_ticks(lo: float, hi: float) -> list[float]:
+    """1, 2, 5 × 10^k ticks inside [lo, hi] (at most ~7)."""
+    out = []
+    for k in range(int(np.floor(np.log10(lo))), int(np.ceil(np.log10(hi))) + 1):
+        out += [m * 10.0**k for m in (1, 2, 5) if lo <= m * 10.0**k <= hi]
+    return out[::max(1, len(out) // 7)]
+
+
 def draw_cell_field(cell):
-    """Potential and |E| maps of the unit cell (r-z plane)."""
+    """Potential and |E| maps of the unit cell (r-z plane), gap and hole region."""
     from matplotlib.colors import LogNorm
+    from matplotlib.ticker import FuncFormatter
     from matplotlib.tri import Triangulation
 
     f, ul = prefixed(cell.cell_radius_m, "m")
     p = cell.points_m * f
     tri = Triangulation(p[:, 0], p[:, 1], cell.triangles)
-    fig, (a1, a2) = new_figure(7.6, 4.6, ncols=2, sharey=True, margins_in=(0.7, 0.2, 0.3, 0.35),
+    z_top = min(float(p[:, 1].max()),
+                (cell.gap_m + cell.backplate_thickness_m + max(cell.gap_m, cell.hole_radius_m)) * f)
+    fig, (a1, a2) = new_figure(7.6, 4.9, ncols=2, sharey=True, margins_in=(0.7, 0.2, 0.3, 0.35),
                                wspace=0.08)
     filled = a1.tricontourf(tri, cell.potential_v, levels=np.linspace(0, 1, 21),
                             cmap=SEQUENTIAL_MAP)
     lines = a1.tricontour(tri, cell.potential_v, levels=np.linspace(0.1, 0.9, 9), colors="black",
                           linewidths=0.7)
-    a1.clabel(lines, fmt="%.1f", fontsize=7)
+    a1.clabel(lines, levels=lines.levels[::2], fmt="%.1f", fontsize=7)
     fig.colorbar(filled, ax=a1, location="bottom", label="potential u (V) at 1 V",
-                 ticks=np.linspace(0, 1, 6))
+                 ticks=np.linspace(0, 1, 6), shrink=0.9, pad=0.12)
     e = cell.field_v_per_m
     uniform = 1.0 / cell.gap_m
-    lo = max(float(np.percentile(e, 1)), 1e-3 * uniform)
-    hi = float(np.max(e))
-    levels = np.geomspace(lo, hi, 22)
-    mapped = a2.tricontourf(tri, np.clip(e, lo, hi), levels=levels, cmap=SEQUENTIAL_MAP,
-                            norm=LogNorm(lo, hi))
-    a2.tricontour(tri, e, levels=[0.5 * uniform, uniform, 2 * uniform], colors="black",
-                  linewidths=0.7, linestyles=[":", "-", "--"])
-    cb = fig.colorbar(mapped, ax=a2, location="bottom", label="|E| (V/m) at 1 V")
-    cb.ax.axvline(uniform, color="white", lw=1.0)
-    for ax, title in ((a1, "potential and equipotentials"),
-                      (a2, "field magnitude; lines: 0.5, 1, 2 × V/g")):
+    lo, hi = 1e-2 * uniform, float(np.max(e))
+    mapped = a2.tricontourf(tri, np.clip(e, lo, hi), levels=np.geomspace(lo, hi, 22),
+                            cmap=SEQUENTIAL_MAP, norm=LogNorm(lo, hi))
+    a2.tricontour(tri, e, levels=[0.5 * uniform, 1.5 * uniform, 3 * uniform], colors="black",
+                  linewidths=0.8, linestyles=[":", "--", "-"])
+    cb = fig.colorbar(mapped, ax=a2, location="bottom", label="|E| (V/m) at 1 V", shrink=0.9,
+                      pad=0.12, ticks=_field_ticks(lo, hi))
+    cb.ax.xaxis.set_major_formatter(FuncFormatter(lambda v, _: f"{v:.0e}".replace("e+0", "e")))
+    cb.ax.minorticks_off()
+    for ax, title in ((a1, "potential u, equipotentials every 0.1 V"),
+                      (a2, "|E|; lines at 0.5 (dotted), 1.5 (dashed), 3 × V/g")):
         _backplate_patch(ax, cell, f)
         ax.axhline(0.0, color="black", lw=2.5)
         ax.set_xlim(0.0, cell.cell_radius_m * f)
-        ax.set_ylim(-0.02 * float(p[:, 1].max()), float(p[:, 1].max()))
+        ax.set_ylim(-0.02 * z_top, z_top)
         ax.set_aspect("equal")
-        ax.set_xlabel(f"r ({ul})")
+        ax.set_xlabel(f"r from the hole axis ({ul})")
         ax.set_title(title, fontsize=9)
     a1.set_ylabel(f"z above the diaphragm ({ul})")
     return fig

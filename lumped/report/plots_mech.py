@@ -71,7 +71,7 @@ def draw_deflection(mech):
 
 def draw_mode_profiles(mech):
     """Profiles of the first distinct modes along the diameter through each one's maximum."""
-    fig, ax = new_figure(7.6, 4.2, margins_in=(0.8, 0.25, 0.6, 0.2))
+    fig, ax = new_figure(7.6, 4.6, margins_in=(0.8, 0.25, 1.15, 0.2))
     ext = _half_extent_m(mech)
     fx, xl = prefixed(ext, "m")
     for k, (i, f) in enumerate(distinct_modes(mech)):
@@ -84,7 +84,7 @@ def draw_mode_profiles(mech):
     ax.set_xlabel(f"position along the diameter ({xl})")
     ax.set_ylabel("mode shape φ")
     ax.grid(True, color="0.85")
-    ax.legend(fontsize=8, loc="lower center", ncols=2)
+    ax.legend(fontsize=8, loc="upper center", bbox_to_anchor=(0.5, -0.16), ncols=2)
     return fig
 
 
@@ -100,7 +100,7 @@ def draw_mode_maps(mech):
                            margins_in=(0.8, 1.3, 0.5, 0.35), wspace=0.3, hspace=0.35)
     fx, xl = prefixed(_half_extent_m(mech), "m")
     tri = Triangulation(points[:, 0] * fx, points[:, 1] * fx, np.asarray(triangles).T)
-    vmax = max(float(np.max(np.abs(data[f"mode_{i}"]))) for i, _ in modes) or 1.0
+    vmax = max([1.0] + [float(np.max(np.abs(data[f"mode_{i}"]))) for i, _ in modes])
     levels = np.linspace(-vmax, vmax, 17)
     filled = None
     for ax, (i, f) in zip(axes.flat, modes):
@@ -115,7 +115,7 @@ def draw_mode_maps(mech):
     for ax in list(axes.flat)[len(modes):]:
         ax.set_visible(False)
     cax = fig.add_axes((1 - 1.0 / 7.6, 0.15, 0.2 / 7.6, 0.7))
-    fig.colorbar(filled, cax=cax, label="mode shape φ")
+    fig.colorbar(filled, cax=cax, label="mode shape φ", ticks=np.linspace(-1, 1, 9) * vmax)
     return fig
 
 

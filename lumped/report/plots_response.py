@@ -39,19 +39,26 @@ def _markers_line(ax, x: float | None, style, label: str):
 def draw_squeeze(sq, resonance_hz: float | None):
     """Film damping and stiffness against frequency."""
     f = np.asarray(sq.frequencies_hz, float)
+    b = np.asarray(sq.damping_spectrum_n_s_per_m, float)
     fig, (a1, a2) = new_figure(7.6, 4.8, nrows=2, sharex=True,
                                margins_in=(0.9, 0.25, 0.6, 0.2), hspace=0.08)
-    a1.loglog(f, sq.damping_spectrum_n_s_per_m, color="black", marker="o", ms=3, lw=1.5)
-    a1.set_ylabel("damping b (N·s/m)")
+    fb, bl = prefixed(float(np.max(b)), "N")
+    a1.semilogx(f, b * fb, color="black", marker="o", ms=3, lw=1.5)
+    a1.set_ylim(0.0, 1.1 * float(np.max(b)) * fb)
+    a1.set_ylabel(f"damping b ({bl}·s/m)")
     k = np.asarray(sq.film_stiffness_n_per_m, float)
     pos = k > 0
     a2.loglog(f[pos], k[pos], color="black", ls="--", marker="s", ms=3, lw=1.5)
     a2.set_ylabel("film stiffness (N/m)")
     a2.set_xlabel("frequency (Hz)")
+    fc = sq.cutoff_frequency_hz
+    beyond = " (beyond the plotted range)" if fc > f[-1] else ""
     for ax in (a1, a2):
-        _markers_line(ax, sq.cutoff_frequency_hz, "-.", f"film cut-off {_hz(sq.cutoff_frequency_hz)}")
+        _markers_line(ax, fc, "-.", f"film cut-off {_hz(fc)}{beyond}")
         _markers_line(ax, resonance_hz, ":", f"resonance {_hz(resonance_hz)}" if resonance_hz else "")
         ax.grid(True, which="major", color="0.85")
+    if beyond:
+        a1.plot([], [], color="0.3", ls="-.", lw=1.2, label=f"film cut-off {_hz(fc)}{beyond}")
     a1.set_xlim(f[0], f[-1])
     a1.legend(fontsize=8, loc="lower left")
     return fig
@@ -87,6 +94,18 @@ def draw_response(resp):
     return fig
 
 
+def _db_axis(ax):
+    """Right axis in dB SPL per hertz, 20 log10(√S / 20 µPa), beside the log axis in Pa/√Hz.
+
+    A twin axis with fixed limits: the log axis maps affinely onto dB, so matching limits align
+    every tick (call after the left limits are final).
+    """
+    lo, hi = ax.get_ylim()
+    right = ax.twinx()
+    right.set_ylim(20 * np.log10(lo / _P_REF), 20 * np.log10(hi / _P_REF))
+    right.set_ylabel("dB SPL in a 1 Hz band")
+
+
 def draw_noise(resp_section):
     """Input-referred noise density and its contributions."""
     resp = resp_section.objects["response"].response
@@ -95,7 +114,7 @@ def draw_noise(resp_section):
     total = np.asarray(resp_section.objects["noise_input_psd"], float)
     data = resp_section.data
     levels = data.get("noise_contributions_dba_spl", {})
-    fig, ax = new_figure(7.6, 4.6, margins_in=(0.9, 0.8, 0.6, 0.2))
+    fig, ax = new_figure(7.6, 5.0, margins_in=(0.9, 0.8, 1.25, 0.2))
     ax.axvspan(20.0, 20e3, color="0.93", lw=0, label="audio band 20 Hz – 20 kHz")
     ax.loglog(f, np.sqrt(total), color="black", lw=2.2,
               label=f"total: {data['noise_dba_spl']:.1f} dB(A) SPL")
@@ -110,11 +129,9 @@ def draw_noise(resp_section):
     ax.set_ylim(0.3 * floor, 1e3 * floor)
     ax.set_xlabel("frequency (Hz)")
     ax.set_ylabel("input-referred noise (Pa/√Hz)")
-    right = ax.secondary_yaxis("right", functions=(lambda p: 20 * np.log10(np.maximum(p, 1e-30) / _P_REF),
-                                                   lambda d: _P_REF * 10 ** (np.clip(d, -400, 400) / 20)))
-    right.set_ylabel("dB SPL in 1 Hz")
+    _db_axis(ax)
     ax.grid(True, which="major", color="0.85")
-    ax.legend(fontsize=8, loc="upper right")
+    ax.legend(fontsize=8, loc="upper center", bbox_to_anchor=(0.5, -0.14), ncols=2)
     return fig
 
 
