@@ -27,6 +27,8 @@ __all__ = ["write_plots", "outputs_of_interest", "key_label", "KEYWORDS"]
 # Outputs worth a plot, matched as substrings of the key's last part, in this order.
 KEYWORDS = ("sensitivity", "snr", "noise", "pull_in", "resonance", "natural_frequencies_hz_1",
             "quality_factor", "corner", "capacitance", "damping", "compliance")
+# diagnostics that are not design outputs
+_NOT_PLOTTED = ("error", "uncertainty", "mesh_dofs", "fit_", "timings")
 _SPECIAL = (("db_v_per_pa", "dB re 1 V/Pa"), ("dba_spl", "dB(A) SPL"), ("db_spl", "dB SPL"),
             ("dba", "dB(A)"), ("db", "dB"))
 _SYMBOL = {"m": "m", "m2": "m²", "m3": "m³", "pa": "Pa", "hz": "Hz", "f": "F", "v": "V",
@@ -107,7 +109,7 @@ def outputs_of_interest(records: Sequence[dict]) -> list[str]:
     chosen: list[str] = []
     for word in KEYWORDS:
         chosen += [k for k in keys if word in k.rsplit(".", 1)[-1] and k not in chosen
-                   and _plottable(records, k)]
+                   and not any(w in k for w in _NOT_PLOTTED) and _plottable(records, k)]
     return chosen
 
 

@@ -111,14 +111,23 @@ def _design_rows(design) -> list[tuple[str, str, str]]:
 
 def design_table(design) -> str:
     """The design in display units (the values summary.json holds in SI)."""
-    rows = [f"<tr><td>{html.escape(sec)}</td><td>{html.escape(label)}</td>"
-            f"<td class=num>{format_value(v)}</td><td>{u}</td></tr>"
-            for sec, label, v, u in _design_rows(design)]
-    return _table(("section", "quantity", "value", "unit"), rows, "design")
+    rows = _design_rows(design)
+    out = []
+    for k, (sec, label, v, u) in enumerate(rows):
+        first = k == 0 or rows[k - 1][0] != sec
+        span = sum(1 for r in rows if r[0] == sec)
+        head = f'<th scope=row rowspan="{span}">{html.escape(sec)}</th>' if first else ""
+        out.append(f"<tr>{head}<td>{html.escape(label)}</td>"
+                   f"<td class=num>{format_value(v, digits=6)}</td><td>{u}</td></tr>")
+    return _table(("section", "quantity", "value", "unit"), out, "design")
+
+
+#: results whose error estimate is filed under another key
+_UNCERTAINTY_ALIAS = {"distinct_frequencies_hz": "natural_frequencies_hz"}
 
 
 def _uncertainty(unc: dict, section: str, key: str) -> str:
-    u = unc.get(f"{section}.{key}")
+    u = unc.get(f"{section}.{key}", unc.get(f"{section}.{_UNCERTAINTY_ALIAS.get(key, key)}"))
     if u is None:
         return "—"
     return f"±{100.0 * u:.2g} %"

@@ -57,8 +57,6 @@ def draw_squeeze(sq, resonance_hz: float | None):
         _markers_line(ax, fc, "-.", f"film cut-off {_hz(fc)}{beyond}")
         _markers_line(ax, resonance_hz, ":", f"resonance {_hz(resonance_hz)}" if resonance_hz else "")
         ax.grid(True, which="major", color="0.85")
-    if beyond:
-        a1.plot([], [], color="0.3", ls="-.", lw=1.2, label=f"film cut-off {_hz(fc)}{beyond}")
     a1.set_xlim(f[0], f[-1])
     a1.legend(fontsize=8, loc="lower left")
     return fig
