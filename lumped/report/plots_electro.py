@@ -121,7 +121,7 @@ def draw_bias_branch(coupled_data: dict, gap_m: float, bias_voltage_v: float):
     w_pi, v_pi = coupled_data["pull_in_center_deflection_m"], coupled_data["pull_in_voltage_v"]
     fw, wl = prefixed(gap_m, "m")
     stable = w <= w_pi * (1 + 1e-9)
-    fig, ax = new_figure(7.6, 4.2, margins_in=(0.8, 0.8, 0.6, 0.2))
+    fig, ax = new_figure(7.6, 4.6, margins_in=(0.8, 0.8, 1.15, 0.2))
     ax.plot(v[stable] * 1.0, w[stable] * fw, color="black", ls=LINES[0], marker="o", ms=4,
             label="stable equilibria (FE)")
     if np.any(~stable):
@@ -147,7 +147,7 @@ def draw_bias_branch(coupled_data: dict, gap_m: float, bias_voltage_v: float):
                                                    lambda r: r * gap_m * fw))
     right.set_ylabel("centre deflection / gap")
     ax.grid(True, color="0.85")
-    ax.legend(fontsize=8, loc="upper left")
+    ax.legend(fontsize=8, loc="upper center", bbox_to_anchor=(0.5, -0.14), ncols=2)
     return fig
 
 
