@@ -207,13 +207,14 @@ def rim_fringing(electrode_radius_m: float, diaphragm_radius_m: float, gap_m: fl
     size = max(electrode_radius_m, diaphragm_radius_m, rb)
     kw = dict(shape=shape, backplate_relative_permittivity=backplate_relative_permittivity,
               accuracy=accuracy, gap_span=gap_span)
-    if size <= MAX_SIZE_RATIO * gap_m:
+    g_small = gap_m * (1.0 - gap_span) if 0 < gap_span < 1 else gap_m  # smallest sampled gap
+    if not (size > MAX_SIZE_RATIO * g_small > 0):
         return rim_fringing_direct(electrode_radius_m, diaphragm_radius_m, gap_m,
                                    backplate_thickness_m, backplate_radius_m=backplate_radius_m,
                                    **kw)
     # scale the electrode down to MAX_SIZE_RATIO gaps; keep the overhangs beyond it (they shape
     # the edge field) in absolute size, at most half the modelled electrode
-    re_s = MAX_SIZE_RATIO * gap_m * electrode_radius_m / size
+    re_s = MAX_SIZE_RATIO * g_small * electrode_radius_m / size
     f = re_s / electrode_radius_m
     over = min(diaphragm_radius_m - electrode_radius_m, 0.5 * re_s) if \
         diaphragm_radius_m > electrode_radius_m else (diaphragm_radius_m - electrode_radius_m) * f

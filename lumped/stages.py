@@ -90,7 +90,7 @@ def electrostatics_stage(design: Design, mech) -> Section:
     xs = np.linspace(-g / 3, g / 3, 41)
     dev = device_capacitance(w, phi, density, g, rim=rim, x_values_m=xs, phi_rim=phi_rim)
     shape_err = mech.uncertainty.get("volume_compliance_m3_per_pa", 0.0) + \
-        mech.uncertainty.get("center_compliance_m3_per_pa", 0.0)
+        mech.uncertainty.get("center_compliance_m_per_pa", 0.0)
     unc = {
         "rest_capacitance_f": dev.rel_error,
         "capacitance_slope_f_per_m": dev.slope_rel_error + shape_err,

@@ -38,14 +38,14 @@ table{border-collapse:collapse;margin:.4em 0 1em;font-size:.92em;width:100%}
 th,td{border:1px solid #999;padding:.25em .5em;vertical-align:top;text-align:left}
 th{background:#e8e8e8}td.num{text-align:right;font-variant-numeric:tabular-nums;white-space:nowrap}
 table.design,table.results{width:auto;min-width:60%}
-.small{font-size:.85em;color:#333}td .small{white-space:normal}
+.small{font-size:.85em;color:#333}td .small{white-space:normal;text-align:left}
 table.audit td:nth-child(6){min-width:9em}table.audit td:nth-child(7){min-width:12em}
 td.verdict{white-space:nowrap}.v-holds{background:#e3f3e3}.v-marginal{background:#fff1c9}
 .v-fails{background:#f8d4d4}
 figure{margin:1.2em 0 1.8em;break-inside:avoid}
 figure img{display:block;max-width:100%;height:auto;border:1px solid #ccc}
 figcaption{font-size:.92em;color:#222;margin-top:.35em;max-width:62em}
-nav ul{columns:2;margin:.2em 0}
+nav ul{columns:2;margin:.2em 0}ul.files{columns:3}
 .omitted{border-left:4px solid #777;padding:.3em .8em;background:#f2f2f2}
 code{font-size:.95em}
 """
@@ -123,8 +123,9 @@ def _omitted(result) -> str:
 
 def _files_list(files: list[str]) -> str:
     items = "".join(f"<li><code>{html.escape(f)}</code></li>" for f in files)
-    return (f"<ul>{items}</ul><p class=small>summary.json is the versioned machine-readable "
-            "record (SI values, keys carry their unit); the .vtu files open in VTK-based viewers.</p>")
+    return (f"<ul class=files>{items}</ul><p class=small>summary.json is the versioned "
+            "machine-readable record (SI values, keys carry their unit); the .vtu files open in "
+            "VTK-based viewers.</p>")
 
 
 def report_html(result, plots, files: list[str] = ()) -> str:

@@ -97,8 +97,8 @@ def _design_rows(design) -> list[tuple[str, str, str]]:
     rows += [
         ("acoustics", "back volume", a.back_volume_m3 * 1e9, "mm³"),
         ("acoustics", "vent resistance", a.vent_resistance_pa_s_per_m3, "Pa·s/m³"),
-        ("acoustics", "temperature", f"{a.temperature_k:.5g} K ({a.temperature_k - 273.15:.4g} °C)",
-         ""),
+        ("acoustics", "temperature",
+         f"{a.temperature_k:.5g} K ({a.temperature_k - 273.15:.4g} °C)", ""),
         ("acoustics", "static pressure", a.static_pressure_pa * 1e-3, "kPa"),
         ("electrical", "bias voltage", e.bias_voltage_v, "V"),
         ("electrical", "bias resistance", e.bias_resistance_ohm * 1e-9, "GΩ"),

@@ -106,7 +106,8 @@ def draw_capacitance(device, bias_deflection_m: float | None = None):
             ax.axvline(bias_deflection_m * fx, color="0.3", ls=":", lw=1.2)
         ax.grid(True, color="0.85")
     if bias_deflection_m is not None:
-        a1.plot([], [], color="0.3", ls=":", label=f"bias point x = {bias_deflection_m * fx:.3g} {xl}")
+        a1.plot([], [], color="0.3", ls=":",
+                label=f"bias point x = {bias_deflection_m * fx:.3g} {xl}")
     a1.set_ylabel(f"capacitance ({cl})")
     a1.legend(fontsize=8, loc="upper left")
     a2.set_ylabel("(linear − C)/C (%)")

@@ -2,7 +2,7 @@
 
 Profiles are sampled from the FE solution (:meth:`fem.plate.PlateResult.static_deflection_m_per_pa`
 and :meth:`~fem.plate.PlateResult.mode_shape`) along a line through the centre; maps are filled
-contours on the finest plate mesh. Degenerate mode pairs (equal frequencies, e.g. the two (1,0)
+contours of the same FE shapes sampled on a fine grid over the diaphragm. Degenerate mode pairs (equal frequencies, e.g. the two (1,0)
 modes of a disk) are shown once: their orientation is arbitrary, so a mode's profile is taken
 along the diameter through its largest |φ|.
 """
@@ -61,7 +61,7 @@ def draw_deflection(mech):
     ax.plot(s * fx, w * fw, color="black", lw=1.8, label="FE, uniform pressure 1 Pa")
     ax.plot([0.0], [mech.center_compliance_m_per_pa * fw], ls="none", marker="o", mfc="white",
             color="black", label=f"centre: {mech.center_compliance_m_per_pa * fw:.4g} {wl}/Pa")
-    ax.set_xlabel(f"x along the diameter ({xl})")
+    ax.set_xlabel(f"x, along the x-axis through the centre ({xl})")
     ax.set_ylabel(f"deflection per pascal ({wl}/Pa)")
     ax.axhline(0.0, color="0.6", lw=0.8)
     ax.grid(True, color="0.85")
@@ -70,7 +70,7 @@ def draw_deflection(mech):
 
 
 def draw_mode_profiles(mech):
-    """Profiles of the first distinct modes along the diameter through each one's maximum."""
+    """Profiles of the first distinct modes along the line through the centre and each maximum."""
     fig, ax = new_figure(7.6, 4.6, margins_in=(0.8, 0.25, 1.15, 0.2))
     ext = _half_extent_m(mech)
     fx, xl = prefixed(ext, "m")
@@ -81,32 +81,50 @@ def draw_mode_profiles(mech):
         ax.plot(s * fx, v, color=GREYS[k], ls=LINES[k], marker=MARKERS[k], markevery=20, ms=5,
                 label=f"mode {i}: {f * fi:.4g} {fl} (at {math.degrees(angle):.0f}°)")
     ax.axhline(0.0, color="0.6", lw=0.8)
-    ax.set_xlabel(f"position along the diameter ({xl})")
+    ax.set_xlabel(f"position along a line through the centre ({xl})")
     ax.set_ylabel("mode shape φ")
     ax.grid(True, color="0.85")
     ax.legend(fontsize=8, loc="upper center", bbox_to_anchor=(0.5, -0.16), ncols=2)
     return fig
 
 
+def _map_points(mech, n: int = 81):
+    """(x_m, y_m) of a regular grid over the diaphragm plus points on its edge."""
+    p = mech.problem
+    half = p.size_m if p.shape == "circle" else 0.5 * p.size_m
+    g = np.linspace(-half, half, n)
+    x, y = (a.ravel() for a in np.meshgrid(g, g))
+    if p.shape != "circle":
+        return x, y
+    keep = np.hypot(x, y) < half * (1 - 0.5 / n)
+    th = np.linspace(0.0, 2 * np.pi, 4 * n, endpoint=False)
+    return (np.concatenate([x[keep], half * np.cos(th)]),
+            np.concatenate([y[keep], half * np.sin(th)]))
+
+
 def draw_mode_maps(mech):
-    """Filled contour maps of the first distinct modes on the plate mesh (one shared scale)."""
+    """Filled contour maps of the first distinct modes (one shared scale).
+
+    The FE mode shapes are sampled on a fine grid (the plate elements are quintic, so their
+    vertex values alone would draw coarse, faceted contours).
+    """
     from matplotlib.tri import Triangulation
 
-    points, triangles, data = mech.nodal_fields()
     modes = distinct_modes(mech)
     ncols = 2 if len(modes) > 1 else 1
     nrows = math.ceil(len(modes) / ncols)
     fig, axes = new_figure(7.6, 3.2 * nrows + 0.3, nrows=nrows, ncols=ncols, squeeze=False,
-                           margins_in=(0.8, 1.3, 0.5, 0.35), wspace=0.3, hspace=0.35)
+                           margins_in=(0.8, 1.3, 0.5, 0.35), wspace=0.35, hspace=0.35)
     fx, xl = prefixed(_half_extent_m(mech), "m")
-    tri = Triangulation(points[:, 0] * fx, points[:, 1] * fx, np.asarray(triangles).T)
-    vmax = max([1.0] + [float(np.max(np.abs(data[f"mode_{i}"]))) for i, _ in modes])
+    x, y = _map_points(mech)
+    tri = Triangulation(x * fx, y * fx)
+    values = {i: mech.mode_shape(i, x, y) for i, _ in modes}
+    vmax = max([1.0] + [float(np.max(np.abs(v))) for v in values.values()])
     levels = np.linspace(-vmax, vmax, 17)
     filled = None
     for ax, (i, f) in zip(axes.flat, modes):
-        v = data[f"mode_{i}"]
-        filled = ax.tricontourf(tri, v, levels=levels, cmap=SEQUENTIAL_MAP)
-        ax.tricontour(tri, v, levels=levels[2:-2:2], colors="black", linewidths=0.6)
+        filled = ax.tricontourf(tri, values[i], levels=levels, cmap=SEQUENTIAL_MAP)
+        ax.tricontour(tri, values[i], levels=levels[2:-2:2], colors="black", linewidths=0.6)
         fi, fl = prefixed(f, "Hz")
         ax.set_title(f"mode {i}: {f * fi:.4g} {fl}", fontsize=10)
         ax.set_aspect("equal")
@@ -115,7 +133,8 @@ def draw_mode_maps(mech):
     for ax in list(axes.flat)[len(modes):]:
         ax.set_visible(False)
     cax = fig.add_axes((1 - 1.0 / 7.6, 0.15, 0.2 / 7.6, 0.7))
-    fig.colorbar(filled, cax=cax, label="mode shape φ", ticks=np.linspace(-1, 1, 9) * vmax)
+    ticks = np.linspace(-1, 1, 9) * (1.0 if vmax < 1.2 else vmax)
+    fig.colorbar(filled, cax=cax, label="mode shape φ", ticks=ticks)
     return fig
 
 
@@ -129,11 +148,13 @@ def mech_plots(mech) -> list[Plot]:
              f"compliance {mech.center_compliance_m_per_pa * fw:.4g} {wl}/Pa, {mech.model} model.",
              lambda: draw_deflection(mech)),
         Plot("mode_profiles", "mechanics", "Mode shapes: profiles",
-             f"First {len(modes)} distinct vacuum modes along the diameter through each mode's "
-             "largest deflection (degenerate pairs shown once; their orientation is arbitrary). "
-             "Mode 1 is normalised to φ(centre) = 1, the others to max |φ| = 1.",
+             f"First {len(modes)} distinct vacuum modes along the line through the centre and "
+             "each mode's largest deflection (degenerate pairs shown once; their orientation is "
+             "arbitrary). Mode 1 is normalised to φ(centre) = 1, the others to max |φ| = 1.",
              lambda: draw_mode_profiles(mech)),
         Plot("mode_maps", "mechanics", "Mode shapes: maps",
-             "The same modes over the diaphragm; black contour lines at multiples of 1/4 of the "
-             "largest |φ|, including the nodal line φ = 0; negative levels dashed.", lambda: draw_mode_maps(mech)),
+             "The same modes over the diaphragm (FE shapes sampled on a fine grid); black contour "
+             "lines at multiples of 1/4 of the largest |φ|, including the nodal line φ = 0; "
+             "negative levels dashed.",
+             lambda: draw_mode_maps(mech)),
     ]

@@ -55,7 +55,8 @@ def draw_squeeze(sq, resonance_hz: float | None):
     beyond = " (beyond the plotted range)" if fc > f[-1] else ""
     for ax in (a1, a2):
         _markers_line(ax, fc, "-.", f"film cut-off {_hz(fc)}{beyond}")
-        _markers_line(ax, resonance_hz, ":", f"resonance {_hz(resonance_hz)}" if resonance_hz else "")
+        _markers_line(ax, resonance_hz, ":",
+                      f"resonance {_hz(resonance_hz)}" if resonance_hz else "")
         ax.grid(True, which="major", color="0.85")
     a1.set_xlim(f[0], f[-1])
     a1.legend(fontsize=8, loc="lower left")
@@ -173,7 +174,8 @@ def response_plots(design, damp, resp) -> list[Plot]:
     out.append(Plot(
         "response", "response", "Frequency response",
         f"Output voltage per pascal of the lumped model at the bias point (bias resistor, "
-        f"parasitic and preamp input capacitance, back volume and vent included). Sensitivity at 1 kHz: {r.sensitivity_db_v_per_pa:.2f} dB re 1 V/Pa.",
+        f"parasitic and preamp input capacitance, back volume and vent included). "
+        f"Sensitivity at 1 kHz: {r.sensitivity_db_v_per_pa:.2f} dB re 1 V/Pa.",
         lambda: draw_response(r)))
     d = resp.data
     out.append(Plot(
