@@ -134,6 +134,25 @@ def _chebyshev_gaps(g0: float, g1: float, n: int) -> np.ndarray:
     return 0.5 * (g0 + g1) - 0.5 * (g1 - g0) * np.cos(np.pi * k / (n - 1))
 
 
+def _samples(gaps, hole_radius_m, pitch_m, lattice, t_m, accuracy, air_height_m):
+    """Cell capacitance densities and their error estimates at ``gaps``, cached on disk (the
+    solutions are reused across the points of a sweep that keeps the hole pattern)."""
+    from meshes.cache import cached_arrays
+
+    def build():
+        cells = [cell_capacitance(g, hole_radius_m, pitch_m, lattice, t_m, accuracy,
+                                  air_height_m=air_height_m) for g in gaps]
+        return {"c": np.array([r.capacitance_density_f_per_m2 for r in cells]),
+                "err": np.array([r.rel_error for r in cells]),
+                "open": np.array([cells[0].open_area_fraction])}
+
+    params = {"gaps": [float(g) for g in gaps], "r": hole_radius_m, "p": pitch_m,
+              "lattice": lattice, "t": t_m, "acc": accuracy, "H": air_height_m,
+              "solver": 1}  # bump when the cell solve changes
+    arr = cached_arrays("cell-table-solution", params, build)
+    return arr["c"], arr["err"], float(arr["open"][0])
+
+
 def capacitance_density_table(gap_min_m: float, gap_max_m: float, hole_radius_m: float,
                               pitch_m: float, lattice: str, backplate_thickness_m: float,
                               accuracy: str = "normal",
@@ -158,9 +177,8 @@ def capacitance_density_table(gap_min_m: float, gap_max_m: float, hole_radius_m:
             f"gap_max_m = {gap_max_m!r} must exceed gap_min_m = {gap_min_m!r}")
     start = time.perf_counter()
     gaps = _chebyshev_gaps(gap_min_m, gap_max_m, _SAMPLES[accuracy])
-    cells = [cell_capacitance(g, hole_radius_m, pitch_m, lattice, backplate_thickness_m,
-                              accuracy, air_height_m=air_height_m) for g in gaps]
-    c = np.array([r.capacitance_density_f_per_m2 for r in cells])
+    c, errs, open_area = _samples(gaps, hole_radius_m, pitch_m, lattice, backplate_thickness_m,
+                                  accuracy, air_height_m)
     P = c * gaps / EPS0
     g_mid = float(np.sqrt(gap_min_m * gap_max_m))
     M = _basis(gaps / g_mid)
@@ -168,8 +186,8 @@ def capacitance_density_table(gap_min_m: float, gap_max_m: float, hole_radius_m:
     fit_error = float(np.max(np.abs(M @ coef - P) / P))
     return CapacitanceDensity(
         gap_min_m=float(gap_min_m), gap_max_m=float(gap_max_m), gaps_m=gaps,
-        density_f_per_m2=c, sample_rel_errors=np.array([r.rel_error for r in cells]),
+        density_f_per_m2=c, sample_rel_errors=errs,
         coefficients=coef, gap_mid_m=g_mid, fit_error=fit_error,
-        rel_error=float(max(r.rel_error for r in cells)),
-        open_area_fraction=cells[0].open_area_fraction, lattice=lattice,
+        rel_error=float(np.max(errs)),
+        open_area_fraction=open_area, lattice=lattice,
         runtime_s=time.perf_counter() - start)

@@ -62,8 +62,22 @@ def pair_capacitance(geo: PairGeometry, s: float, axisymmetric: bool = True,
                      ring_permittivity: float = 1.0) -> tuple[float, int]:
     """Scaled capacitance (energy at 1 V) of an electrode pair at mesh scale s, and the DOFs.
 
-    Axisymmetric: C = ε0·g·Ĉ; plane: C' = ε0·Ĉ per unit length (full pair: 2Ĉ).
+    Axisymmetric: C = ε0·g·Ĉ; plane: C' = ε0·Ĉ per unit length (full pair: 2Ĉ). Solutions are
+    cached on disk (meshes.cache) so that sweeps reuse them.
     """
+    from meshes.cache import cached_arrays
+
+    params = {"geo": geo.as_dict(), "s": s, "axi": axisymmetric, "eps": ring_permittivity,
+              "solver": 1}  # bump when the solve changes
+    arr = cached_arrays("electrode-pair-solution", params, lambda: dict(zip(
+        ("e", "n"), map(np.atleast_1d, _pair_capacitance(geo, s, axisymmetric,
+                                                        ring_permittivity)))))
+    return float(arr["e"][0]), int(arr["n"][0])
+
+
+def _pair_capacitance(geo: PairGeometry, s: float, axisymmetric: bool = True,
+                     ring_permittivity: float = 1.0) -> tuple[float, int]:
+    """The uncached solve behind :func:`pair_capacitance`."""
     mesh = electrode_pair_mesh(geo, _sizes(geo, s))
     weight = "axisymmetric" if axisymmetric else "plane"
     basis, u, energy = solve_potential(mesh, ElementTriP2(), {"lower": 0.0, "upper": 1.0},
@@ -185,7 +199,7 @@ def _check_inputs(re, rd, g, t, shape, rb, eps_r, accuracy, span) -> None:
 
 #: largest electrode size / gap modelled directly; larger pairs are modelled at this ratio and
 #: the per-length edge capacitance is extended by the logarithmic law below.
-MAX_SIZE_RATIO = 120.0
+MAX_SIZE_RATIO = 200.0
 
 
 def rim_fringing(electrode_radius_m: float, diaphragm_radius_m: float, gap_m: float,
@@ -195,9 +209,9 @@ def rim_fringing(electrode_radius_m: float, diaphragm_radius_m: float, gap_m: fl
                  gap_span: float = 1.0 / 3.0) -> RimResult:
     """Rim fringing capacitance of the electrode pair (see :func:`rim_fringing_direct`).
 
-    Pairs whose size exceeds ``MAX_SIZE_RATIO`` gaps are modelled with the electrode scaled down
-    to that ratio (gap, thickness and the overhang of diaphragm and backplate beyond the electrode
-    kept, up to half the modelled electrode) and the edge capacitance per unit length is
+    Pairs larger than ``MAX_SIZE_RATIO`` times the smallest sampled gap are modelled at that size
+    (gap, thickness and the overhang of diaphragm and backplate beyond the electrode kept, up to
+    30 % of the modelled pair; the electrode scaled down) and the edge capacitance per length is
     extended with the logarithmic size law of thin plates in free space,
     ΔC/ℓ = (ε0/2π)·ln(s), s the size ratio — the ln(a/d) term of Kirchhoff's disk formula
     (Kirchhoff 1877) and of Palmer's strip formula (Palmer 1937). The law's own uncertainty is
@@ -212,14 +226,21 @@ def rim_fringing(electrode_radius_m: float, diaphragm_radius_m: float, gap_m: fl
         return rim_fringing_direct(electrode_radius_m, diaphragm_radius_m, gap_m,
                                    backplate_thickness_m, backplate_radius_m=backplate_radius_m,
                                    **kw)
-    # scale the electrode down to MAX_SIZE_RATIO gaps; keep the overhangs beyond it (they shape
-    # the edge field) in absolute size, at most half the modelled electrode
-    re_s = MAX_SIZE_RATIO * g_small * electrode_radius_m / size
+    # model a pair of MAX_SIZE_RATIO smallest gaps in all: the overhangs of diaphragm and
+    # backplate beyond the electrode (they shape the edge field) keep their absolute size, up to
+    # 30 % of the modelled pair; the electrode takes the rest
+    span = MAX_SIZE_RATIO * g_small
+    over_d = diaphragm_radius_m - electrode_radius_m
+    over_b = rb - electrode_radius_m
+    keep = min(max(over_d, over_b, 0.0), 0.3 * span)
+    re_s = span - keep
     f = re_s / electrode_radius_m
-    over = min(diaphragm_radius_m - electrode_radius_m, 0.5 * re_s) if \
-        diaphragm_radius_m > electrode_radius_m else (diaphragm_radius_m - electrode_radius_m) * f
-    ring = None if backplate_radius_m is None else re_s + min(rb - electrode_radius_m, 0.5 * re_s)
-    small = rim_fringing_direct(re_s, re_s + over, gap_m, backplate_thickness_m,
+
+    def overhang(o):
+        return min(o, keep) if o > 0 else o * f
+
+    ring = None if backplate_radius_m is None else re_s + overhang(over_b)
+    small = rim_fringing_direct(re_s, re_s + overhang(over_d), gap_m, backplate_thickness_m,
                                 backplate_radius_m=ring, **kw)
     perimeter = small.perimeter_m / f
     extra = EPS0 / (2 * math.pi) * math.log(1.0 / f) * perimeter
