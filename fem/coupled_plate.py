@@ -182,4 +182,13 @@ def solve_coupled(problem, accuracy: str, electrode_size_m: float, gap_m: float,
         bias_center_deflection_m=fine.get("w_b"), resonance_at_bias_hz=fine.get("f_b"),
         resonance_no_bias_hz=fine["f0"], center_compliance_at_bias_m_per_pa=fine.get("c_b"),
         center_compliance_no_bias_m_per_pa=fine["c0"],
-        branch=tuple(zip(br.deflections().tolist(), br.voltages().tolist())), uncertainty=unc)
+        branch=_with_bias_point(br, fine.get("w_b"), bias_voltage_v), uncertainty=unc)
+
+
+def _with_bias_point(br: Branch, w_b, v_b) -> tuple:
+    """(w0, V) pairs of the branch, with the bias equilibrium inserted in order."""
+    pts = list(zip(br.deflections().tolist(), br.voltages().tolist()))
+    if w_b is not None:
+        pts.append((float(w_b), float(v_b)))
+        pts.sort()
+    return tuple(pts)

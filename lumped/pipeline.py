@@ -77,7 +77,7 @@ def run_design(design: Design) -> RunResult:
     damp = _stage(result, "damping", damping_stage, design, mech, f_res)
     if not result.collapsed:
         model = lumped_model(design, mech, es, cp, damp)
-        _stage(result, "response", response_stage, model)
+        _stage(result, "response", response_stage, model, result.summary()["uncertainty"])
     sections = {k: v.to_summary() for k, v in result.sections.items()}
     _stage(result, "audit", audit_design, design, sections)
     return result

@@ -183,7 +183,20 @@ def lumped_model(design: Design, mech, es: Section, cp: Section, damp: Section):
         gamma=air.heat_capacity_ratio, temperature_k=ac.temperature_k)
 
 
-def response_stage(model) -> Section:
+def _response_uncertainty(unc: dict) -> dict:
+    """First-order propagation of the FE error estimates into the lumped figures (relative, on
+    the linear quantities): the mid-band sensitivity (V/Pa) ∝ (dC/dx / C)·A_eff / k and the
+    resonance ∝ √(k/m); errors add linearly (a bound, no cancellation assumed)."""
+    def u(key):
+        return abs(float(unc.get(key, 0.0)))
+
+    sens = (u("electrostatics.capacitance_slope_f_per_m") + u("electrostatics.rest_capacitance_f")
+            + u("mechanics.effective_area_m2") + u("coupled.softened_stiffness_n_per_m"))
+    res = 0.5 * (u("coupled.softened_stiffness_n_per_m") + u("mechanics.effective_mass_kg"))
+    return {"sensitivity_v_per_pa": sens, "resonance_hz": res}
+
+
+def response_stage(model, fe_uncertainty: dict | None = None) -> Section:
     """Frequency response, noise (mechanical-thermal, bias resistor, vent) and distortion."""
     from .distortion import distortion_vs_spl
     from .noise import a_weighted_level_db
@@ -210,5 +223,6 @@ def response_stage(model) -> Section:
     })
     data.update(dist.to_summary())
     data["thd_vs_spl"] = [[float(a), float(b)] for a, b in zip(dist.spl_db, dist.thd)]
-    return Section(data, {}, {"response": resp, "distortion": dist, "model": model,
+    unc = _response_uncertainty(fe_uncertainty or {})
+    return Section(data, unc, {"response": resp, "distortion": dist, "model": model,
                               "noise_parts": parts, "noise_input_psd": p_in})

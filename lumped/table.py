@@ -56,8 +56,9 @@ def summary_table(summary: dict) -> str:
         if section != section_seen:
             lines.append(f"[{section}]")
             section_seen = section
-        err = unc.get(f"{section}.{key}", unc.get(f"{section}.natural_frequencies_hz")
-                      if key == "distinct_frequencies_hz" else None)
+        alias = {"distinct_frequencies_hz": "natural_frequencies_hz",
+                 "sensitivity_db_v_per_pa": "sensitivity_v_per_pa"}.get(key)
+        err = unc.get(f"{section}.{key}", unc.get(f"{section}.{alias}") if alias else None)
         err_s = f"{err:.1e}" if isinstance(err, (int, float)) else ""
         lines.append(f"  {label:<30} {_fmt(sec[key], scale):>28}  {unit:<13} {err_s:>10}")
     audit = summary.get("audit")

@@ -169,8 +169,9 @@ def report_html(result, plots, files: list[str] = ()) -> str:
         audit_table(rows) if rows else "<p>No audit rows were computed.</p>",
         '<h2 id="results">Results</h2>',
         "<p>Estimated relative errors are the discretisation errors of the finite-element "
-        "quantities (two or more mesh levels); a dash means the quantity comes from the lumped "
-        "model or a closed form and carries no estimate of its own.</p>",
+        "quantities (two or more mesh levels); for the sensitivity (relative to V/Pa) and the "
+        "resonance of the lumped model they are those errors propagated to first order; a dash "
+        "means the quantity has no discretisation error estimate of its own.</p>",
         _omitted(result),
     ]
     for sec, table in results_tables(summary):

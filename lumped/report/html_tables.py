@@ -2,7 +2,7 @@
 
 Values are SI floats from the design and summary.json, shown in display units (µm, pF, kHz …).
 Every FE result is followed by its estimated relative discretisation error (summary.json's
-``uncertainty``); results of the lumped model carry none of their own. Audit verdicts are
+``uncertainty``; propagated to the lumped sensitivity and resonance). Audit verdicts are
 written out as words with a symbol (✓ holds, ! marginal, ✗ FAILS), so that they read without
 colour.
 """
@@ -123,7 +123,8 @@ def design_table(design) -> str:
 
 
 #: results whose error estimate is filed under another key
-_UNCERTAINTY_ALIAS = {"distinct_frequencies_hz": "natural_frequencies_hz"}
+_UNCERTAINTY_ALIAS = {"distinct_frequencies_hz": "natural_frequencies_hz",
+                      "sensitivity_db_v_per_pa": "sensitivity_v_per_pa"}
 
 
 def _uncertainty(unc: dict, section: str, key: str) -> str:
