@@ -1,7 +1,11 @@
 """The short human-readable table printed by ``diagap run`` (built from the summary dict)."""
 from __future__ import annotations
 
-__all__ = ["summary_table"]
+__all__ = ["summary_table", "UNCERTAINTY_ALIAS"]
+
+#: results whose error estimate is filed under another key
+UNCERTAINTY_ALIAS = {"distinct_frequencies_hz": "natural_frequencies_hz",
+                     "sensitivity_db_v_per_pa": "sensitivity_v_per_pa"}
 
 # (section, key, label, scale, unit)
 ROWS = [
@@ -56,8 +60,7 @@ def summary_table(summary: dict) -> str:
         if section != section_seen:
             lines.append(f"[{section}]")
             section_seen = section
-        alias = {"distinct_frequencies_hz": "natural_frequencies_hz",
-                 "sensitivity_db_v_per_pa": "sensitivity_v_per_pa"}.get(key)
+        alias = UNCERTAINTY_ALIAS.get(key)
         err = unc.get(f"{section}.{key}", unc.get(f"{section}.{alias}") if alias else None)
         err_s = f"{err:.1e}" if isinstance(err, (int, float)) else ""
         lines.append(f"  {label:<30} {_fmt(sec[key], scale):>28}  {unit:<13} {err_s:>10}")

@@ -12,6 +12,7 @@ import html
 import math
 
 from ..table import ROWS
+from ..table import UNCERTAINTY_ALIAS as _UNCERTAINTY_ALIAS
 
 __all__ = ["design_table", "results_tables", "audit_table", "audit_counts", "display_unit",
            "format_value"]
@@ -122,9 +123,6 @@ def design_table(design) -> str:
     return _table(("section", "quantity", "value", "unit"), out, "design")
 
 
-#: results whose error estimate is filed under another key
-_UNCERTAINTY_ALIAS = {"distinct_frequencies_hz": "natural_frequencies_hz",
-                      "sensitivity_db_v_per_pa": "sensitivity_v_per_pa"}
 
 
 def _uncertainty(unc: dict, section: str, key: str) -> str:
