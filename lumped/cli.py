@@ -131,7 +131,13 @@ def _cmd_run(args) -> int:
     else:
         print(summary_table(summary))
         print(f"\noutputs written to {Path(args.out)}/")
-    return EXIT_COLLAPSED if result.collapsed else EXIT_OK
+    if result.collapsed:
+        cp = summary["coupled"]
+        print(f"diagap: design verdict: COLLAPSE - the bias {cp['bias_voltage_v']:g} V is at or "
+              f"above the pull-in voltage {cp['pull_in_voltage_v']:.4g} V; results that depend "
+              f"on the bias point are not computed (exit code {EXIT_COLLAPSED})", file=sys.stderr)
+        return EXIT_COLLAPSED
+    return EXIT_OK
 
 
 def _cmd_sweep(args) -> int:

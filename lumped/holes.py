@@ -8,7 +8,7 @@ damping.
 """
 from __future__ import annotations
 
-from .design import DesignError, Field, _quantity
+from .quantities import DesignError, Field, parse_quantity as _quantity
 
 __all__ = ["evaluate_holes", "holes_table"]
 

@@ -32,7 +32,6 @@ __all__ = ["SweepError", "Variation", "parse_vary", "check_path", "grid", "point
            "column_name", "MAX_POINTS"]
 
 MAX_POINTS = 100_000
-_UREG = None
 
 
 class SweepError(ValueError):
@@ -88,12 +87,9 @@ def si_round(x: float) -> float:
 
 
 def _ureg():
-    global _UREG
-    if _UREG is None:
-        import pint
+    from .quantities import unit_registry
 
-        _UREG = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
-    return _UREG
+    return unit_registry()
 
 
 def _keys() -> list[str]:
