@@ -114,6 +114,21 @@ def _cmd_init(args) -> int:
     return EXIT_OK
 
 
+def _check_output_folder(out: Path) -> None:
+    """Refuse, before any computation, an output path that cannot become a writable folder."""
+    import os
+
+    from .design import DesignError
+
+    if out.exists() and not out.is_dir():
+        raise DesignError(f"-o {out}: exists and is not a folder")
+    parent = out
+    while not parent.exists():
+        parent = parent.parent
+    if not os.access(parent, os.W_OK | os.X_OK):
+        raise DesignError(f"-o {out}: cannot write in {parent}")
+
+
 def _cmd_run(args) -> int:
     from .design import demo_design, load_design
     from .pipeline import run_design
@@ -121,6 +136,7 @@ def _cmd_run(args) -> int:
     from .writer import write_outputs
 
     design = load_design(args.design) if args.design else demo_design()
+    _check_output_folder(Path(args.out))
     if args.accuracy:
         design = design.with_accuracy(args.accuracy)
     result = run_design(design)

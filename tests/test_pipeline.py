@@ -107,6 +107,11 @@ def test_usage_errors_are_one_line(tmp_path):
     p = _diagap("run", str(tmp_path / "missing.toml"), "-o", str(tmp_path / "o"))
     assert p.returncode == 2 and "design file not found" in p.stderr
     assert not (tmp_path / "o").exists()
+    afile = tmp_path / "afile"
+    afile.write_text("x")
+    p = _diagap("run", "-o", str(afile))
+    assert p.returncode == 2 and "exists and is not a folder" in p.stderr
+    assert afile.read_text() == "x"
 
 
 def test_holes_command_is_quick_and_validates():
