@@ -32,7 +32,9 @@ parabola through the three largest λ of the branch, refined by bisection steps 
 
 Quadrature: the electrode integrals are sums over quadrature points q with weights W_q (m²):
 w_q = (B u)_q with B the (sparse) interpolation matrix of the FE basis at those points.
-All inputs are SI; internally deflections are scaled by g and λ by a reference V².
+All inputs are SI. The plate matrices act on DOFs in scaled coordinates (deflection in m, its
+derivatives per unit scaled length), which keeps them well conditioned; Newton tolerances are
+relative to the prescribed deflection (floor 1e-6·g) and to λ.
 """
 from __future__ import annotations
 
