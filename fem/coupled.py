@@ -24,11 +24,11 @@ the branch is followed through the fold. Newton's method on the bordered system
     [J  −f] [δu]   [λ f − K u]
     [cᵀ  0] [δλ] = [w0 − cᵀu ]
 
-is solved by block elimination with two solves with J. J = K − λG is a compact perturbation of
-K, so GMRES preconditioned by one sparse LU of K (computed once) converges in a few iterations.
-Pull-in is the fold of λ(w0): the maximum of λ, where J stops being positive definite (its
-smallest eigenvalue relative to K, μ = 1 − λ·max eig(K⁻¹G), reaches 0). The fold is located by a
-parabola through the three largest λ of the branch, refined by bisection steps in w0.
+is solved by block elimination with two solves with J (a sparse LU in symmetric mode, reused as
+a chord while the iteration contracts fast, refactored otherwise). Pull-in is the fold of λ(w0):
+the maximum of λ, where J stops being positive definite (its smallest eigenvalue relative to K,
+μ = 1 − λ·max eig(K⁻¹G), reaches 0). Along the branch dλ/dw0 = 1/(cᵀJ⁻¹f); the fold is the zero
+of this slope, bracketed by the uniform steps in w0 and found by Brent's method.
 
 Quadrature: the electrode integrals are sums over quadrature points q with weights W_q (m²):
 w_q = (B u)_q with B the (sparse) interpolation matrix of the FE basis at those points.
