@@ -6,7 +6,7 @@ squeeze-film damping of the demo's rigid-piston-shaped electrode are computed.
 """
 import numpy as np
 
-from fem import air_properties, lattice_summary, squeeze_film
+from diagap.fem import air_properties, lattice_summary, squeeze_film
 
 GAP, PITCH, THICKNESS, ELECTRODE = 4e-6, 20e-6, 2e-6, 0.45e-3
 RADII_M = np.array([2e-6, 4e-6, 6e-6, 8e-6])

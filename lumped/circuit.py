@@ -47,7 +47,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .model import CapacitanceCurve, LumpedModel, LumpedModelError
+from diagap.lumped.model import CapacitanceCurve, LumpedModel, LumpedModelError
 
 __all__ = ["AcousticElements", "acoustic_elements", "CircuitSolution", "solve_circuit",
            "NonlinearTransducer"]

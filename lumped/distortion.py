@@ -41,8 +41,8 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.integrate import solve_ivp
 
-from .circuit import NonlinearTransducer, solve_circuit
-from .model import CapacitanceCurve, LumpedModel, LumpedModelError
+from diagap.lumped.circuit import NonlinearTransducer, solve_circuit
+from diagap.lumped.model import CapacitanceCurve, LumpedModel, LumpedModelError
 
 __all__ = ["HarmonicSolution", "DistortionResult", "ConvergenceError", "harmonic_balance",
            "thd_time_domain", "distortion_vs_spl", "spl_to_pressure_amplitude"]

@@ -27,7 +27,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.integrate import simpson
 
-from .weighting import AUDIO_BAND_HZ, a_weighting_gain
+from diagap.lumped.weighting import AUDIO_BAND_HZ, a_weighting_gain
 
 __all__ = ["BOLTZMANN_J_PER_K", "P_REF_PA", "NoiseError", "ThermalNoise", "a_weighted_level_db",
            "mechanical_thermal_noise", "spl_db"]

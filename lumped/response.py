@@ -33,8 +33,8 @@ import numpy as np
 from scipy.constants import k as k_boltzmann
 from scipy.optimize import brentq, minimize_scalar
 
-from .circuit import CircuitSolution, solve_circuit
-from .model import LumpedModel
+from diagap.lumped.circuit import CircuitSolution, solve_circuit
+from diagap.lumped.model import LumpedModel
 
 __all__ = [
     "FrequencyResponse",

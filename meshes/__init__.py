@@ -2,6 +2,6 @@
 
 This package knows nothing of physics; every mesh is in scaled (dimensionless) coordinates.
 """
-from .cache import cache_dir, cache_key, cached_arrays, set_enabled
+from diagap.meshes.cache import cache_dir, cache_key, cached_arrays, set_enabled
 
 __all__ = ["cache_dir", "cache_key", "cached_arrays", "set_enabled"]

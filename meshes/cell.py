@@ -25,8 +25,8 @@ from dataclasses import dataclass
 import numpy as np
 from skfem import MeshTet1, MeshTri
 
-from ._gmsh import gmsh_session
-from .cache import cached_arrays
+from diagap.meshes._gmsh import gmsh_session
+from diagap.meshes.cache import cached_arrays
 
 __all__ = [
     "CellGeometry",

@@ -12,7 +12,7 @@ from dataclasses import replace
 import numpy as np
 from skfem import MeshTri2
 
-from .diaphragm import disk_mesh, square_mesh
+from diagap.meshes.diaphragm import disk_mesh, square_mesh
 
 __all__ = ["curved_disk_mesh", "quadratic_square_mesh"]
 

@@ -11,8 +11,8 @@ from __future__ import annotations
 import numpy as np
 from skfem import MeshTri
 
-from ._gmsh import gmsh_session, triangles
-from .cache import cached_arrays
+from diagap.meshes._gmsh import gmsh_session, triangles
+from diagap.meshes.cache import cached_arrays
 
 __all__ = ["disk_mesh", "square_mesh"]
 

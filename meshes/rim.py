@@ -24,9 +24,9 @@ from dataclasses import dataclass
 
 from skfem import MeshTri
 
-from ._gmsh import gmsh_session
-from .cache import cached_arrays
-from .cell import MeshSizes, _num, tagged_mesh_arrays, to_skfem
+from diagap.meshes._gmsh import gmsh_session
+from diagap.meshes.cache import cached_arrays
+from diagap.meshes.cell import MeshSizes, _num, tagged_mesh_arrays, to_skfem
 
 __all__ = ["PairGeometry", "electrode_pair_mesh", "disk_pair_mesh"]
 

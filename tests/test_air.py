@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import pytest
 
-from fem.air import AirPropertyError, air_properties, sutherland_viscosity
+from diagap.fem.air import AirPropertyError, air_properties, sutherland_viscosity
 
 
 def test_air_at_20c_matches_handbook_table():

@@ -3,8 +3,8 @@ the demo's sound ones. Thresholds are stated in each row (engineering judgement,
 Designs are invented variants of the demo, run at draft accuracy."""
 import pytest
 
-from lumped.design import demo_design, with_overrides
-from lumped.pipeline import run_design
+from diagap.design import demo_design, with_overrides
+from diagap.pipeline import run_design
 
 _CACHE = {}
 

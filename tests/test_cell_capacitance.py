@@ -17,7 +17,7 @@ import numpy as np
 import pytest
 from scipy.constants import epsilon_0
 
-from fem.electrostatic import (ElectrostaticsInputError, cell_area_m2, cell_capacitance,
+from diagap.fem.field.cell import (ElectrostaticsInputError, cell_area_m2, cell_capacitance,
                                lattice_summary)
 
 GAP, T, PITCH = 4e-6, 2e-6, 20e-6  # invented demo geometry: hex holes r = 4 µm, pitch 20 µm

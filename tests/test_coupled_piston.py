@@ -8,7 +8,7 @@ import pytest
 import scipy.sparse as sp
 from scipy.constants import epsilon_0
 
-from fem.coupled import (ElectrostaticLoad, CouplingSystem, equilibrium_at_voltage, softened_modes,
+from diagap.fem.coupling.branch import (ElectrostaticLoad, CouplingSystem, equilibrium_at_voltage, softened_modes,
                          trace_branch, center_compliance)
 
 K, G, A, M = 50.0, 4e-6, np.pi * (0.5e-3) ** 2, 2e-9
@@ -61,7 +61,7 @@ def test_softened_resonance_goes_to_zero_at_pull_in():
 
 
 def test_bias_at_or_above_pull_in_is_refused():
-    from fem.coupled import CoupledError
+    from diagap.fem.coupling.branch import CoupledError
     load, sys_ = ElectrostaticLoad.parallel_plate(), _piston()
     br = trace_branch(sys_, load, G)
     with pytest.raises(CoupledError, match="at or above pull-in"):

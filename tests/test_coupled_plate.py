@@ -3,9 +3,9 @@ import numpy as np
 import pytest
 from scipy.constants import epsilon_0
 
-from fem.coupled import ElectrostaticLoad, equilibrium_at_voltage, softened_modes, trace_branch
-from fem.coupled_plate import coupling_system, plate_levels, solve_coupled
-from fem.plate import PlateProblem
+from diagap.fem.coupling.branch import ElectrostaticLoad, equilibrium_at_voltage, softened_modes, trace_branch
+from diagap.fem.coupling.plate import coupling_system, plate_levels, solve_coupled
+from diagap.fem.plate.solver import PlateProblem
 
 A, H, E, NU, RHO, G = 0.5e-3, 1e-6, 160e9, 0.22, 2330.0, 4e-6
 D = E * H**3 / (12 * (1 - NU**2))
@@ -48,9 +48,9 @@ def test_demo_branch_and_softening_to_zero():
 def test_pull_in_converges_under_refinement():
     # Convergence study: V_PI on three nested-size mesh levels (sizes x1.5 apart); the observed
     # order is positive (~2, the disk's boundary order) and "normal" is within 0.5 % of "fine".
-    from fem.levels import MeshSize
-    from fem.plate import assemble_plate
-    from meshes.diaphragm import disk_mesh
+    from diagap.fem.levels import MeshSize
+    from diagap.fem.plate.solver import assemble_plate
+    from diagap.meshes.diaphragm import disk_mesh
 
     prob = _demo_problem()
     vs = []

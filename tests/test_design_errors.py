@@ -5,8 +5,8 @@ import sys
 
 import pytest
 
-from lumped.buckling import critical_tension_n_per_m
-from lumped.design import DesignError, demo_design, parse_design, tomllib, demo_text
+from diagap.lumped.buckling import critical_tension_n_per_m
+from diagap.design import DesignError, demo_design, parse_design, tomllib, demo_text
 
 BASE = tomllib.loads(demo_text())
 
@@ -97,7 +97,7 @@ def test_square_uses_side_not_radius():
 def test_invalid_toml_is_one_line(tmp_path):
     p = tmp_path / "bad.toml"
     p.write_text("[diaphragm\nradius = 1\n")
-    from lumped.design import load_design
+    from diagap.design import load_design
     with pytest.raises(DesignError, match=r"bad\.toml: not valid TOML"):
         load_design(p)
 
@@ -124,7 +124,7 @@ def test_cli_rejects_bad_design_without_traceback_or_outputs(tmp_path, path, val
     design = tmp_path / "d.toml"
     design.write_text("\n".join(lines) + "\n")
     out = tmp_path / "out"
-    proc = subprocess.run([sys.executable, "-m", "lumped.cli", "run", str(design), "-o", str(out)],
+    proc = subprocess.run([sys.executable, "-m", "diagap.cli", "run", str(design), "-o", str(out)],
                           capture_output=True, text=True)
     assert proc.returncode == 2
     err = proc.stderr.strip().splitlines()

@@ -17,11 +17,11 @@ import numpy as np
 import pytest
 from scipy.constants import epsilon_0
 
-from fem.capacitance import device_capacitance
-from fem.cell_table import capacitance_density_table
-from fem.electrostatic import ElectrostaticsInputError, cell_capacitance
-from fem.rim_fringing import pair_capacitance, rim_fringing
-from meshes.rim import PairGeometry
+from diagap.fem.field.device import device_capacitance
+from diagap.fem.field.cell_table import capacitance_density_table
+from diagap.fem.field.cell import ElectrostaticsInputError, cell_capacitance
+from diagap.fem.field.rim import pair_capacitance, rim_fringing
+from diagap.meshes.rim import PairGeometry
 
 G, T, A_HOLE, PITCH = 4e-6, 2e-6, 4e-6, 20e-6  # invented demo scenario
 R_EL, R_DIA = 0.45e-3, 0.5e-3

@@ -12,11 +12,11 @@ import math
 import numpy as np
 import pytest
 
-from lumped.circuit import NonlinearTransducer
-from lumped.distortion import (distortion_vs_spl, harmonic_balance, spl_to_pressure_amplitude,
+from diagap.lumped.circuit import NonlinearTransducer
+from diagap.lumped.distortion import (distortion_vs_spl, harmonic_balance, spl_to_pressure_amplitude,
                                thd_time_domain)
-from lumped.model import LumpedModelError, from_capacitance_curve, parallel_plate_piston
-from lumped.response import frequency_response
+from diagap.lumped.model import LumpedModelError, from_capacitance_curve, parallel_plate_piston
+from diagap.lumped.response import frequency_response
 
 GAP = 4e-6
 

@@ -6,7 +6,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from lumped.design import load_design
+from diagap.design import load_design
 
 EXAMPLES = Path(__file__).resolve().parent.parent / "examples"
 
@@ -18,7 +18,7 @@ def test_example_designs_load(path):
 
 
 def test_square_example_runs_at_draft():
-    from lumped.pipeline import run_design
+    from diagap.pipeline import run_design
     s = run_design(load_design(EXAMPLES / "square_nitride.toml")).summary()
     assert s["response"]["sensitivity_db_v_per_pa"] < 0
     assert s["coupled"]["bias_margin"] < 1

@@ -6,8 +6,8 @@ import math
 
 import pytest
 
-from lumped.design import demo_design, with_overrides
-from lumped.pipeline import run_design
+from diagap.design import demo_design, with_overrides
+from diagap.pipeline import run_design
 
 SQUARE = {"diaphragm.shape": "square", "diaphragm.radius": None, "diaphragm.side": "1 mm",
           "backplate.electrode_radius": None}

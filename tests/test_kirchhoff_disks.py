@@ -16,8 +16,8 @@ import numpy as np
 import pytest
 from scipy.constants import epsilon_0
 
-from fem.rim_fringing import pair_capacitance, rim_fringing
-from meshes.rim import PairGeometry
+from diagap.fem.field.rim import pair_capacitance, rim_fringing
+from diagap.meshes.rim import PairGeometry
 
 
 def kirchhoff(a_over_d):

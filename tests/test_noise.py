@@ -10,13 +10,13 @@ import numpy as np
 import pytest
 from scipy import constants, integrate
 
-from lumped.noise import (
+from diagap.lumped.noise import (
     NoiseError,
     a_weighted_level_db,
     mechanical_thermal_noise,
     spl_db,
 )
-from lumped.weighting import WeightingError, a_weighting_db, a_weighting_gain
+from diagap.lumped.weighting import WeightingError, a_weighting_db, a_weighting_gain
 
 # IEC 61672-1:2013 table, nominal octave centres -> A (dB); evaluated at the exact base-10
 # midband frequencies 1000·10^(3n/10) Hz (IEC 61260), as the standard's table is.

@@ -20,7 +20,7 @@ CONTRACT = {
 
 
 def _diagap(*args, cwd=None):
-    return subprocess.run([sys.executable, "-m", "lumped.cli", *args], capture_output=True,
+    return subprocess.run([sys.executable, "-m", "diagap.cli", *args], capture_output=True,
                           text=True, cwd=cwd)
 
 
@@ -70,7 +70,7 @@ def test_demo_numbers_are_physical(demo_run):
 
 
 def test_collapsed_design_exits_3_and_keeps_bias_independent_results(tmp_path):
-    from lumped.design import demo_text
+    from diagap.design import demo_text
     text = demo_text().replace('bias_voltage = "10 V"', 'bias_voltage = "60 V"')
     text = text.replace('accuracy = "normal"', 'accuracy = "draft"')
     design = tmp_path / "hot.toml"
@@ -95,7 +95,7 @@ def test_version_help_and_init(tmp_path):
         assert _diagap(cmd, "--help").returncode == 0
     target = tmp_path / "new.toml"
     assert _diagap("init", str(target)).returncode == 0
-    from lumped.design import load_design
+    from diagap.design import load_design
     assert load_design(target).diaphragm.shape == "circle"
     again = _diagap("init", str(target))
     assert again.returncode == 2 and "exists" in again.stderr

@@ -20,10 +20,10 @@ import numpy as np
 from scipy import special
 from skfem import MeshTri
 
-from fem.levels import MeshSize, richardson
-from fem.membrane import build_membrane_system, edge_shrink
-from fem.membrane import _mesh as membrane_mesh
-from fem.plate import PlateProblem, assemble_plate
+from diagap.fem.levels import MeshSize, richardson
+from diagap.fem.plate.membrane import build_membrane_system, edge_shrink
+from diagap.fem.plate.membrane import _mesh as membrane_mesh
+from diagap.fem.plate.solver import PlateProblem, assemble_plate
 
 POLY = dict(youngs_modulus_pa=160e9, poisson_ratio=0.22, thickness_m=1e-6, density_kg_m3=2330.0)
 

@@ -24,8 +24,8 @@ from scipy import integrate, optimize, special
 
 from skfem import CellBasis, ElementTriArgyris, MeshTri
 
-from fem.argyris import ElementTriArgyrisLocal, local_coefficients
-from fem.plate import (BucklingError, PlateInputError, PlateProblem, assemble_plate,
+from diagap.fem.plate.argyris import ElementTriArgyrisLocal, local_coefficients
+from diagap.fem.plate.solver import (BucklingError, PlateInputError, PlateProblem, assemble_plate,
                        solve_plate)
 
 # polysilicon, typical values (Sharpe et al., 1997)
@@ -176,7 +176,7 @@ def test_local_argyris_basis_matches_scikit_fem():
         if i < 18:
             assert np.allclose(a.hess, b.hess, atol=1e-6 * np.abs(a.hess).max())
     # the batched element matrices equal scikit-fem's assembly of the same weak forms
-    from fem.plate_system import _scatter, element_matrices, forms
+    from diagap.fem.plate.system import _scatter, element_matrices, forms
 
     local = element_matrices(loc.elem, loc)
     for name, form in forms().items():
@@ -185,7 +185,7 @@ def test_local_argyris_basis_matches_scikit_fem():
         assert abs(reference - mine).max() <= 1e-10 * abs(reference).max(), name
     # element-local coordinates keep the element matrices well-conditioned on a rim-graded
     # mesh (upstream's global-coordinate Vandermonde reached ~1e12 on the same mesh)
-    from meshes.diaphragm import disk_mesh
+    from diagap.meshes.diaphragm import disk_mesh
 
     m = disk_mesh(0.3, 0.03, 0.3)
     _, scale, coef = local_coefficients(np.asarray(m.p), np.asarray(m.t))

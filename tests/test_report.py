@@ -21,12 +21,12 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from lumped.cli import EXIT_COLLAPSED, main
-from lumped.design import demo_design, demo_text
-from lumped.pipeline import RunResult, run_design
-from lumped.report.html import CAUTION_TEXT, png_size, report_html
-from lumped.report.outputs import report_files
-from lumped.writer import write_outputs
+from diagap.cli import EXIT_COLLAPSED, main
+from diagap.design import demo_design, demo_text
+from diagap.pipeline import RunResult, run_design
+from diagap.report.html import CAUTION_TEXT, png_size, report_html
+from diagap.report.outputs import report_files
+from diagap.writer import write_outputs
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
 DEMO_PLOTS = {"deflection", "mode_profiles", "mode_maps", "cell_field", "capacitance",
@@ -165,7 +165,7 @@ def test_user_text_is_escaped(demo):
 
 
 def test_failing_producer_leaves_no_output(demo, tmp_path, monkeypatch):
-    import lumped.report.plots_mech as plots_mech
+    import diagap.report.plots_mech as plots_mech
 
     def broken(mech):
         raise RuntimeError("plot failed")

@@ -13,9 +13,9 @@ import scipy.signal
 from scipy.constants import epsilon_0, k as k_boltzmann
 from scipy.integrate import quad
 
-from lumped.model import FilmTable, LumpedModel, LumpedModelError, parallel_plate_piston
-from lumped.report.csv import write_response_csv
-from lumped.response import (analyse_response, frequency_response, input_referred,
+from diagap.lumped.model import FilmTable, LumpedModel, LumpedModelError, parallel_plate_piston
+from diagap.report.csv import write_response_csv
+from diagap.lumped.response import (analyse_response, frequency_response, input_referred,
                              output_noise_psd_damping, output_noise_psd_resistor)
 
 AREA = math.pi * (0.4e-3) ** 2

@@ -3,7 +3,7 @@ logarithmic edge law (the ln(a/d) term of Kirchhoff's disk formula, Kirchhoff 18
 the direct axisymmetric FE within its reported error."""
 import pytest
 
-import fem.rim_fringing as rf
+import diagap.fem.field.rim as rf
 
 
 @pytest.mark.parametrize("radius", [0.3e-3, 0.6e-3])

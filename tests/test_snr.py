@@ -6,8 +6,8 @@ A-weighting from its defining formula (IEC 61672-1:2013, pole frequencies 20.599
 import numpy as np
 import pytest
 
-from lumped.design import demo_design
-from lumped.pipeline import run_design
+from diagap.design import demo_design
+from diagap.pipeline import run_design
 
 
 def _a_gain2(f):

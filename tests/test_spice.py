@@ -13,9 +13,9 @@ import subprocess
 import numpy as np
 import pytest
 
-from lumped.model import FilmTable, from_capacitance_curve, parallel_plate_piston
-from lumped.report.spice import impedance_scale, spice_netlist, write_spice
-from lumped.response import frequency_response
+from diagap.lumped.model import FilmTable, from_capacitance_curve, parallel_plate_piston
+from diagap.report.spice import impedance_scale, spice_netlist, write_spice
+from diagap.lumped.response import frequency_response
 
 NGSPICE = shutil.which("ngspice")
 needs_ngspice = pytest.mark.skipif(NGSPICE is None, reason="ngspice not installed "
@@ -125,8 +125,8 @@ def test_ngspice_agrees_with_the_demo_pipeline_model(tmp_path):
     # reference: ngspice AC analysis of the netlist exported from the demo's FE-extracted model.
     # The netlist carries the low-frequency film damping (its header says so); diagap's own
     # response with that same constant damping must agree within 0.05 dB and 0.5 degrees.
-    from lumped.design import demo_design
-    from lumped.pipeline import run_design
+    from diagap.design import demo_design
+    from diagap.pipeline import run_design
 
     res = run_design(demo_design().with_accuracy("draft"))
     model = res.sections["response"].objects["model"].replace(film_damping=None)

@@ -21,8 +21,8 @@ import numpy as np
 import pytest
 from scipy import integrate, optimize, special
 
-from fem.air import air_properties
-from fem.perforation import (
+from diagap.fem.air import air_properties
+from diagap.fem.film.perforation import (
     PerforationError,
     cell_damping,
     cell_resistance,
@@ -34,7 +34,7 @@ from fem.perforation import (
     rarefaction_factor,
     sampson_resistance,
 )
-from fem.squeeze import SqueezeError, film_impedance, squeeze_film
+from diagap.fem.film.squeeze import SqueezeError, film_impedance, squeeze_film
 
 MU = 1.8e-5        # Pa·s
 GAP = 4e-6         # m
@@ -298,7 +298,7 @@ def _film_mesh_with_holes(outline: str, size: float, pitch: float, r: float, h: 
     """
     from skfem import MeshTri
 
-    from meshes.cache import cached_arrays
+    from diagap.meshes.cache import cached_arrays
 
     params = dict(outline=outline, size=size, pitch=pitch, r=r, h=h)
     arr = cached_arrays("test-film-holes", params,
@@ -307,7 +307,7 @@ def _film_mesh_with_holes(outline: str, size: float, pitch: float, r: float, h: 
 
 
 def _build_film_with_holes(outline, size, pitch, r, h):
-    from meshes._gmsh import gmsh_session, triangles
+    from diagap.meshes._gmsh import gmsh_session, triangles
 
     with gmsh_session("film-holes") as gmsh:
         occ = gmsh.model.occ

@@ -18,12 +18,12 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from lumped.design import demo_design
-from lumped.sweep import PointOutput, SweepError, run_sweep
-from lumped.sweep_plots import key_label
-from lumped.sweep_point import flatten_summary
-from lumped.sweep_progress import ProgressBar
-from lumped.sweep_spec import grid, parse_vary, point_id
+from diagap.design import demo_design
+from diagap.sweep.run import PointOutput, SweepError, run_sweep
+from diagap.sweep.plots import key_label
+from diagap.sweep.point import flatten_summary
+from diagap.sweep.progress import ProgressBar
+from diagap.sweep.spec import grid, parse_vary, point_id
 
 REPO = Path(__file__).resolve().parents[1]
 
@@ -303,8 +303,8 @@ def test_interrupted_run_resumes_with_only_the_missing_points(tmp_path):
 
 _KILLED_SCRIPT = """
 import sys, time
-from lumped.design import demo_design
-from lumped.sweep import run_sweep
+from diagap.design import demo_design
+from diagap.sweep.run import run_sweep
 
 def slow(design):
     time.sleep(0.25)
@@ -379,7 +379,7 @@ def test_bad_inputs_write_no_files(tmp_path):
 
 
 def test_folder_of_another_design_is_refused(tmp_path):
-    from lumped.design import with_override
+    from diagap.design import with_override
 
     out = tmp_path / "s"
     run_sweep(demo_design(), [RADII], out, workers=1, evaluate=fake_point, plots=False)
@@ -394,8 +394,8 @@ def test_folder_of_another_design_is_refused(tmp_path):
 
 def _cli(argv):
     """``diagap`` with the sweep subcommand (through lumped.cli once it registers ``sweep``)."""
-    from lumped import cli
-    from lumped.sweep_cli import add_parser, cmd_sweep
+    from diagap import cli
+    from diagap.sweep.cli import add_parser, cmd_sweep
 
     if "sweep" in getattr(cli, "_COMMANDS", {}):
         return cli.main(argv)
@@ -428,7 +428,7 @@ def test_cli_bad_input_exits_2_with_one_line_and_no_files(tmp_path, capsys, argv
 
 
 def test_cli_runs_a_sweep(tmp_path, capsys, monkeypatch):
-    import lumped.sweep as sw
+    import diagap.sweep.run as sw
 
     monkeypatch.setattr(sw, "pipeline_point", fake_point)  # the CLI's points use the pipeline
     out = tmp_path / "s"
@@ -481,7 +481,7 @@ def test_dask_local_cluster_matches_serial(tmp_path):
 
 def test_unreachable_scheduler_is_one_line():
     pytest.importorskip("distributed")
-    from lumped.sweep_exec import connect
+    from diagap.sweep.exec import connect
 
     with pytest.raises(SweepError, match="cannot connect") as info:
         connect("tcp://127.0.0.1:9", timeout_s=0.5)
@@ -492,7 +492,7 @@ def test_unreachable_scheduler_is_one_line():
 
 @pytest.mark.slow
 def test_real_pipeline_two_points_at_draft(tmp_path):
-    pytest.importorskip("fem.plate", reason="the diaphragm solver is not available")
+    pytest.importorskip("diagap.fem.plate.solver", reason="the diaphragm solver is not available")
     res = run_sweep(demo_design(), ["diaphragm.residual_stress=5MPa,20MPa"], tmp_path / "s",
                     workers=1, accuracy="draft", plots=True)
     assert [r["status"] for r in res.records] == ["ok", "ok"], [r["error"] for r in res.records]

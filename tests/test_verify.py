@@ -2,8 +2,8 @@
 deviations must lie within the solvers' own error estimates (factor 3) where they give one.
 Sources are named per case in lumped/verify.py (Timoshenko & Woinowsky-Krieger 1959; Leissa 1969;
 scipy Bessel zeros; Nathanson et al. 1967; Griffin et al. 1966; IEC 61672-1:2013)."""
-from lumped.cli import main
-from lumped.verify import run_checks
+from diagap.cli import main
+from diagap.verify import run_checks
 
 
 def test_all_published_checks_pass_at_normal():

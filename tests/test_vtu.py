@@ -15,11 +15,11 @@ import meshio
 import numpy as np
 import pytest
 
-from fem.plate import solve_plate
-from lumped.design import demo_design
-from lumped.extract import plate_problem
-from lumped.report.fields import cell_field, diaphragm_field
-from lumped.report.vtu import write_cell_vtu, write_diaphragm_vtu
+from diagap.fem.plate.solver import solve_plate
+from diagap.design import demo_design
+from diagap.extract import plate_problem
+from diagap.report.fields import cell_field, diaphragm_field
+from diagap.report.vtu import write_cell_vtu, write_diaphragm_vtu
 
 
 @pytest.fixture(scope="module")
@@ -117,7 +117,7 @@ def test_cell_field_is_the_gap_field(cell):
 
 
 def test_unperforated_backplate_has_no_cell(design):
-    from lumped.design import parse_design
+    from diagap.design import parse_design
 
     raw = design.raw_dict()
     raw["backplate"] = {k: v for k, v in raw["backplate"].items()

@@ -19,10 +19,10 @@ import statistics
 import sys
 import time
 
-from fem.cell_table import capacitance_density_table
-from fem.electrostatic import cell_area_m2, cell_capacitance, lattice_summary
-from fem.rim_fringing import rim_fringing
-from meshes.cache import set_enabled
+from diagap.fem.field.cell_table import capacitance_density_table
+from diagap.fem.field.cell import cell_area_m2, cell_capacitance, lattice_summary
+from diagap.fem.field.rim import rim_fringing
+from diagap.meshes.cache import set_enabled
 
 G, T, A, P = 4e-6, 2e-6, 4e-6, 20e-6
 

@@ -18,8 +18,8 @@ import numpy as np
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))  # tests/ for the exact solutions
 sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
 
-from fem.plate import PlateProblem, solve_plate  # noqa: E402
-from meshes import cache  # noqa: E402
+from diagap.fem.plate.solver import PlateProblem, solve_plate  # noqa: E402
+from diagap.meshes import cache  # noqa: E402
 from test_plate_validation import disk_exact  # noqa: E402
 
 DEMO = PlateProblem("circle", 0.5e-3, 160e9, 0.22, 1e-6, 2330.0, 10e6, "clamped")

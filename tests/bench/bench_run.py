@@ -7,10 +7,10 @@ import statistics
 import sys
 import time
 
-from fem.coupled_plate import solve_coupled
-from lumped.design import demo_design
-from lumped.extract import plate_problem
-from lumped.pipeline import run_design
+from diagap.fem.coupling.plate import solve_coupled
+from diagap.design import demo_design
+from diagap.extract import plate_problem
+from diagap.pipeline import run_design
 
 
 def main(accuracy="normal", repeats=3):

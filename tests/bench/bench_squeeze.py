@@ -24,10 +24,10 @@ import numpy as np
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))  # tests/ for the reference helpers
 sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
 
-from fem.air import air_properties  # noqa: E402
-from fem.perforation import cell_resistance, lattice_cell_area  # noqa: E402
-from fem.squeeze import film_impedance, squeeze_film  # noqa: E402
-from lumped.noise import mechanical_thermal_noise  # noqa: E402
+from diagap.fem.air import air_properties  # noqa: E402
+from diagap.fem.film.perforation import cell_resistance, lattice_cell_area  # noqa: E402
+from diagap.fem.film.squeeze import film_impedance, squeeze_film  # noqa: E402
+from diagap.lumped.noise import mechanical_thermal_noise  # noqa: E402
 from test_squeeze import _film_mesh_with_holes, _poisson_on_holes, rigid  # noqa: E402
 
 RADIUS_M = 0.5e-3

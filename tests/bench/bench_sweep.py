@@ -24,8 +24,8 @@ import tempfile
 import time
 from pathlib import Path
 
-from lumped.design import demo_design
-from lumped.sweep import run_sweep
+from diagap.design import demo_design
+from diagap.sweep.run import run_sweep
 
 
 def _variation(points: int) -> str:

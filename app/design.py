@@ -1,0 +1,389 @@
+"""Design files: TOML with units, parsed with pint into frozen dataclasses in SI.
+
+A quantity is a plain number in SI units or a string with units (``"0.5 mm"``, ``"10 MPa"``,
+``"20 degC"``). Every check raises :class:`DesignError` with one line naming the field, the value
+found and what is allowed. See :data:`SCHEMA` for the keys.
+"""
+from __future__ import annotations
+
+import difflib
+import math
+from dataclasses import asdict, dataclass, replace
+from pathlib import Path
+
+
+try:  # Python >= 3.11
+    import tomllib
+except ModuleNotFoundError:  # pragma: no cover
+    import tomli as tomllib
+
+from diagap.lumped.buckling import critical_tension_n_per_m
+from diagap.materials import MATERIALS
+from diagap.quantities import DesignError, Field, _choice, _fmt, _quantity
+
+__all__ = [
+    "DesignError", "Design", "Diaphragm", "Backplate", "Acoustics", "Electrical", "Analysis",
+    "load_design", "parse_design", "demo_design", "demo_text", "starter_text", "with_override",
+    "with_overrides",
+]
+
+
+def _length(**kw):
+    return Field("m", low=0.0, **kw)
+
+
+SCHEMA: dict[str, dict[str, Field]] = {
+    "diaphragm": {
+        "shape": Field(choices=("circle", "square"), default="circle"),
+        "radius": _length(),
+        "side": _length(),
+        "thickness": _length(required=True),
+        "material": Field(choices=tuple(MATERIALS)),
+        "youngs_modulus": Field("Pa", low=0.0),
+        "poisson_ratio": Field("", low=-1.0, high=0.5),
+        "density": Field("kg/m^3", low=0.0),
+        "residual_stress": Field("Pa", default=0.0),
+        "edge": Field(choices=("clamped", "simply-supported"), default="clamped"),
+    },
+    "backplate": {
+        "gap": _length(required=True),
+        "thickness": _length(required=True),
+        "electrode_radius": _length(),
+        "electrode_side": _length(),
+        "hole_lattice": Field(choices=("hex", "square", "none"), default="none"),
+        "hole_radius": _length(),
+        "hole_pitch": _length(),
+    },
+    "acoustics": {
+        "back_volume": Field("m^3", low=0.0, required=True),
+        "vent_resistance": Field("Pa*s/m^3", low=0.0, required=True),
+        "temperature": Field("K", low=173.15, high=473.15, low_open=False, high_open=False,
+                             default=293.15),
+        "static_pressure": Field("Pa", low=1e3, high=1e6, low_open=False, high_open=False,
+                                 default=101325.0),
+    },
+    "electrical": {
+        "bias_voltage": Field("V", low=0.0, required=True),
+        "bias_resistance": Field("ohm", low=0.0, required=True),
+        "parasitic_capacitance": Field("F", low=0.0, low_open=False, default=0.0),
+        "preamp_input_capacitance": Field("F", low=0.0, low_open=False, default=0.0),
+    },
+    "analysis": {
+        "accuracy": Field(choices=("draft", "normal", "fine"), default="normal"),
+    },
+}
+_TOP = {"name": Field(default="unnamed design"), "description": Field(default="")}
+
+
+@dataclass(frozen=True)
+class Diaphragm:
+    shape: str
+    size_m: float  # radius (circle) or side (square)
+    thickness_m: float
+    youngs_modulus_pa: float
+    poisson_ratio: float
+    density_kg_m3: float
+    residual_stress_pa: float
+    edge: str
+    material: str | None = None
+
+    @property
+    def bending_stiffness_n_m(self) -> float:
+        e, h, nu = self.youngs_modulus_pa, self.thickness_m, self.poisson_ratio
+        return e * h**3 / (12.0 * (1.0 - nu**2))
+
+    @property
+    def tension_n_per_m(self) -> float:
+        return self.residual_stress_pa * self.thickness_m
+
+    @property
+    def area_m2(self) -> float:
+        return math.pi * self.size_m**2 if self.shape == "circle" else self.size_m**2
+
+
+@dataclass(frozen=True)
+class Backplate:
+    gap_m: float
+    thickness_m: float
+    electrode_size_m: float  # electrode radius (circle) or side (square)
+    hole_lattice: str
+    hole_radius_m: float
+    hole_pitch_m: float
+
+    @property
+    def perforated(self) -> bool:
+        return self.hole_lattice != "none"
+
+
+@dataclass(frozen=True)
+class Acoustics:
+    back_volume_m3: float  # closed volume behind the backplate
+    vent_resistance_pa_s_per_m3: float  # static-pressure equalisation path
+    temperature_k: float
+    static_pressure_pa: float
+
+
+@dataclass(frozen=True)
+class Electrical:
+    bias_voltage_v: float
+    bias_resistance_ohm: float
+    parasitic_capacitance_f: float
+    preamp_input_capacitance_f: float
+
+
+@dataclass(frozen=True)
+class Analysis:
+    accuracy: str
+
+
+@dataclass(frozen=True)
+class Design:
+    name: str
+    description: str
+    diaphragm: Diaphragm
+    backplate: Backplate
+    acoustics: Acoustics
+    electrical: Electrical
+    analysis: Analysis
+    raw: tuple = ()  # the parsed TOML as nested (key, value) pairs, for overrides in sweeps
+
+    def to_dict(self) -> dict:
+        """The normalised design in SI (keys carry units), for summary.json."""
+        d = asdict(self)
+        d.pop("raw", None)
+        return d
+
+    def raw_dict(self) -> dict:
+        return _thaw(self.raw)
+
+    def with_accuracy(self, accuracy: str) -> "Design":
+        """A copy with ``analysis.accuracy`` replaced (also in the raw table used by overrides)."""
+        level = _choice("analysis.accuracy", accuracy, SCHEMA["analysis"]["accuracy"])
+        raw = self.raw_dict()
+        raw.setdefault("analysis", {})["accuracy"] = level
+        return replace(self, analysis=Analysis(level), raw=_freeze(raw))
+
+
+def _freeze(d):
+    if isinstance(d, dict):
+        return tuple((k, _freeze(v)) for k, v in d.items())
+    if isinstance(d, list):
+        return ("__list__", tuple(_freeze(v) for v in d))
+    return d
+
+
+def _thaw(t):
+    if isinstance(t, tuple) and len(t) == 2 and t[0] == "__list__":
+        return [_thaw(v) for v in t[1]]
+    if isinstance(t, tuple):
+        return {k: _thaw(v) for k, v in t}
+    return t
+
+
+def _check_keys(section: str, table: dict, fields: dict) -> None:
+    for key in table:
+        if key not in fields:
+            near = difflib.get_close_matches(key, list(fields), n=1, cutoff=0.5)
+            hint = f"; did you mean {near[0]!r}?" if near else f"; known keys: {', '.join(fields)}"
+            where = f"{section}.{key}" if section else key
+            raise DesignError(f"{where}: unknown key{hint}")
+
+
+def _section(raw: dict, section: str) -> dict:
+    """Parse one section into a dict of SI values / strings (missing optional keys → default)."""
+    table = raw.get(section, {})
+    if not isinstance(table, dict):
+        raise DesignError(f"{section} = {_fmt(table)}: must be a table [{section}]")
+    fields = SCHEMA[section]
+    _check_keys(section, table, fields)
+    out = {}
+    for key, f in fields.items():
+        name = f"{section}.{key}"
+        if key not in table:
+            if f.required:
+                raise DesignError(f"{name}: missing (required{', in ' + f.unit if f.unit else ''})")
+            out[key] = f.default
+        elif f.choices:
+            out[key] = _choice(name, table[key], f)
+        else:
+            out[key] = _quantity(name, table[key], f)
+    return out
+
+
+def _need(section: str, values: dict, key: str, why: str) -> float:
+    if values[key] is None:
+        unit = SCHEMA[section][key].unit
+        raise DesignError(f"{section}.{key}: missing (required {why}, in {unit})")
+    return values[key]
+
+
+def _diaphragm(raw: dict) -> Diaphragm:
+    v = _section(raw, "diaphragm")
+    circle = v["shape"] == "circle"
+    size_key, other = ("radius", "side") if circle else ("side", "radius")
+    if v[other] is not None:
+        raise DesignError(f"diaphragm.{other}: not used for shape = {v['shape']!r} "
+                          f"(give diaphragm.{size_key})")
+    size = _need("diaphragm", v, size_key, f"for shape = {v['shape']!r}")
+    props = {}
+    preset = MATERIALS.get(v["material"]) if v["material"] else None
+    for key, attr in (("youngs_modulus", "youngs_modulus_pa"), ("poisson_ratio", "poisson_ratio"),
+                      ("density", "density_kg_m3")):
+        if v[key] is not None:
+            props[attr] = v[key]
+        elif preset is not None:
+            props[attr] = getattr(preset, attr)
+        else:
+            f = SCHEMA["diaphragm"][key]
+            raise DesignError(f"diaphragm.{key}: missing (give it{' in ' + f.unit if f.unit else ''}"
+                              f" or a diaphragm.material preset: {', '.join(MATERIALS)})")
+    if v["thickness"] >= size:
+        raise DesignError(f"diaphragm.thickness = {v['thickness']:g} m: must be smaller than the "
+                          f"diaphragm {size_key} ({size:g} m) for a thin plate")
+    d = Diaphragm(v["shape"], size, v["thickness"], props["youngs_modulus_pa"],
+                  props["poisson_ratio"], props["density_kg_m3"], v["residual_stress"], v["edge"],
+                  v["material"])
+    _check_buckling(d)
+    return d
+
+
+def _check_buckling(d: Diaphragm) -> None:
+    if d.residual_stress_pa >= 0:
+        return
+    n_cr = critical_tension_n_per_m(d.shape, d.edge, d.size_m, d.bending_stiffness_n_m,
+                                    d.poisson_ratio)
+    sigma_cr = n_cr / d.thickness_m
+    if -d.residual_stress_pa >= sigma_cr:
+        raise DesignError(
+            f"diaphragm.residual_stress = {d.residual_stress_pa:g} Pa: compressive stress at or "
+            f"beyond the buckling load; must be > -{sigma_cr:.4g} Pa (critical stress for a "
+            f"{d.edge} {d.shape})")
+
+
+def _backplate(raw: dict, d: Diaphragm) -> Backplate:
+    v = _section(raw, "backplate")
+    circle = d.shape == "circle"
+    el_key, other = ("electrode_radius", "electrode_side") if circle else ("electrode_side",
+                                                                          "electrode_radius")
+    if v[other] is not None:
+        raise DesignError(f"backplate.{other}: not used for a {d.shape} diaphragm "
+                          f"(give backplate.{el_key})")
+    el = v[el_key] if v[el_key] is not None else d.size_m
+    if el > d.size_m * (1 + 1e-12):
+        raise DesignError(f"backplate.{el_key} = {el:g} m: must not exceed the diaphragm's "
+                          f"{'radius' if circle else 'side'} ({d.size_m:g} m)")
+    if v["gap"] >= 0.2 * d.size_m:
+        raise DesignError(f"backplate.gap = {v['gap']:g} m: must be well below the diaphragm size "
+                          f"(< {0.2 * d.size_m:g} m) for a thin air gap")
+    lattice = v["hole_lattice"]
+    r_h = v["hole_radius"] or 0.0
+    pitch = v["hole_pitch"] or 0.0
+    if lattice != "none":
+        r_h = _need("backplate", v, "hole_radius", f"with hole_lattice = {lattice!r}")
+        pitch = _need("backplate", v, "hole_pitch", f"with hole_lattice = {lattice!r}")
+        if r_h >= 0.5 * pitch:
+            raise DesignError(f"backplate.hole_radius = {r_h:g} m: must be less than half the "
+                              f"hole_pitch ({0.5 * pitch:g} m), otherwise the holes touch")
+        if pitch >= el:
+            raise DesignError(f"backplate.hole_pitch = {pitch:g} m: must be smaller than the "
+                              f"electrode ({el_key} = {el:g} m)")
+    elif v["hole_radius"] is not None or v["hole_pitch"] is not None:
+        raise DesignError("backplate.hole_lattice = 'none': hole_radius/hole_pitch given without a "
+                          "lattice; set hole_lattice to hex or square, or remove them")
+    return Backplate(v["gap"], v["thickness"], el, lattice, r_h, pitch)
+
+
+def parse_design(raw: dict, source: str = "<design>") -> Design:
+    """Validate a design given as the dictionary of a TOML file and return it in SI."""
+    if not isinstance(raw, dict):
+        raise DesignError(f"{source}: a design must be a TOML table")
+    _check_keys("", {k: v for k, v in raw.items() if not isinstance(v, dict)} | {
+        k: v for k, v in raw.items() if isinstance(v, dict)}, {**_TOP, **SCHEMA})
+    for key in SCHEMA:
+        if key in raw and not isinstance(raw[key], dict):
+            raise DesignError(f"{key} = {_fmt(raw[key])}: must be a table [{key}]")
+    for key in _TOP:
+        if key in raw and not isinstance(raw[key], str):
+            raise DesignError(f"{key} = {_fmt(raw[key])}: must be a string")
+    d = _diaphragm(raw)
+    b = _backplate(raw, d)
+    a = _section(raw, "acoustics")
+    e = _section(raw, "electrical")
+    n = _section(raw, "analysis")
+    return Design(
+        name=raw.get("name", _TOP["name"].default),
+        description=raw.get("description", ""),
+        diaphragm=d,
+        backplate=b,
+        acoustics=Acoustics(a["back_volume"], a["vent_resistance"], a["temperature"],
+                            a["static_pressure"]),
+        electrical=Electrical(e["bias_voltage"], e["bias_resistance"], e["parasitic_capacitance"],
+                              e["preamp_input_capacitance"]),
+        analysis=Analysis(n["accuracy"]),
+        raw=_freeze(raw),
+    )
+
+
+def _loads(text: str, source: str) -> dict:
+    try:
+        return tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise DesignError(f"{source}: not valid TOML ({exc})") from None
+
+
+def load_design(path: str | Path) -> Design:
+    """Read and validate a design file."""
+    p = Path(path)
+    try:
+        text = p.read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise DesignError(f"{p}: design file not found") from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise DesignError(f"{p}: cannot read design file ({exc.__class__.__name__})") from None
+    return parse_design(_loads(text, str(p)), str(p))
+
+
+def _data(name: str) -> str:
+    return (Path(__file__).parent / "data" / name).read_text(encoding="utf-8")
+
+
+def demo_text() -> str:
+    """The TOML text of the built-in demo design (an invented scenario)."""
+    return _data("demo.toml")
+
+
+def starter_text() -> str:
+    """A commented starter design for ``diagap init``."""
+    return _data("starter.toml")
+
+
+def demo_design() -> Design:
+    return parse_design(_loads(demo_text(), "<built-in demo>"), "<built-in demo>")
+
+
+def with_override(design: Design, path: str, value) -> Design:
+    """A copy of ``design`` with the key ``section.key`` set to ``value`` (validated again)."""
+    return with_overrides(design, {path: value})
+
+
+def with_overrides(design: Design, changes: dict) -> Design:
+    """A copy of ``design`` with several ``section.key`` values replaced at once (``None``
+    removes a key), validated once, so that combinations valid only together are accepted."""
+    raw = design.raw_dict()
+    for path, value in changes.items():
+        parts = path.split(".")
+        if len(parts) == 1 and parts[0] in _TOP:
+            raw[parts[0]] = value
+            continue
+        if len(parts) != 2 or parts[0] not in SCHEMA:
+            raise DesignError(f"{path}: not a design key (use section.key, sections: "
+                              f"{', '.join(SCHEMA)})")
+        section, key = parts
+        if key not in SCHEMA[section]:
+            _check_keys(section, {key: None}, SCHEMA[section])
+        table = raw.setdefault(section, {})
+        if value is None:
+            table.pop(key, None)
+        else:
+            table[key] = value
+    return parse_design(raw)

@@ -1,0 +1,190 @@
+"""The tables of report.html: the design, the results with their uncertainties, and the audit.
+
+Values are SI floats from the design and summary.json, shown in display units (µm, pF, kHz …).
+Every FE result is followed by its estimated relative discretisation error (summary.json's
+``uncertainty``; propagated to the lumped sensitivity and resonance). Audit verdicts are
+written out as words with a symbol (✓ holds, ! marginal, ✗ FAILS), so that they read without
+colour.
+"""
+from __future__ import annotations
+
+import html
+import math
+
+from diagap.table import ROWS
+from diagap.table import UNCERTAINTY_ALIAS as _UNCERTAINTY_ALIAS
+
+__all__ = ["design_table", "results_tables", "audit_table", "audit_counts", "display_unit",
+           "format_value"]
+
+# (section, key, label, scale, unit): results beyond the console table's rows
+EXTRA_ROWS = [
+    ("mechanics", "model", "plate model", 1.0, ""),
+    ("electrostatics", "rim_fringing_capacitance_f", "rim fringing capacitance", 1e12, "pF"),
+    ("electrostatics", "electrode_area_m2", "electrode area", 1e6, "mm^2"),
+    ("coupled", "pull_in_center_deflection_m", "centre deflection at pull-in", 1e9, "nm"),
+    ("coupled", "center_compliance_at_bias_m_per_pa", "centre compliance at bias", 1e9, "nm/Pa"),
+    ("coupled", "softening_factor", "electrostatic softening (compliance ratio)", 1.0, ""),
+    ("damping", "cutoff_frequency_hz", "film cut-off frequency", 1e-3, "kHz"),
+    ("damping", "gas_spring_stiffness_n_per_m", "gas-spring stiffness (sealed film)", 1.0, "N/m"),
+    ("damping", "knudsen_number", "Knudsen number (mean free path / gap)", 1.0, ""),
+    ("damping", "squeeze_number_at_resonance", "squeeze number at resonance", 1.0, ""),
+    ("response", "sensitivity_v_per_pa", "sensitivity at 1 kHz (linear)", 1e3, "mV/Pa"),
+    ("response", "lowfreq_minus3db_hz", "low-frequency −3 dB point", 1.0, "Hz"),
+    ("response", "peak_frequency_hz", "displacement peak", 1e-3, "kHz"),
+]
+SECTION_TITLES = {"mechanics": "Diaphragm mechanics (vacuum, no bias)",
+                  "electrostatics": "Air-gap electrostatics (rest gap)",
+                  "coupled": "Bias and pull-in", "damping": "Squeeze-film damping",
+                  "response": "Lumped model: response, noise, distortion"}
+_UNIT_TEXT = (("um", "µm"), ("ug", "µg"), ("^2", "²"), ("^3", "³"), ("*", "·"), ("ohm", "Ω"),
+              ("degC", "°C"))
+
+
+def display_unit(unit: str) -> str:
+    """ASCII unit text (``um^3/Pa``) in display form (``µm³/Pa``)."""
+    for a, b in _UNIT_TEXT:
+        unit = unit.replace(a, b)
+    return unit
+
+
+def format_value(v, scale: float = 1.0, digits: int = 5) -> str:
+    """A number scaled for display (lists joined, None as a dash, text escaped)."""
+    if v is None:
+        return "—"
+    if isinstance(v, bool):
+        return "yes" if v else "no"
+    if isinstance(v, str):
+        return html.escape(v)
+    if isinstance(v, (list, tuple)):
+        return ", ".join(format_value(x, scale, digits) for x in v)
+    x = float(v) * scale
+    if not math.isfinite(x):
+        return "—"
+    text = f"{x:.{digits}g}"
+    if "e" in text:
+        mantissa, exponent = text.split("e")
+        text = f"{mantissa}×10<sup>{int(exponent)}</sup>"
+    return text
+
+
+def _table(head: tuple[str, ...], rows: list[str], cls: str = "") -> str:
+    th = "".join(f"<th>{h}</th>" for h in head)
+    c = f' class="{cls}"' if cls else ""
+    return f"<table{c}><thead><tr>{th}</tr></thead><tbody>\n" + "\n".join(rows) + \
+        "\n</tbody></table>"
+
+
+def _design_rows(design) -> list[tuple[str, str, str]]:
+    d, b, a, e = design.diaphragm, design.backplate, design.acoustics, design.electrical
+    size = "radius" if d.shape == "circle" else "side"
+    rows = [
+        ("diaphragm", "shape / edge", f"{d.shape}, {d.edge}", ""),
+        ("diaphragm", size, d.size_m * 1e3, "mm"),
+        ("diaphragm", "thickness", d.thickness_m * 1e6, "µm"),
+        ("diaphragm", "material preset", d.material or "—", ""),
+        ("diaphragm", "Young's modulus", d.youngs_modulus_pa * 1e-9, "GPa"),
+        ("diaphragm", "Poisson's ratio", d.poisson_ratio, ""),
+        ("diaphragm", "density", d.density_kg_m3, "kg/m³"),
+        ("diaphragm", "residual stress (tensile +)", d.residual_stress_pa * 1e-6, "MPa"),
+        ("backplate", "gap at rest", b.gap_m * 1e6, "µm"),
+        ("backplate", "thickness", b.thickness_m * 1e6, "µm"),
+        ("backplate", f"electrode {size}", b.electrode_size_m * 1e3, "mm"),
+        ("backplate", "hole lattice", b.hole_lattice, ""),
+    ]
+    if b.perforated:
+        rows += [("backplate", "hole radius", b.hole_radius_m * 1e6, "µm"),
+                 ("backplate", "hole pitch", b.hole_pitch_m * 1e6, "µm")]
+    rows += [
+        ("acoustics", "back volume", a.back_volume_m3 * 1e9, "mm³"),
+        ("acoustics", "vent resistance", a.vent_resistance_pa_s_per_m3, "Pa·s/m³"),
+        ("acoustics", "temperature",
+         f"{a.temperature_k:.5g} K ({a.temperature_k - 273.15:.4g} °C)", ""),
+        ("acoustics", "static pressure", a.static_pressure_pa * 1e-3, "kPa"),
+        ("electrical", "bias voltage", e.bias_voltage_v, "V"),
+        ("electrical", "bias resistance", e.bias_resistance_ohm * 1e-9, "GΩ"),
+        ("electrical", "parasitic capacitance", e.parasitic_capacitance_f * 1e12, "pF"),
+        ("electrical", "preamp input capacitance", e.preamp_input_capacitance_f * 1e12, "pF"),
+        ("analysis", "accuracy", design.analysis.accuracy, ""),
+    ]
+    return rows
+
+
+def design_table(design) -> str:
+    """The design in display units (the values summary.json holds in SI)."""
+    rows = _design_rows(design)
+    out = []
+    for k, (sec, label, v, u) in enumerate(rows):
+        first = k == 0 or rows[k - 1][0] != sec
+        span = sum(1 for r in rows if r[0] == sec)
+        head = f'<th scope=row rowspan="{span}">{html.escape(sec)}</th>' if first else ""
+        out.append(f"<tr>{head}<td>{html.escape(label)}</td>"
+                   f"<td class=num>{format_value(v, digits=6)}</td><td>{u}</td></tr>")
+    return _table(("section", "quantity", "value", "unit"), out, "design")
+
+
+
+
+def _uncertainty(unc: dict, section: str, key: str) -> str:
+    u = unc.get(f"{section}.{key}", unc.get(f"{section}.{_UNCERTAINTY_ALIAS.get(key, key)}"))
+    if u is None:
+        return "—"
+    return f"±{100.0 * u:.2g} %"
+
+
+def results_tables(summary: dict) -> list[tuple[str, str]]:
+    """(section, HTML) of one table per computed section: quantity, value, unit, est. error."""
+    unc = summary.get("uncertainty", {})
+    out = []
+    for section, title in SECTION_TITLES.items():
+        sec = summary.get(section)
+        if not sec:
+            continue
+        rows = []
+        for s, key, label, scale, unit in ROWS + EXTRA_ROWS:
+            if s != section or key not in sec or sec[key] is None:
+                continue
+            cls = "text" if isinstance(sec[key], str) else "num"
+            rows.append(f"<tr><td>{html.escape(label)}</td>"
+                        f"<td class={cls}>{format_value(sec[key], scale)}</td>"
+                        f"<td>{display_unit(unit)}</td>"
+                        f"<td class=num>{_uncertainty(unc, section, key)}</td></tr>")
+        out.append((section, f'<h3 id="res-{section}">{html.escape(title)}</h3>\n' +
+                    _table(("quantity", "value", "unit", "est. rel. error"), rows, "results")))
+    return out
+
+
+_VERDICT = {"holds": ("✓ holds", False), "marginal": ("! marginal", True),
+            "fails": ("✗ FAILS", True)}
+
+
+def _verdict_cell(verdict: str) -> str:
+    text, strong = _VERDICT.get(verdict, (verdict, True))
+    body = f"<strong>{html.escape(text)}</strong>" if strong else html.escape(text)
+    return f'<td class="verdict v-{html.escape(verdict)}">{body}</td>'
+
+
+def audit_counts(rows) -> dict:
+    """Number of audit rows per verdict."""
+    out = {"holds": 0, "marginal": 0, "fails": 0}
+    for r in rows:
+        out[r.verdict] = out.get(r.verdict, 0) + 1
+    return out
+
+
+def audit_table(rows) -> str:
+    """The assumption audit: closed form vs FE, deviation, verdict, threshold, note."""
+    body = []
+    for r in rows:
+        body.append(
+            f"<tr><td>{html.escape(r.assumption)}<div class=small>"
+            f"{html.escape(display_unit(r.quantity))}</div></td>"
+            f"<td class=num>{format_value(r.simple, digits=4)}</td>"
+            f"<td class=num>{format_value(r.fe, digits=4)}</td>"
+            f"<td class=num>{r.deviation:+.3g}<div class=small>{html.escape(r.measure)}</div></td>"
+            f"{_verdict_cell(r.verdict)}"
+            f"<td class=small>holds if |dev.| ≤ {r.holds_below:g}; marginal if ≤ "
+            f"{r.marginal_below:g}; else fails</td>"
+            f"<td class=small>{html.escape(r.note)}</td></tr>")
+    return _table(("assumption (quantity)", "simple model", "FE", "deviation", "verdict",
+                   "threshold", "note"), body, "audit")

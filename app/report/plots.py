@@ -1,0 +1,119 @@
+"""The report's plots: which ones a run can make, and their rendering to PNG.
+
+Each plot is a :class:`Plot` (file stem, title, caption, drawing function). :func:`report_plots`
+lists only the plots whose data were computed: a collapsed design (bias at or above pull-in) has
+no response, noise or distortion plots, an unperforated backplate no unit-cell plot.
+:class:`RenderedPlots` draws each plot once on first use, so the PNG files and the images embedded
+in report.html are the same bytes.
+
+Figures are drawn on matplotlib's Agg canvas without pyplot (no global backend, nothing left
+open). Lines are black or grey with distinct dash patterns and markers, so the plots stay
+readable in greyscale; filled maps use a colour map of monotonic lightness with black contour
+lines (negative values dashed).
+"""
+from __future__ import annotations
+
+import io
+from dataclasses import dataclass
+from typing import Callable
+
+__all__ = ["Plot", "RenderedPlots", "report_plots", "new_figure", "png_bytes", "prefixed",
+           "LINES", "MARKERS", "GREYS", "SEQUENTIAL_MAP", "DPI"]
+
+LINES = ("-", "--", ":", "-.", (0, (5, 1, 1, 1)), (0, (1, 3)))
+MARKERS = ("o", "s", "^", "D", "v", "x")
+GREYS = ("black", "0.35", "0.55", "0.2", "0.45", "0.65")
+SEQUENTIAL_MAP = "cividis"
+DPI = 100
+_PREFIXES = ((1e-15, "f"), (1e-12, "p"), (1e-9, "n"), (1e-6, "µ"), (1e-3, "m"), (1.0, ""),
+             (1e3, "k"), (1e6, "M"), (1e9, "G"))
+
+
+@dataclass(frozen=True)
+class Plot:
+    """One report plot: ``plots/<name>.png``."""
+
+    name: str
+    section: str  # the summary section it illustrates
+    title: str
+    caption: str
+    draw: Callable[[], object]  # -> matplotlib.figure.Figure
+
+
+def prefixed(largest: float, unit: str) -> tuple[float, str]:
+    """(factor, unit label) of the SI prefix that shows ``largest`` (in ``unit``) as 1 … 1000.
+
+    ``prefixed(4e-6, "m")`` → ``(1e6, "µm")``: multiply values by the factor to plot them.
+    """
+    import math
+
+    x = abs(float(largest))
+    if not math.isfinite(x) or x == 0.0:
+        return 1.0, unit
+    for scale, name in reversed(_PREFIXES):
+        if x >= scale * (1 - 1e-9):
+            return 1.0 / scale, name + unit
+    return 1.0 / _PREFIXES[0][0], _PREFIXES[0][1] + unit
+
+
+def new_figure(width_in: float = 7.6, height_in: float = 4.2, *, margins_in=(0.8, 0.3, 0.6, 0.3),
+               wspace: float | None = None, hspace: float | None = None, **subplots):
+    """(Figure on an Agg canvas, axes) — ``subplots`` go to ``Figure.subplots``.
+
+    ``margins_in`` = (left, right, bottom, top) in inches. Fixed margins rather than a layout
+    engine: a layout engine draws every figure twice, which doubled the plotting time.
+    """
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from matplotlib.figure import Figure
+
+    fig = Figure(figsize=(width_in, height_in))
+    FigureCanvasAgg(fig)
+    left, right, bottom, top = margins_in
+    fig.subplots_adjust(left=left / width_in, right=1 - right / width_in,
+                        bottom=bottom / height_in, top=1 - top / height_in,
+                        wspace=wspace, hspace=hspace)
+    return fig, fig.subplots(**subplots)
+
+
+def png_bytes(fig, dpi: int = DPI) -> bytes:
+    """The figure as PNG bytes; the figure is cleared afterwards."""
+    buf = io.BytesIO()
+    fig.savefig(buf, format="png", dpi=dpi)
+    fig.clear()
+    return buf.getvalue()
+
+
+class RenderedPlots:
+    """The PNG bytes of each plot, drawn once on first request."""
+
+    def __init__(self, plots: list[Plot]):
+        self.plots = list(plots)
+        self._png: dict[str, bytes] = {}
+
+    def png(self, name: str) -> bytes:
+        if name not in self._png:
+            plot = next(p for p in self.plots if p.name == name)
+            self._png[name] = png_bytes(plot.draw())
+        return self._png[name]
+
+    def items(self):
+        """(Plot, PNG bytes) of every plot, in report order."""
+        return [(p, self.png(p.name)) for p in self.plots]
+
+
+def report_plots(result, cell=None) -> list[Plot]:
+    """The plots ``result`` (a :class:`lumped.pipeline.RunResult`) can make, in report order.
+
+    ``cell`` is the unit-cell field (:func:`lumped.report.fields.cell_field`), or None.
+    """
+    from diagap.report.plots_electro import electro_plots
+    from diagap.report.plots_mech import mech_plots
+    from diagap.report.plots_response import response_plots
+
+    s = result.sections
+    plots: list[Plot] = []
+    if "mechanics" in s:
+        plots += mech_plots(s["mechanics"])
+    plots += electro_plots(result.design, s.get("electrostatics"), s.get("coupled"), cell)
+    plots += response_plots(result.design, s.get("damping"), s.get("response"))
+    return plots

@@ -1,0 +1,109 @@
+"""The ``diagap sweep`` subcommand (argparse parser and command). Only this module prints.
+
+Registered by :mod:`lumped.cli` with :func:`add_parser` and :func:`cmd_sweep`.
+"""
+from __future__ import annotations
+
+import argparse
+import sys
+from pathlib import Path
+
+__all__ = ["add_parser", "cmd_sweep", "VARY_HELP"]
+
+VARY_HELP = """values:
+  --vary PATH=START:STOP:N       N values spaced linearly from START to STOP (both included)
+  --vary PATH=START:STOP:N:log   N values spaced geometrically (START, STOP > 0)
+  --vary PATH=V1,V2,...          the listed values
+  PATH is a design key section.key, e.g. backplate.hole_radius. A value is a number in SI units
+  or a number with a unit, with or without a space (quote it for the shell): 2um, "2 um",
+  1e12Pa*s/m^3, 20degC. Keys with named choices take names: backplate.hole_lattice=hex,square.
+  Several --vary give the cartesian product of their values.
+
+examples:
+  diagap sweep my.toml --vary backplate.hole_radius=2um:8um:7
+  diagap sweep my.toml --vary "backplate.gap=2 um:6 um:5" --vary electrical.bias_voltage=5,10,20
+  diagap sweep my.toml --vary acoustics.vent_resistance=1e10:1e14:5:log --workers 2
+  diagap sweep my.toml --vary backplate.hole_pitch=15um,20um --scheduler tcp://10.0.0.5:8786
+
+outputs (OUT, default diagap-sweep):
+  sweep.csv      one row per point: point, point_id, status (ok | failed | collapsed), the
+                 varied inputs in SI, wall_time_s, every output, uncertainty.* (estimated
+                 relative discretisation error), error
+  sweep.jsonl    the record of every finished point (the CSV is rebuilt from it)
+  points/*.json  the full summary of each point;  plots/*.png  each output against each input
+
+resuming: run the same command again; points already finished in OUT (ok, failed or collapsed)
+are skipped, only the missing ones are computed (--retry-failed computes failed ones again).
+A point that fails (e.g. an invalid combination) is recorded with its error; the sweep goes on.
+
+exit codes:
+  0    the sweep is complete, whatever the status (ok, failed, collapsed) of single points
+  2    bad input: a --vary, design, folder or scheduler error, on one line; no files written
+  130  interrupted: the points finished so far are kept; run the same command to resume"""
+
+
+def add_parser(sub, add_common, epilog: str = "") -> argparse.ArgumentParser:
+    """Add ``sweep`` to the subparsers ``sub``; ``add_common`` adds --accuracy, --no-cache, -v."""
+    p = sub.add_parser("sweep", help="analyse a design over a grid of parameter values",
+                       description="Analyse copies of a design over the cartesian product of "
+                       "--vary values, in parallel (local processes or a Dask cluster); results "
+                       "are appended to OUT/sweep.csv as points finish, and an interrupted sweep "
+                       "resumes where it stopped.",
+                       epilog=VARY_HELP + ("\n\n" + epilog if epilog else ""),
+                       formatter_class=argparse.RawDescriptionHelpFormatter)
+    p.add_argument("design", nargs="?", help="design file (TOML); omit for the built-in demo")
+    p.add_argument("--vary", action="append", required=True, metavar="PATH=SPEC",
+                   help="a design key and its values (see below); repeat for more keys")
+    p.add_argument("-o", "--out", default="diagap-sweep",
+                   help="output folder (default: diagap-sweep)")
+    p.add_argument("--workers", type=_positive_int, metavar="N",
+                   help="local worker processes (default: the number of cores; 1: no pool)")
+    p.add_argument("--scheduler", metavar="ADDRESS",
+                   help="run the points on a Dask cluster at ADDRESS (e.g. tcp://host:8786); "
+                   "needs the diagap[cluster] extra")
+    p.add_argument("--retry-failed", action="store_true",
+                   help="compute failed points of an earlier run again")
+    p.add_argument("--no-plots", action="store_true", help="do not write OUT/plots/*.png")
+    p.add_argument("--no-progress", action="store_true", help="no progress bar on stderr")
+    add_common(p)
+    return p
+
+
+def _positive_int(text: str) -> int:
+    try:
+        n = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
+    if n < 1:
+        raise argparse.ArgumentTypeError(f"{n} must be >= 1")
+    return n
+
+
+def cmd_sweep(args) -> int:
+    """Run ``diagap sweep``; returns the exit code (2: bad input, one line on stderr)."""
+    from diagap.design import DesignError, demo_design, load_design
+    from diagap.sweep.run import run_sweep
+    from diagap.sweep.spec import SweepError, parse_vary
+
+    try:
+        design = load_design(args.design) if args.design else demo_design()
+        variations = [parse_vary(text) for text in args.vary]
+        res = run_sweep(design, variations, Path(args.out), workers=args.workers,
+                        scheduler=args.scheduler, accuracy=args.accuracy,
+                        progress=not args.no_progress, retry_failed=args.retry_failed,
+                        plots=not args.no_plots)
+    except (SweepError, DesignError) as exc:
+        print(f"diagap: error: {exc}", file=sys.stderr)
+        return 2
+    except KeyboardInterrupt:
+        print(f"diagap: interrupted; finished points are kept in {args.out}/, run the same "
+              f"command again to resume", file=sys.stderr)
+        return 130
+    c = res.counts()
+    total = len(res.records)
+    print(f"sweep: {total} points ({res.computed} computed, {res.reused} already finished): "
+          f"{c['ok']} ok, {c['failed']} failed, {c['collapsed']} collapsed")
+    print(f"results: {res.csv_path}")
+    if res.plot_files:
+        print(f"plots: {res.out_dir / 'plots'}/ ({len(res.plot_files)} files)")
+    return 0
