@@ -18,6 +18,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
+from diagap.fem.constants import P_REF_PA
 from diagap.lumped import analytic
 
 __all__ = ["AuditRow", "Audit", "audit_design", "verdict"]
@@ -73,7 +74,7 @@ def _largest_spl_deflection(design, mech, resp) -> tuple[float, float]:
     """(SPL in dB, centre deflection in m) at the largest SPL of interest: the acoustic overload
     point if computed, else 120 dB SPL."""
     spl = (resp or {}).get("aop_10pct_spl_db") or 120.0
-    p = 20e-6 * 10 ** (spl / 20.0)
+    p = P_REF_PA * 10 ** (spl / 20.0)
     return spl, p * mech["center_compliance_m_per_pa"]
 
 

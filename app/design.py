@@ -17,6 +17,7 @@ try:  # Python >= 3.11
 except ModuleNotFoundError:  # pragma: no cover
     import tomli as tomllib
 
+from diagap.fem.constants import ROOM_TEMPERATURE_K, STANDARD_PRESSURE_PA
 from diagap.lumped.buckling import critical_tension_n_per_m
 from diagap.materials import MATERIALS
 from diagap.quantities import DesignError, Field, _choice, _fmt, _quantity
@@ -58,9 +59,9 @@ SCHEMA: dict[str, dict[str, Field]] = {
         "back_volume": Field("m^3", low=0.0, required=True),
         "vent_resistance": Field("Pa*s/m^3", low=0.0, required=True),
         "temperature": Field("K", low=173.15, high=473.15, low_open=False, high_open=False,
-                             default=293.15),
+                             default=ROOM_TEMPERATURE_K),
         "static_pressure": Field("Pa", low=1e3, high=1e6, low_open=False, high_open=False,
-                                 default=101325.0),
+                                 default=STANDARD_PRESSURE_PA),
     },
     "electrical": {
         "bias_voltage": Field("V", low=0.0, required=True),

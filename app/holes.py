@@ -8,6 +8,7 @@ damping.
 """
 from __future__ import annotations
 
+from diagap.fem.constants import ROOM_TEMPERATURE_K, STANDARD_PRESSURE_PA
 from diagap.quantities import DesignError, Field, parse_quantity as _quantity
 
 __all__ = ["evaluate_holes", "holes_table"]
@@ -41,7 +42,7 @@ def evaluate_holes(gap, radius, pitch, thickness, lattice: str = "hex",
                    capacitance_loss_fraction=1.0 - cell.perforation_factor,
                    rel_error=cell.rel_error, runtime_s=out["runtime_s"] + cell.runtime_s,
                    dofs=cell.dofs)
-    air = air_properties(293.15, 101325.0)
+    air = air_properties(ROOM_TEMPERATURE_K, STANDARD_PRESSURE_PA)
     perf = perforation(lattice, r, p, t, g, air.viscosity_pa_s, air.mean_free_path_m)
     out["open_area_rule_factor"] = 1.0 - out["open_area_fraction"]
     out["hole_flow_resistance_pa_s_per_m3"] = perf.resistance_pa_s_per_m3

@@ -62,21 +62,19 @@ def _membrane(accuracy):
 
 
 def _cells(accuracy):
-    from scipy.constants import epsilon_0
-
+    from diagap.fem.constants import EPSILON_0_F_PER_M
     from diagap.fem.field.cell import cell_capacitance
 
     g = 4e-6
     r = cell_capacitance(g, 0.0, 0.0, "none", 2e-6, accuracy)
     yield ("solid gap capacitance density eps0/g", "parallel plates (CODATA eps0)",
-           r.capacitance_density_f_per_m2, epsilon_0 / g, r.rel_error, 1e-6)
+           r.capacitance_density_f_per_m2, EPSILON_0_F_PER_M / g, r.rel_error, 1e-6)
 
 
 def _pull_in(accuracy):
     import numpy as np
     import scipy.sparse as sp
-    from scipy.constants import epsilon_0
-
+    from diagap.fem.constants import EPSILON_0_F_PER_M
     from diagap.fem.coupling.branch import CouplingSystem, ElectrostaticLoad, trace_branch
 
     k, g, area = 50.0, 4e-6, 7.85e-7
@@ -84,14 +82,15 @@ def _pull_in(accuracy):
                           np.full(4, area / 4), np.array([1.0]))
     br = trace_branch(sys_, ElectrostaticLoad.parallel_plate(), g)
     yield ("rigid piston pull-in voltage", "Nathanson et al., IEEE Trans. Electron Devices, 1967",
-           br.pull_in_voltage_v, math.sqrt(8 * k * g**3 / (27 * epsilon_0 * area)), None, 1e-6)
+           br.pull_in_voltage_v, math.sqrt(8 * k * g**3 / (27 * EPSILON_0_F_PER_M * area)), None, 1e-6)
 
 
 def _damping(accuracy):
+    from diagap.fem.constants import STANDARD_PRESSURE_PA
     from diagap.fem.film.squeeze import film_impedance
 
     mu, a, g = 1.8e-5, 0.5e-3, 4e-6
-    r = film_impedance("circle", a, g, mu, 101325.0, 0.0, lambda x, y: 1.0 + 0 * x, [1.0],
+    r = film_impedance("circle", a, g, mu, STANDARD_PRESSURE_PA, 0.0, lambda x, y: 1.0 + 0 * x, [1.0],
                        accuracy)
     yield ("rigid disk squeeze-film damping 3 pi mu a^4/(2 g^3)",
            "Griffin, Richardson & Yamanami, J. Basic Eng., 1966",

@@ -18,6 +18,8 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
+from diagap.fem.validate import Checks
+
 __all__ = [
     "AirProperties",
     "AirPropertyError",
@@ -38,6 +40,9 @@ _P_RANGE_PA = (1.0e3, 1.0e6)
 
 class AirPropertyError(ValueError):
     """A temperature or pressure outside the range where the air model is used."""
+
+
+_check = Checks(AirPropertyError)
 
 
 @dataclass(frozen=True)
@@ -72,18 +77,8 @@ class AirProperties:
 
     def knudsen_number(self, length_m: float) -> float:
         """Kn = λ / length (1) for a characteristic length in metres (e.g. the gap)."""
-        if not length_m > 0:
-            raise AirPropertyError(f"length_m = {length_m!r} must be > 0")
+        _check.positive("length_m", length_m)
         return self.mean_free_path_m / length_m
-
-
-def _check(name: str, value: float, bounds: tuple[float, float], unit: str) -> float:
-    value = float(value)
-    lo, hi = bounds
-    if not (lo <= value <= hi):
-        raise AirPropertyError(f"{name} = {value:g} {unit} is outside the allowed range "
-                               f"[{lo:g}, {hi:g}] {unit}")
-    return value
 
 
 def sutherland_viscosity(temperature_k: float) -> float:
@@ -111,8 +106,8 @@ def air_properties(temperature_k: float, static_pressure_pa: float) -> AirProper
     AirPropertyError
         If an input lies outside its range (the message names the field, value and range).
     """
-    t = _check("temperature_k", temperature_k, _T_RANGE_K, "K")
-    p = _check("static_pressure_pa", static_pressure_pa, _P_RANGE_PA, "Pa")
+    t = _check.in_range("temperature_k", temperature_k, *_T_RANGE_K, unit="K")
+    p = _check.in_range("static_pressure_pa", static_pressure_pa, *_P_RANGE_PA, unit="Pa")
     r = R_SPECIFIC_J_PER_KG_K
     mu = sutherland_viscosity(t)
     return AirProperties(

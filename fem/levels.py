@@ -3,6 +3,7 @@
 Every accuracy setting solves the diaphragm on a sequence of meshes of one family, sizes
 h_center, h_edge (scaled units: radius or half-side) multiplied by ``RATIO`` from one level to the
 next (coarsest first). The error of the finest level is estimated by Richardson's formula
+(:mod:`diagap.fem.richardson`)
 
     e_fine ≈ |Q_fine − Q_coarse| / (r^p − 1),
 
@@ -22,6 +23,9 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+
+from diagap.fem.richardson import relative_error
+from diagap.fem.validate import Checks
 
 __all__ = ["MeshSize", "ACCURACIES", "AccuracyError", "mesh_sizes", "richardson", "RATIO",
            "ORDER", "NOISE_FLOOR"]
@@ -73,8 +77,7 @@ def mesh_sizes(shape: str, accuracy: str, layer_width: float | None = None) -> l
     accuracy : "draft" | "normal" | "fine"
     layer_width : ℓ/L, the tension boundary-layer width in scaled units (None: no layer)
     """
-    if accuracy not in ACCURACIES:
-        raise AccuracyError(f"accuracy: got {accuracy!r}, allowed {ACCURACIES}")
+    Checks(AccuracyError).choice("accuracy", accuracy, ACCURACIES)
     finest, count, cells = _FINEST[shape][accuracy]
     if layer_width is not None and layer_width / cells < finest.h_edge:
         h_edge = layer_width / cells
@@ -84,7 +87,6 @@ def mesh_sizes(shape: str, accuracy: str, layer_width: float | None = None) -> l
 
 def richardson(coarse: np.ndarray, fine: np.ndarray, order: float,
                ratio: float = RATIO) -> np.ndarray:
-    """Relative error estimate of the fine-level values (elementwise)."""
-    coarse, fine = np.asarray(coarse, dtype=float), np.asarray(fine, dtype=float)
-    est = np.abs(fine - coarse) / (ratio**order - 1.0)
-    return est / np.abs(fine) + NOISE_FLOOR
+    """Relative error estimate of the fine-level values (elementwise), with the diaphragm mesh
+    family's ratio and noise floor: :func:`diagap.fem.richardson.relative_error`."""
+    return np.asarray(relative_error(coarse, fine, order, ratio, floor=NOISE_FLOOR))

@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import math
 
-from scipy.constants import epsilon_0
+from diagap.fem.constants import EPSILON_0_F_PER_M
 
 __all__ = [
     "parallel_plate_capacitance", "open_area_capacitance", "piston_pull_in_voltage",
@@ -24,24 +24,24 @@ MEMBRANE_PULL_IN_PARAMETER = 0.789
 
 def parallel_plate_capacitance(area_m2: float, gap_m: float) -> float:
     """C = ε0 A / g (ideal parallel plates, no fringing)."""
-    return epsilon_0 * area_m2 / gap_m
+    return EPSILON_0_F_PER_M * area_m2 / gap_m
 
 
 def open_area_capacitance(area_m2: float, gap_m: float, open_fraction: float) -> float:
     """The open-area rule of thumb C = ε0 A (1 − open fraction) / g (common practice)."""
-    return epsilon_0 * area_m2 * (1.0 - open_fraction) / gap_m
+    return EPSILON_0_F_PER_M * area_m2 * (1.0 - open_fraction) / gap_m
 
 
 def piston_pull_in_voltage(stiffness_n_per_m: float, gap_m: float, area_m2: float) -> float:
     """V_PI = √(8 k g³ / (27 ε0 A)); pull-in at x = g/3 (Nathanson et al., IEEE Trans. Electron
     Devices 14, 1967; Senturia, *Microsystem Design*, 2001, ch. 6)."""
-    return math.sqrt(8.0 * stiffness_n_per_m * gap_m**3 / (27.0 * epsilon_0 * area_m2))
+    return math.sqrt(8.0 * stiffness_n_per_m * gap_m**3 / (27.0 * EPSILON_0_F_PER_M * area_m2))
 
 
 def membrane_pull_in_voltage(radius_m: float, tension_n_per_m: float, gap_m: float) -> float:
     """V_PI of a clamped circular membrane with a full electrode: λ* = ε0V²a²/(2Tg³) = 0.789."""
     return math.sqrt(2.0 * MEMBRANE_PULL_IN_PARAMETER * tension_n_per_m * gap_m**3
-                     / (epsilon_0 * radius_m**2))
+                     / (EPSILON_0_F_PER_M * radius_m**2))
 
 
 def plate_center_compliance(shape: str, edge: str, size_m: float, bending_stiffness: float,

@@ -41,13 +41,13 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy.integrate import solve_ivp
 
+from diagap.fem.constants import P_REF_PA
 from diagap.lumped.circuit import NonlinearTransducer, solve_circuit
 from diagap.lumped.model import CapacitanceCurve, LumpedModel, LumpedModelError
 
 __all__ = ["HarmonicSolution", "DistortionResult", "ConvergenceError", "harmonic_balance",
            "thd_time_domain", "distortion_vs_spl", "spl_to_pressure_amplitude"]
 
-P_REF_PA = 20e-6  # 0 dB SPL (ISO/IEC acoustics convention)
 
 
 class ConvergenceError(ArithmeticError):

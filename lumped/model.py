@@ -30,9 +30,10 @@ from dataclasses import dataclass, replace
 from typing import Callable
 
 import numpy as np
-from scipy.constants import epsilon_0
 from scipy.interpolate import CubicSpline
 from scipy.optimize import brentq
+
+from diagap.fem.constants import EPSILON_0_F_PER_M, STANDARD_PRESSURE_PA
 
 __all__ = [
     "LumpedModelError",
@@ -199,7 +200,7 @@ class LumpedModel:
     bias_displacement_m: float = 0.0
     air_density_kg_m3: float = 1.204
     sound_speed_m_s: float = 343.2
-    static_pressure_pa: float = 101325.0
+    static_pressure_pa: float = STANDARD_PRESSURE_PA
     gamma: float = 1.4
     temperature_k: float = 293.15
 
@@ -317,7 +318,7 @@ def parallel_plate_piston(*, area_m2: float, gap_m: float, mass_kg: float,
     k_e = V²ε0A/(g − x_b)³ (Senturia, *Microsystem Design*, 2001 [from memory]).  The curve is
     sampled on x ∈ [−g/3, g/3].  Remaining keywords (air properties, temperature) pass through.
     """
-    eps_a = epsilon_0 * area_m2
+    eps_a = EPSILON_0_F_PER_M * area_m2
     xb = _bias_deflection(stiffness_n_per_m, eps_a, gap_m, bias_voltage_v) \
         if include_bias_deflection else 0.0
     d = gap_m - xb

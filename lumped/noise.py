@@ -27,13 +27,12 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.integrate import simpson
 
+from diagap.fem.constants import BOLTZMANN_J_PER_K, P_REF_PA
 from diagap.lumped.weighting import AUDIO_BAND_HZ, a_weighting_gain
 
-__all__ = ["BOLTZMANN_J_PER_K", "P_REF_PA", "NoiseError", "ThermalNoise", "a_weighted_level_db",
+__all__ = ["NoiseError", "ThermalNoise", "a_weighted_level_db",
            "mechanical_thermal_noise", "spl_db"]
 
-BOLTZMANN_J_PER_K = 1.380649e-23
-P_REF_PA = 20e-6
 _N_GRID = 801
 
 

@@ -30,9 +30,9 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.constants import k as k_boltzmann
 from scipy.optimize import brentq, minimize_scalar
 
+from diagap.fem.constants import BOLTZMANN_J_PER_K
 from diagap.lumped.circuit import CircuitSolution, solve_circuit
 from diagap.lumped.model import LumpedModel
 
@@ -198,7 +198,7 @@ def output_noise_psd_resistor(model: LumpedModel, freqs_hz) -> np.ndarray:
     """Output voltage PSD (V²/Hz) of the bias resistor's thermal noise 4k_BT·R_bias."""
     sol = _solution(model, freqs_hz)
     h = sol.output_voltage(resistor_voltage_v=1.0)
-    return 4.0 * k_boltzmann * model.temperature_k * model.bias_resistance_ohm * np.abs(h) ** 2
+    return 4.0 * BOLTZMANN_J_PER_K * model.temperature_k * model.bias_resistance_ohm * np.abs(h) ** 2
 
 
 def output_noise_psd_damping(model: LumpedModel, freqs_hz) -> np.ndarray:
@@ -206,14 +206,14 @@ def output_noise_psd_damping(model: LumpedModel, freqs_hz) -> np.ndarray:
     sol = _solution(model, freqs_hz)
     b, _ = model.film(sol.frequency_hz)
     h = sol.output_voltage(force_n=1.0)
-    return 4.0 * k_boltzmann * model.temperature_k * b * np.abs(h) ** 2
+    return 4.0 * BOLTZMANN_J_PER_K * model.temperature_k * b * np.abs(h) ** 2
 
 
 def output_noise_psd_vent(model: LumpedModel, freqs_hz) -> np.ndarray:
     """Output voltage PSD (V²/Hz) of the vent's pressure noise 4k_BT·R_v."""
     sol = _solution(model, freqs_hz)
     h = sol.output_voltage(vent_pressure_pa=1.0)
-    return (4.0 * k_boltzmann * model.temperature_k * model.vent_resistance_pa_s_per_m3
+    return (4.0 * BOLTZMANN_J_PER_K * model.temperature_k * model.vent_resistance_pa_s_per_m3
             * np.abs(h) ** 2)
 
 

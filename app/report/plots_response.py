@@ -17,13 +17,13 @@ import math
 
 import numpy as np
 
+from diagap.fem.constants import P_REF_PA
 from diagap.report.plots import GREYS, LINES, MARKERS, Plot, new_figure, prefixed
 
 __all__ = ["response_plots", "draw_squeeze", "draw_response", "draw_noise", "draw_thd"]
 
 _NOISE_LABELS = {"mechanical_thermal": "mechanical-thermal (film damping)",
                  "bias_resistor": "bias resistor", "vent": "vent (leak) resistance"}
-_P_REF = 20e-6
 
 
 def _hz(f: float) -> str:
@@ -101,7 +101,7 @@ def _db_axis(ax):
     """
     lo, hi = ax.get_ylim()
     right = ax.twinx()
-    right.set_ylim(20 * np.log10(lo / _P_REF), 20 * np.log10(hi / _P_REF))
+    right.set_ylim(20 * np.log10(lo / P_REF_PA), 20 * np.log10(hi / P_REF_PA))
     right.set_ylabel("dB SPL in a 1 Hz band")
 
 

@@ -80,9 +80,9 @@ class ElectrostaticLoad:
 
     @staticmethod
     def parallel_plate() -> "ElectrostaticLoad":
-        from scipy.constants import epsilon_0
+        from diagap.fem.constants import EPSILON_0_F_PER_M as eps0
 
-        return ElectrostaticLoad(lambda g: epsilon_0 / g**2, lambda g: -2.0 * epsilon_0 / g**3)
+        return ElectrostaticLoad(lambda g: eps0 / g**2, lambda g: -2.0 * eps0 / g**3)
 
 
 @dataclass(frozen=True)

@@ -120,13 +120,6 @@ def _level(plate, shape, electrode_size_m, gap_m, load, bias_v):
     return out
 
 
-def _estimate(fine: float, coarse: float, ratio: float, order: float) -> float:
-    """Relative error estimate of ``fine`` from two levels with h ratio ``ratio`` (>1)."""
-    if fine == 0:
-        return 0.0
-    return abs(fine - coarse) / (ratio**order - 1.0) / abs(fine)
-
-
 #: mesh family used for the coupling at each accuracy setting: global coupled quantities converge
 #: like the plate's global quantities (error ~3e-4 on the draft family, ~8e-5 on normal for the
 #: demo), so the coupled solve runs one family coarser than the linear mechanics.
@@ -159,6 +152,7 @@ def solve_coupled(problem, accuracy: str, electrode_size_m: float, gap_m: float,
     finest level's; the error estimates compare the two finest levels (Richardson with order 2,
     the disk's boundary order, plus a floor of 2e-5)."""
     from diagap.fem.levels import NOISE_FLOOR
+    from diagap.fem.richardson import relative_error
 
     plates, ratio = plate_levels(problem, COUPLING_MESHES.get(accuracy, accuracy), electrode_size_m)
     load = load_from_density(density, gap_m)
@@ -168,7 +162,7 @@ def solve_coupled(problem, accuracy: str, electrode_size_m: float, gap_m: float,
     collapsed = "w_b" not in fine
 
     def est(key):
-        return _estimate(fine[key], coarse[key], ratio, 2.0) + NOISE_FLOOR
+        return relative_error(coarse[key], fine[key], 2.0, ratio, floor=NOISE_FLOOR)
 
     unc = {"pull_in_voltage_v": est("v_pi"), "pull_in_center_deflection_m": est("w_pi")}
     if not collapsed and "w_b" in coarse:

@@ -37,15 +37,17 @@ import time
 from dataclasses import dataclass, field as dc_field
 
 import numpy as np
-from scipy.constants import epsilon_0
-from skfem import Basis, BilinearForm, ElementTetP1, ElementTetP2, ElementTriP1, ElementTriP2
+from skfem import Basis, ElementTetP1, ElementTetP2, ElementTriP1, ElementTriP2
 from skfem import condense, solve
-from skfem.helpers import dot, grad
 
 from diagap.meshes.cell import CellGeometry, MeshSizes, axisymmetric_cell_mesh, prism_cell_mesh
 
+from diagap.fem.constants import EPSILON_0_F_PER_M
+from diagap.fem.forms import laplace, laplace_axisymmetric
+from diagap.fem.richardson import relative_error
+from diagap.fem.validate import Checks
+
 __all__ = [
-    "EPS0",
     "ElectrostaticsInputError",
     "CellResult",
     "cell_capacitance",
@@ -55,7 +57,6 @@ __all__ = [
     "solve_potential",
 ]
 
-EPS0 = epsilon_0  # F/m, CODATA 2018 via scipy.constants
 LATTICES = ("hex", "square", "none")
 ACCURACIES = ("draft", "normal", "fine")
 MODELS = ("axisymmetric", "3d")
@@ -71,35 +72,12 @@ class ElectrostaticsInputError(ValueError):
     """An input of the air-gap electrostatics is outside its allowed range."""
 
 
-@BilinearForm
-def laplace_axisymmetric(u, v, w):
-    """∫ ∇u·∇v 2πr dr dz (x = r, y = z)."""
-    return dot(grad(u), grad(v)) * (2.0 * np.pi) * w.x[0]
-
-
-@BilinearForm
-def laplace(u, v, w):
-    """∫ ∇u·∇v dV (plane 2D per unit length, or 3D)."""
-    return dot(grad(u), grad(v))
-
-
-def _require(ok: bool, message: str) -> None:
-    if not ok:
-        raise ElectrostaticsInputError(message)
-
-
-def _positive(name: str, value: float) -> None:
-    _require(isinstance(value, (int, float, np.floating)) and math.isfinite(value) and value > 0,
-             f"{name} = {value!r} must be a positive finite number")
-
-
-def _choice(name: str, value: str, allowed: tuple) -> None:
-    _require(value in allowed, f"{name} = {value!r} must be one of {', '.join(allowed)}")
+_check = Checks(ElectrostaticsInputError)
 
 
 def cell_area_m2(pitch_m: float, lattice: str) -> float:
     """Area of one lattice cell: (√3/2)p² (hex), p² (square)."""
-    _choice("lattice", lattice, ("hex", "square"))
+    _check.choice("lattice", lattice, ("hex", "square"))
     return (math.sqrt(3.0) / 2.0 if lattice == "hex" else 1.0) * pitch_m**2
 
 
@@ -113,17 +91,17 @@ def open_area_fraction(hole_radius_m: float, pitch_m: float, lattice: str) -> fl
 def check_cell_inputs(gap_m, hole_radius_m, pitch_m, lattice, backplate_thickness_m,
                       accuracy="normal", model="axisymmetric") -> None:
     """Raise :class:`ElectrostaticsInputError` naming the first invalid cell input."""
-    _choice("lattice", lattice, LATTICES)
-    _choice("accuracy", accuracy, ACCURACIES)
-    _choice("model", model, MODELS)
-    _positive("gap_m", gap_m)
-    _positive("backplate_thickness_m", backplate_thickness_m)
+    _check.choice("lattice", lattice, LATTICES)
+    _check.choice("accuracy", accuracy, ACCURACIES)
+    _check.choice("model", model, MODELS)
+    _check.positive("gap_m", gap_m)
+    _check.positive("backplate_thickness_m", backplate_thickness_m)
     if lattice == "none":
-        _require(model == "axisymmetric", "model = '3d' needs a hole lattice (hex or square)")
+        _check.require(model == "axisymmetric", "model = '3d' needs a hole lattice (hex or square)")
         return
-    _positive("hole_radius_m", hole_radius_m)
-    _positive("pitch_m", pitch_m)
-    _require(hole_radius_m < 0.5 * pitch_m,
+    _check.positive("hole_radius_m", hole_radius_m)
+    _check.positive("pitch_m", pitch_m)
+    _check.require(hole_radius_m < 0.5 * pitch_m,
              f"hole_radius_m = {hole_radius_m!r} must be below pitch_m/2 = {0.5 * pitch_m!r} "
              f"(larger holes touch their neighbours)")
 
@@ -288,12 +266,6 @@ def _solve_level(geo, lattice, s, model):
     return solve_potential(mesh, ElementTetP2(), potentials, "plane", iterative=True)
 
 
-def richardson_error(coarse: float, fine: float, ratio: float = 2.0,
-                     order: float = CORNER_ORDER) -> float:
-    """Relative error estimate of ``fine`` from two levels: |f − c| / ((ratio^order − 1)·|f|)."""
-    return abs(fine - coarse) / ((ratio**order - 1.0) * abs(fine))
-
-
 def cell_capacitance(gap_m: float, hole_radius_m: float, pitch_m: float, lattice: str,
                      backplate_thickness_m: float, accuracy: str = "normal",
                      model: str = "axisymmetric", air_height_m: float | None = None,
@@ -327,9 +299,9 @@ def cell_capacitance(gap_m: float, hole_radius_m: float, pitch_m: float, lattice
     check_cell_inputs(gap_m, hole_radius_m, pitch_m, lattice, backplate_thickness_m, accuracy,
                       model)
     if air_height_m is not None:
-        _positive("air_height_m", air_height_m)
+        _check.positive("air_height_m", air_height_m)
     if mesh_scale is not None:
-        _positive("mesh_scale", mesh_scale)
+        _check.positive("mesh_scale", mesh_scale)
     start = time.perf_counter()
     geo, area = _scaled_cell(gap_m, hole_radius_m, pitch_m, lattice, backplate_thickness_m,
                              air_height_m, model)
@@ -342,10 +314,10 @@ def cell_capacitance(gap_m: float, hole_radius_m: float, pitch_m: float, lattice
         levels.append((int(basis.N), energy / area))
         solution = (basis, u)
     pf = levels[-1][1]
-    rel = richardson_error(levels[0][1], pf)
+    rel = relative_error(levels[0][1], pf, CORNER_ORDER)
     _log.debug("cell %s %s g=%.3g m: levels %s", model, lattice, gap_m, levels)
     return CellResult(
-        capacitance_density_f_per_m2=EPS0 / gap_m * pf, rel_error=rel, perforation_factor=pf,
+        capacitance_density_f_per_m2=EPSILON_0_F_PER_M / gap_m * pf, rel_error=rel, perforation_factor=pf,
         open_area_fraction=open_area_fraction(hole_radius_m, pitch_m, lattice),
         dofs=levels[-1][0], gap_m=gap_m,
         cell_area_m2=float("nan") if lattice == "none" else cell_area_m2(pitch_m, lattice),
@@ -373,7 +345,7 @@ def lattice_summary(gap_m: float, hole_radius_m: float, pitch_m: float, lattice:
         "perforation_factor": res.perforation_factor,
         "open_area_fraction": res.open_area_fraction,
         "capacitance_density_f_per_m2": res.capacitance_density_f_per_m2,
-        "parallel_plate_density_f_per_m2": EPS0 / gap_m,
+        "parallel_plate_density_f_per_m2": EPSILON_0_F_PER_M / gap_m,
         "capacitance_loss_fraction": 1.0 - res.perforation_factor,
         "rel_error": res.rel_error,
         "hole_density_per_m2": 0.0 if lattice == "none" else 1.0 / res.cell_area_m2,

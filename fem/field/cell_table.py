@@ -22,7 +22,8 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.interpolate import CubicSpline
 
-from diagap.fem.field.cell import EPS0, ElectrostaticsInputError, cell_capacitance, check_cell_inputs
+from diagap.fem.constants import EPSILON_0_F_PER_M
+from diagap.fem.field.cell import ElectrostaticsInputError, cell_capacitance, check_cell_inputs
 
 __all__ = ["CapacitanceDensity", "capacitance_density_table"]
 
@@ -89,7 +90,7 @@ class CapacitanceDensity:
     def __call__(self, gap_m):
         """c(g) [F/m²] (scalar or array of gaps [m])."""
         g = np.asarray(gap_m, dtype=float)
-        return EPS0 * self.perforation_factor(g) / g
+        return EPSILON_0_F_PER_M * self.perforation_factor(g) / g
 
     def _scaled(self, gap_m):
         g = np.asarray(gap_m, dtype=float)
@@ -107,7 +108,7 @@ class CapacitanceDensity:
         """
         g, gh = self._scaled(gap_m)
         A, _, k1, k2 = self.coefficients
-        return self._shape(EPS0 / self.gap_mid_m**2 * (-A / gh**2 + k1 / gh + k2), g)
+        return self._shape(EPSILON_0_F_PER_M / self.gap_mid_m**2 * (-A / gh**2 + k1 / gh + k2), g)
 
     def slope(self, gap_m):
         """dc/dg [F/m³]; same as :meth:`derivative`."""
@@ -117,15 +118,15 @@ class CapacitanceDensity:
         """d²c/dg² [F/m⁴] = (ε0/g_mid³)(2A/ĝ³ − k1/ĝ²)."""
         g, gh = self._scaled(gap_m)
         A, _, k1, _ = self.coefficients
-        return self._shape(EPS0 / self.gap_mid_m**3 * (2 * A / gh**3 - k1 / gh**2), g)
+        return self._shape(EPSILON_0_F_PER_M / self.gap_mid_m**3 * (2 * A / gh**3 - k1 / gh**2), g)
 
     def spline_derivative(self, gap_m):
         """dc/dg [F/m³] from a cubic spline of P(g) through the samples (cross-check)."""
         g = np.asarray(gap_m, dtype=float)
         self._check(g)
-        P = self.density_f_per_m2 * self.gaps_m / EPS0
+        P = self.density_f_per_m2 * self.gaps_m / EPSILON_0_F_PER_M
         sp = CubicSpline(self.gaps_m, P)
-        return EPS0 * (sp(g, 1) / g - sp(g) / g**2)
+        return EPSILON_0_F_PER_M * (sp(g, 1) / g - sp(g) / g**2)
 
 
 def _chebyshev_gaps(g0: float, g1: float, n: int) -> np.ndarray:
@@ -179,7 +180,7 @@ def capacitance_density_table(gap_min_m: float, gap_max_m: float, hole_radius_m:
     gaps = _chebyshev_gaps(gap_min_m, gap_max_m, _SAMPLES[accuracy])
     c, errs, open_area = _samples(gaps, hole_radius_m, pitch_m, lattice, backplate_thickness_m,
                                   accuracy, air_height_m)
-    P = c * gaps / EPS0
+    P = c * gaps / EPSILON_0_F_PER_M
     g_mid = float(np.sqrt(gap_min_m * gap_max_m))
     M = _basis(gaps / g_mid)
     coef, *_ = np.linalg.lstsq(M / P[:, None], np.ones_like(P), rcond=None)

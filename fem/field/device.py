@@ -27,9 +27,13 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from diagap.fem.field.cell import EPS0, ElectrostaticsInputError
+from diagap.fem.constants import EPSILON_0_F_PER_M
+from diagap.fem.field.cell import ElectrostaticsInputError
+from diagap.fem.validate import Checks
 
 __all__ = ["DeviceCapacitance", "device_capacitance"]
+
+_check = Checks(ElectrostaticsInputError)
 
 _CURVE_POINTS = 41
 
@@ -118,7 +122,7 @@ def _evaluate(w, phi, c_density, gap, rim, phi_rim, x):
     return C.reshape(np.shape(x)), dC.reshape(np.shape(x))
 
 
-def _check(w, phi, gap, c_density, x, phi_rim) -> None:
+def _check_inputs(w, phi, gap, c_density, x, phi_rim) -> None:
     if w.ndim != 1 or w.shape != phi.shape or w.size == 0:
         raise ElectrostaticsInputError(
             f"weights_m2 and phi must be 1-D arrays of equal length, got shapes {w.shape} and "
@@ -127,8 +131,7 @@ def _check(w, phi, gap, c_density, x, phi_rim) -> None:
         raise ElectrostaticsInputError("weights_m2 must be finite and positive (m²)")
     if not np.all(np.isfinite(phi)):
         raise ElectrostaticsInputError("phi must be finite")
-    if not (np.isfinite(gap) and gap > 0):
-        raise ElectrostaticsInputError(f"rest_gap_m = {gap!r} must be a positive finite number")
+    _check.positive("rest_gap_m", gap)
     x_lim = gap / max(float(np.max(np.abs(phi))), abs(phi_rim), 1e-300)
     if not (np.all(np.isfinite(x)) and np.all(np.abs(x) < x_lim)):
         raise ElectrostaticsInputError(
@@ -169,7 +172,7 @@ def device_capacitance(weights_m2, phi, c_density, rest_gap_m: float, rim=None,
     x = (np.linspace(-gap / 3, gap / 3, _CURVE_POINTS) if x_values_m is None
          else np.asarray(x_values_m, dtype=float).ravel())
     prim = float(np.min(ph)) if phi_rim is None else float(phi_rim)
-    _check(w, ph, gap, c_density, x, prim)
+    _check_inputs(w, ph, gap, c_density, x, prim)
     model = (w, ph, c_density, gap, rim, prim)
     C, dC = _evaluate(*model, x)
     C0, S0 = _evaluate(*model, 0.0)
@@ -187,9 +190,9 @@ def device_capacitance(weights_m2, phi, c_density, rest_gap_m: float, rim=None,
     slope_err = c_rel * abs(S0) + spline_dev + rim_slope_err
     return DeviceCapacitance(
         rest_capacitance_f=C0, capacitance_slope_f_per_m=S0,
-        parallel_plate_capacitance_f=EPS0 * area / gap, rim_fringing_capacitance_f=rim_c,
+        parallel_plate_capacitance_f=EPSILON_0_F_PER_M * area / gap, rim_fringing_capacitance_f=rim_c,
         x_m=x, capacitance_f=np.asarray(C), rest_gap_m=gap, electrode_area_m2=area,
-        perforation_factor=float(c_density(gap) * gap / EPS0),
+        perforation_factor=float(c_density(gap) * gap / EPSILON_0_F_PER_M),
         open_area_fraction=float(getattr(c_density, "open_area_fraction", 0.0)),
         rel_error=(c_rel * area_part + rim_err) / C0, slope_rel_error=slope_err / abs(S0),
         fit_error=float(getattr(c_density, "fit_error", 0.0)), _model=model)

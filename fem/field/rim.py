@@ -42,11 +42,14 @@ from skfem import Basis, ElementTriP2
 from diagap.meshes.cell import MeshSizes
 from diagap.meshes.rim import PairGeometry, electrode_pair_mesh
 
-from diagap.fem.field.cell import (EPS0, ElectrostaticsInputError, _choice, _positive, _require,
-                            laplace, laplace_axisymmetric, richardson_error, solve_potential)
+from diagap.fem.constants import EPSILON_0_F_PER_M
+from diagap.fem.field.cell import CORNER_ORDER, ElectrostaticsInputError, solve_potential
+from diagap.fem.richardson import relative_error, richardson_error
+from diagap.fem.validate import Checks
 
 __all__ = ["RimResult", "rim_fringing", "pair_capacitance"]
 
+_check = Checks(ElectrostaticsInputError)
 _LEVELS = {"draft": (4.0, 2.0), "normal": (2.0, 1.0), "fine": (1.0, 0.5)}
 _OUTER = 50.0
 _SAMPLES = 5
@@ -177,23 +180,23 @@ def _extra(energy: float, geo: PairGeometry, g: float, circle: bool) -> float:
     """C_rim [F] (circle) or per unit length [F/m] (square) from the scaled energy."""
     overlap = min(geo.lower_radius, geo.upper_radius)
     if circle:
-        return EPS0 * g * (energy - math.pi * overlap**2)
-    return EPS0 * (energy - overlap)
+        return EPSILON_0_F_PER_M * g * (energy - math.pi * overlap**2)
+    return EPSILON_0_F_PER_M * (energy - overlap)
 
 
 def _check_inputs(re, rd, g, t, shape, rb, eps_r, accuracy, span) -> None:
-    _choice("shape", shape, ("circle", "square"))
-    _choice("accuracy", accuracy, tuple(_LEVELS))
+    _check.choice("shape", shape, ("circle", "square"))
+    _check.choice("accuracy", accuracy, tuple(_LEVELS))
     for name, value in (("electrode_radius_m", re), ("diaphragm_radius_m", rd), ("gap_m", g),
                         ("backplate_relative_permittivity", eps_r)):
-        _positive(name, value)
-    _require(t >= 0 and math.isfinite(t),
+        _check.positive(name, value)
+    _check.require(t >= 0 and math.isfinite(t),
              f"backplate_thickness_m = {t!r} must be a finite number >= 0")
-    _require(rb >= re, f"backplate_radius_m = {rb!r} must be >= electrode_radius_m = {re!r}")
-    _require(rb == re or t > 0, "backplate_radius_m beyond the electrode needs a backplate "
+    _check.require(rb >= re, f"backplate_radius_m = {rb!r} must be >= electrode_radius_m = {re!r}")
+    _check.require(rb == re or t > 0, "backplate_radius_m beyond the electrode needs a backplate "
              "thickness > 0")
-    _require(0 < span < 0.9, f"gap_span = {span!r} must lie in (0, 0.9)")
-    _require(min(re, rd) > 2 * g, f"electrode_radius_m = {re!r} and diaphragm_radius_m = {rd!r}"
+    _check.require(0 < span < 0.9, f"gap_span = {span!r} must lie in (0, 0.9)")
+    _check.require(min(re, rd) > 2 * g, f"electrode_radius_m = {re!r} and diaphragm_radius_m = {rd!r}"
              f" must exceed twice the gap ({2 * g!r} m) for a rim model")
 
 
@@ -243,7 +246,7 @@ def rim_fringing(electrode_radius_m: float, diaphragm_radius_m: float, gap_m: fl
     small = rim_fringing_direct(re_s, re_s + overhang(over_d), gap_m, backplate_thickness_m,
                                 backplate_radius_m=ring, **kw)
     perimeter = small.perimeter_m / f
-    extra = EPS0 / (2 * math.pi) * math.log(1.0 / f) * perimeter
+    extra = EPSILON_0_F_PER_M / (2 * math.pi) * math.log(1.0 / f) * perimeter
     coef = np.array(small.coefficients, dtype=float) / f
     coef[0] += extra
     c_rest = small.capacitance_f / f + extra
@@ -303,9 +306,9 @@ def rim_fringing_direct(electrode_radius_m: float, diaphragm_radius_m: float, ga
     order = 3.0 if circle else 2.0
     perimeter = 2 * math.pi * electrode_radius_m if circle else 8 * electrode_radius_m
     to_total = 1.0 if circle else perimeter
-    mesh_err = richardson_error(e_c, e_f) * e_f
-    trunc_err = abs(e_c - e_h) / (2.0**order - 1.0)
-    scale = EPS0 * (gap_m if circle else 1.0) * to_total
+    mesh_err = relative_error(e_c, e_f, CORNER_ORDER) * e_f
+    trunc_err = richardson_error(e_h, e_c, order)  # outer radius halved: ratio 2
+    scale = EPSILON_0_F_PER_M * (gap_m if circle else 1.0) * to_total
     gaps = gap_m * np.linspace(1 - gap_span, 1 + gap_span, _SAMPLES)
     samples = []
     for g in gaps:
@@ -321,7 +324,7 @@ def rim_fringing_direct(electrode_radius_m: float, diaphragm_radius_m: float, ga
     coef, *_ = np.linalg.lstsq(M, samples, rcond=None)
     c_rest = float(_extra(e_f, geo, gap_m, circle) * to_total)
     fit_abs = float(np.max(np.abs(M @ coef - samples)))
-    parallel = EPS0 * (math.pi if circle else 4.0) * min(args) ** 2 / gap_m
+    parallel = EPSILON_0_F_PER_M * (math.pi if circle else 4.0) * min(args) ** 2 / gap_m
     return RimResult(
         capacitance_f=c_rest, abs_error_f=scale * (mesh_err + trunc_err) + fit_abs,
         pair_capacitance_f=parallel + c_rest, parallel_plate_capacitance_f=parallel,

@@ -33,6 +33,8 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
+from diagap.fem.validate import Checks
+
 __all__ = [
     "LATTICES",
     "Perforation",
@@ -55,12 +57,8 @@ class PerforationError(ValueError):
     """Invalid perforation or film parameters."""
 
 
-def _positive(name: str, value: float, allow_zero: bool = False) -> float:
-    value = float(value)
-    ok = value >= 0 if allow_zero else value > 0
-    if not (ok and math.isfinite(value)):
-        raise PerforationError(f"{name} = {value!r} must be {'>= 0' if allow_zero else '> 0'}")
-    return value
+_check = Checks(PerforationError)
+_positive = _check.positive
 
 
 def rarefaction_factor(knudsen: float) -> float:

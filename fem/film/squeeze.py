@@ -53,14 +53,16 @@ from dataclasses import replace
 import numpy as np
 import scipy.sparse.linalg as spla
 from threadpoolctl import threadpool_limits
-from skfem import Basis, BilinearForm, ElementTriP2, Functional, LinearForm, MeshTri, MeshTri2
-from skfem.helpers import dot, grad
+from skfem import Basis, ElementTriP2, MeshTri, MeshTri2
 
 from diagap.meshes.diaphragm import disk_mesh, square_mesh
 
 from diagap.fem.air import AirProperties
 from diagap.fem.film.perforation import film_viscosity, perforation
 from diagap.fem.film.result import SqueezeResult
+from diagap.fem.forms import laplace, mass, source, squared
+from diagap.fem.richardson import observed_estimate
+from diagap.fem.validate import Checks
 
 __all__ = ["SqueezeError", "SqueezeResult", "film_impedance", "squeeze_film"]
 
@@ -76,24 +78,7 @@ class SqueezeError(ValueError):
     """Invalid input to the squeeze-film solver."""
 
 
-@BilinearForm
-def _film_flow(u, v, w):
-    return dot(grad(u), grad(v))
-
-
-@BilinearForm
-def _capacity(u, v, w):
-    return u * v
-
-
-@LinearForm
-def _motion(v, w):
-    return w["phi"] * v
-
-
-@Functional
-def _phi_squared(w):
-    return w["phi"] ** 2
+_check = Checks(SqueezeError)
 
 
 # ----------------------------------------------------------------------------------- meshes
@@ -171,15 +156,15 @@ class _FilmLevel:
         basis = Basis(mesh, ElementTriP2(), intorder=6)
         x = basis.mapping.F(basis.X)
         phi_q = np.broadcast_to(np.asarray(phi(x[0], x[1]), dtype=float), x[0].shape)
-        stiff = _film_flow.assemble(basis)
-        mass = _capacity.assemble(basis)
-        load = _motion.assemble(basis, phi=phi_q)
+        stiff = laplace.assemble(basis)  # lateral film flow
+        capacity = mass.assemble(basis)  # gas compression
+        load = source.assemble(basis, f=phi_q)  # wall motion
         free = basis.complement_dofs(basis.get_dofs())
         self.n_dofs = free.size
-        self.k = (stiff + alpha * mass)[free][:, free].tocsc()
-        self.m = mass[free][:, free].tocsr()
+        self.k = (stiff + alpha * capacity)[free][:, free].tocsc()
+        self.m = capacity[free][:, free].tocsr()
         self.f = load[free]
-        self.phi_sq = float(_phi_squared.assemble(basis, phi=phi_q))
+        self.phi_sq = float(squared.assemble(basis, f=phi_q))
         self.lam_low = alpha + 0.9 * domain_eigenvalue
         self.lu = _lu(self.k)
         self._moments = None
@@ -228,24 +213,6 @@ class _FilmLevel:
         raise RuntimeError("film cut-off iteration did not converge")
 
 
-def _richardson(values: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Observed order (clamped to [1, 4]) and error estimate of the finest of three levels."""
-    d01 = np.abs(values[1] - values[0])
-    d12 = np.abs(values[2] - values[1])
-    with np.errstate(divide="ignore", invalid="ignore"):
-        order = np.log2(np.where(d12 > 0, d01 / d12, 16.0))
-    order = np.clip(np.nan_to_num(order, nan=1.0), 1.0, 4.0)
-    floor = 1e-12 * np.abs(values[2])
-    return order, np.maximum(d12 / (2.0**order - 1.0), floor)
-
-
-def _check_positive(name: str, value) -> float:
-    value = float(value)
-    if not (math.isfinite(value) and value > 0):
-        raise SqueezeError(f"{name} = {value!r} must be a finite number > 0")
-    return value
-
-
 def _check_mode_shape(mode_shape, scale_m: float):
     if not callable(mode_shape):
         raise SqueezeError(f"mode_shape = {mode_shape!r} must be a callable phi(x_m, y_m)")
@@ -279,20 +246,17 @@ def film_impedance(shape: str, electrode_size_m: float, gap_m: float,
         Frequencies (Hz, >= 0) of the returned spectra.
     accuracy : {"draft", "normal", "fine"}
     """
-    if shape not in ("circle", "square"):
-        raise SqueezeError(f"shape = {shape!r} must be 'circle' or 'square'")
-    if accuracy not in _ACCURACY:
-        raise SqueezeError(f"accuracy = {accuracy!r} must be one of {tuple(_ACCURACY)}")
-    size = _check_positive("electrode_size_m", electrode_size_m)
-    g = _check_positive("gap_m", gap_m)
-    mu = _check_positive("film_viscosity_pa_s", film_viscosity_pa_s)
-    p0 = _check_positive("static_pressure_pa", static_pressure_pa)
-    sink = float(sink_m_per_pa_s)
-    if not (math.isfinite(sink) and sink >= 0):
-        raise SqueezeError(f"sink_m_per_pa_s = {sink!r} must be a finite number >= 0")
+    _check.choice("shape", shape, ("circle", "square"))
+    _check.choice("accuracy", accuracy, tuple(_ACCURACY))
+    size = _check.positive("electrode_size_m", electrode_size_m)
+    g = _check.positive("gap_m", gap_m)
+    mu = _check.positive("film_viscosity_pa_s", film_viscosity_pa_s)
+    p0 = _check.positive("static_pressure_pa", static_pressure_pa)
+    sink = _check.positive("sink_m_per_pa_s", sink_m_per_pa_s, allow_zero=True)
     freq = np.atleast_1d(np.asarray(frequencies_hz, dtype=float))
-    if freq.ndim != 1 or not np.all(np.isfinite(freq)) or np.any(freq < 0):
-        raise SqueezeError("frequencies_hz must be a 1-D array of finite values >= 0")
+    _check.require(freq.ndim == 1 and np.all(np.isfinite(freq)) and not np.any(freq < 0),
+                   f"frequencies_hz = {np.ravel(freq)[:4].tolist()} (first values) must be a "
+                   "1-D array of finite values >= 0 Hz")
 
     scale = size if shape == "circle" else 0.5 * size
     phi = _check_mode_shape(mode_shape, scale)
@@ -306,9 +270,9 @@ def film_impedance(shape: str, electrode_size_m: float, gap_m: float,
         static = np.array([lv.response(np.zeros(1))[0].real for lv in levels])
         spectra = np.array([lv.response(s) for lv in levels])
         cut = np.array([lv.cutoff() for lv in levels])
-    order, err = _richardson(static)
-    _, err_f = _richardson(spectra)
-    _, err_c = _richardson(cut)
+    order, err = observed_estimate(static)
+    _, err_f = observed_estimate(spectra)
+    _, err_c = observed_estimate(cut)
     z0 = 12.0 * mu * scale**4 / g**3
     omega = 2.0 * np.pi * freq
     hz_per_sigma = 1.0 / (2.0 * np.pi * sigma_per_omega)
@@ -365,7 +329,7 @@ def squeeze_film(shape: str, electrode_size_m: float, gap_m: float, hole_radius_
     SqueezeResult
         Damping and film stiffness referred to the centre velocity, with error estimates.
     """
-    g = _check_positive("gap_m", gap_m)
+    g = _check.positive("gap_m", gap_m)
     mu_film = film_viscosity(air.viscosity_pa_s, air.mean_free_path_m, g)
     if lattice == "none":
         perf, sink = None, 0.0
@@ -374,7 +338,7 @@ def squeeze_film(shape: str, electrode_size_m: float, gap_m: float, hole_radius_
                            air.viscosity_pa_s, air.mean_free_path_m)
         sink = perf.sink_m_per_pa_s
     else:
-        raise SqueezeError(f"lattice = {lattice!r} must be 'hex', 'square' or 'none'")
+        _check.choice("lattice", lattice, ("hex", "square", "none"))
     result = film_impedance(shape, electrode_size_m, g, mu_film, air.static_pressure_pa, sink,
                             mode_shape, frequencies_hz, accuracy)
     return replace(result, perforation=perf, knudsen_number=air.mean_free_path_m / g)

@@ -28,6 +28,8 @@ from __future__ import annotations
 import numpy as np
 import scipy.sparse as sp
 
+from diagap.fem.validate import Checks
+
 __all__ = ["EdgeError", "constrained_basis", "edge_frames", "EDGES", "SHAPES"]
 
 EDGES = ("clamped", "simply-supported")
@@ -46,7 +48,7 @@ def edge_frames(p: np.ndarray, nodes: np.ndarray, shape: str):
         r = np.linalg.norm(x, axis=0)
         return x / r, 1.0 / r, np.zeros(nodes.size, dtype=bool)
     if shape != "square":
-        raise EdgeError(f"shape: got {shape!r}, allowed {SHAPES}")
+        Checks(EdgeError).choice("shape", shape, SHAPES)
     on_x = np.abs(np.abs(x[0]) - 1.0) < _TOL
     on_y = np.abs(np.abs(x[1]) - 1.0) < _TOL
     normal = np.where(on_x, [np.sign(x[0]), 0 * x[0]], [0 * x[1], np.sign(x[1])])
@@ -94,8 +96,7 @@ def constrained_basis(mesh, nodal_dofs: np.ndarray, facet_dofs: np.ndarray, n_do
     shape : "circle" or "square"
     edge : "clamped" or "simply-supported"
     """
-    if edge not in EDGES:
-        raise EdgeError(f"edge: got {edge!r}, allowed {EDGES}")
+    Checks(EdgeError).choice("edge", edge, EDGES)
     nodes = mesh.boundary_nodes()
     normals, kappa, corner = edge_frames(np.asarray(mesh.p), nodes, shape)
     blocks = {}  # vertex DOF block -> (6 × k) combinations

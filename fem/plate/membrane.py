@@ -28,9 +28,9 @@ from dataclasses import dataclass, field
 import numpy as np
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
-from skfem import BilinearForm, CellBasis, ElementTriP2, LinearForm
-from skfem.helpers import dot, grad
+from skfem import CellBasis, ElementTriP2
 
+from diagap.fem.forms import laplace, mass, source
 from diagap.fem.levels import ACCURACIES, MeshSize, RATIO
 from diagap.fem.locate import TriangleLocator
 from diagap.fem.plate.system import spd_factor
@@ -41,21 +41,6 @@ __all__ = ["MembraneSystem", "build_membrane_system", "membrane_levels", "model_
 ORDER = 2.0  # lowest order present (P2 energy-norm rate); see the convergence test
 _FINEST = {"draft": (MeshSize(0.15, 0.15, 0.3), 2), "normal": (MeshSize(0.08, 0.08, 0.3), 2),
            "fine": (MeshSize(0.05, 0.05, 0.3), 3)}
-
-
-@BilinearForm
-def _laplace(u, v, w):
-    return dot(grad(u), grad(v))
-
-
-@BilinearForm
-def _mass(u, v, w):
-    return u * v
-
-
-@LinearForm
-def _load(v, w):
-    return w["p"] * v
 
 
 def edge_shrink(problem) -> float:
@@ -127,7 +112,7 @@ class MembraneSystem:
         if callable(pressure):
             pressure = pressure(*self.quadrature_points_m())
         p = np.broadcast_to(np.asarray(pressure, dtype=float), self.basis.dx.shape)
-        return self.length_m**2 * (self.B.T @ _load.assemble(self.basis, p=p))
+        return self.length_m**2 * (self.B.T @ source.assemble(self.basis, f=p))
 
     def _vertices(self):
         return self.basis.doflocs[:, self.basis.nodal_dofs[0]]
@@ -188,8 +173,8 @@ def build_membrane_system(problem, mesh) -> MembraneSystem:
     B = sp.csr_matrix((np.ones(interior.size), (interior, np.arange(interior.size))),
                       shape=(basis.N, interior.size))
     Bt = B.T.tocsr()
-    parts = {"tension": (Bt @ _laplace.assemble(basis) @ B).tocsr(),
-             "mass": (Bt @ _mass.assemble(basis) @ B).tocsr()}
+    parts = {"tension": (Bt @ laplace.assemble(basis) @ B).tocsr(),
+             "mass": (Bt @ mass.assemble(basis) @ B).tocsr()}
     return MembraneSystem(mesh, problem.length_scale_m - shrink, shrink, basis, B, parts,
                           problem.tension_n_per_m, problem.areal_density,
                           problem.bending_stiffness)

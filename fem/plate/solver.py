@@ -25,6 +25,7 @@ import numpy as np
 from diagap.fem.levels import ACCURACIES, ORDER, MeshSize, mesh_sizes, richardson
 from diagap.fem.plate.bc import EDGES, SHAPES
 from diagap.fem.plate.system import PlateSystem, build_plate_system
+from diagap.fem.validate import Checks
 
 __all__ = ["PlateProblem", "PlateResult", "PlateInputError", "BucklingError", "solve_plate",
            "assemble_plate", "MEMBRANE_TAU"]
@@ -41,6 +42,9 @@ class PlateInputError(ValueError):
 
 class BucklingError(PlateInputError):
     """The compressive residual stress exceeds the buckling stress (K not positive definite)."""
+
+
+_check = Checks(PlateInputError)
 
 
 @dataclass(frozen=True)
@@ -67,19 +71,12 @@ class PlateProblem:
     edge: str = "clamped"
 
     def __post_init__(self):
-        if self.shape not in SHAPES:
-            raise PlateInputError(f"shape: got {self.shape!r}, allowed {SHAPES}")
-        if self.edge not in EDGES:
-            raise PlateInputError(f"edge: got {self.edge!r}, allowed {EDGES}")
+        _check.choice("shape", self.shape, SHAPES)
+        _check.choice("edge", self.edge, EDGES)
         for name in ("size_m", "youngs_modulus_pa", "thickness_m", "density_kg_m3"):
-            value = getattr(self, name)
-            if not (math.isfinite(value) and value > 0):
-                raise PlateInputError(f"{name}: got {value!r}, must be a finite positive number")
-        if not (-1.0 < self.poisson_ratio < 0.5):
-            raise PlateInputError(f"poisson_ratio: got {self.poisson_ratio!r}, allowed (-1, 0.5)")
-        if not math.isfinite(self.residual_stress_pa):
-            raise PlateInputError(f"residual_stress_pa: got {self.residual_stress_pa!r}, "
-                                  "must be finite")
+            _check.positive(name, getattr(self, name))
+        _check.in_range("poisson_ratio", self.poisson_ratio, -1.0, 0.5, closed=False)
+        _check.number("residual_stress_pa", self.residual_stress_pa)
 
     @property
     def bending_stiffness(self) -> float:
@@ -325,10 +322,9 @@ def solve_plate(problem: PlateProblem, accuracy: str = "normal", n_modes: int = 
     PlateResult
         values on the finest mesh and their relative error estimates.
     """
-    if accuracy not in ACCURACIES:
-        raise PlateInputError(f"accuracy: got {accuracy!r}, allowed {ACCURACIES}")
-    if not (isinstance(n_modes, (int, np.integer)) and n_modes >= 1):
-        raise PlateInputError(f"n_modes: got {n_modes!r}, must be an integer >= 1")
+    _check.choice("accuracy", accuracy, ACCURACIES)
+    _check.require(isinstance(n_modes, (int, np.integer)) and n_modes >= 1,
+                   f"n_modes = {n_modes!r} must be an integer >= 1")
     if problem.model == "membrane":
         from diagap.fem.plate.membrane import membrane_levels
 

@@ -28,9 +28,10 @@ from typing import Callable, Union
 import numpy as np
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
-from skfem import BilinearForm, CellBasis, LinearForm
-from skfem.helpers import dd, dot, grad
+from skfem import BilinearForm, CellBasis
+from skfem.helpers import dd
 
+from diagap.fem.forms import laplace, mass, source, weighted_mass
 from diagap.fem.plate.argyris import ArgyrisEvaluator, ElementTriArgyrisLocal
 from diagap.fem.plate.bc import constrained_basis
 
@@ -54,22 +55,9 @@ def gauss_curvature_form(u, v, w):
     return H[0][0] * G[1][1] + H[1][1] * G[0][0] - 2.0 * H[0][1] * G[0][1]
 
 
-@BilinearForm
-def tension_form(u, v, w):
-    """∫ ∇u·∇v (membrane stiffness per unit tension)."""
-    return dot(grad(u), grad(v))
-
-
-@BilinearForm
-def mass_form(u, v, w):
-    """∫ u v."""
-    return u * v
-
-
-@LinearForm
-def pressure_load(v, w):
-    """∫ p v with p given at the quadrature points."""
-    return w["p"] * v
+tension_form = laplace  # ∫ ∇u·∇v (membrane stiffness per unit tension)
+mass_form = mass  # ∫ u v
+pressure_load = source  # ∫ p v, p (``f=``) given at the quadrature points
 
 
 def spd_factor(A: sp.spmatrix):
@@ -192,13 +180,13 @@ class PlateSystem:
         return self._load(np.broadcast_to(np.asarray(pressure, dtype=float), self.basis.dx.shape))
 
     def _load(self, p_qp: np.ndarray) -> np.ndarray:
-        f = pressure_load.assemble(self.basis, p=p_qp)
+        f = source.assemble(self.basis, f=p_qp)
         return self.length_m**2 * (self.B.T @ f)
 
     def weighted_mass(self, c_qp: np.ndarray) -> sp.csr_matrix:
         """Bᵀ (L² ∫ c φ_i φ_j dξ) B (N/m) for c (Pa/m) given at the quadrature points."""
         c = np.broadcast_to(np.asarray(c_qp, dtype=float), self.basis.dx.shape)
-        Mc = BilinearForm(lambda u, v, w: w["c"] * u * v).assemble(self.basis, c=c)
+        Mc = weighted_mass.assemble(self.basis, c=c)
         return (self.length_m**2 * (self.B.T @ Mc @ self.B)).tocsr()
 
     @property
