@@ -12,14 +12,14 @@ at the electrode rim (a line force of relative size ~g/a) is left out of the for
 """
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, field
 
 import numpy as np
 import scipy.sparse as sp
 
-from diagap.fem.coupling.branch import (Branch, CouplingSystem, CoupledError, ElectrostaticLoad, EquilibriumPoint,
-                      center_compliance, equilibrium_at_voltage, softened_modes, trace_branch)
+from diagap.fem.coupling.branch import (Branch, CouplingSystem, ElectrostaticLoad,
+                                        EquilibriumPoint, center_compliance,
+                                        equilibrium_at_voltage, softened_modes, trace_branch)
 
 __all__ = ["coupling_system", "CoupledResult", "solve_coupled", "load_from_density", "plate_levels"]
 

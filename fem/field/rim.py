@@ -37,7 +37,7 @@ import time
 from dataclasses import replace, dataclass
 
 import numpy as np
-from skfem import Basis, ElementTriP2
+from skfem import ElementTriP2
 
 from diagap.meshes.cell import MeshSizes
 from diagap.meshes.rim import PairGeometry, electrode_pair_mesh

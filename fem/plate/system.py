@@ -22,7 +22,7 @@ so that K u = f gives u (w in m) and K φ = ω² M φ gives ω in rad/s directly
 """
 from __future__ import annotations
 
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, field
 from typing import Callable, Union
 
 import numpy as np
@@ -136,10 +136,6 @@ class PlateSystem:
     @property
     def n_free(self) -> int:
         return self.B.shape[1]
-
-    def with_tension(self, tension_n_per_m: float) -> "PlateSystem":
-        """The same mesh and matrices with another in-plane tension T (N/m); no re-assembly."""
-        return replace(self, tension_n_per_m=float(tension_n_per_m), _cache={})
 
     def factor(self):
         """Sparse factorisation of K (cached, see :func:`spd_factor`); call ``.solve(f)``."""
