@@ -79,7 +79,23 @@ def _largest_spl_deflection(design, mech, resp) -> tuple[float, float]:
 
 
 def audit_design(design, s: dict) -> Audit:
-    """Audit from the summary sections ``s`` (dict of section name → summary dict)."""
+    """The assumption audit of ``design`` from its computed summary sections.
+
+    Parameters
+    ----------
+    design : Design
+        The design that was run.
+    s : dict
+        Section name → summary dictionary (``{k: v.to_summary() for k, v in
+        result.sections.items()}`` of a :class:`diagap.RunResult`); a row whose inputs are
+        missing is left out.
+
+    Returns
+    -------
+    Audit
+        ``.rows`` of :class:`AuditRow`, each with the simple and FE values, the deviation, the
+        thresholds and the verdict ("holds", "marginal" or "fails").
+    """
     rows = []
     d, b, e = design.diaphragm, design.backplate, design.electrical
     mech, es, cp = s.get("mechanics"), s.get("electrostatics"), s.get("coupled")
