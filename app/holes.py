@@ -1,9 +1,9 @@
 """``diagap holes``: the cost of a backplate hole pattern, evaluated on its own in about a second.
 
-Capacitance side: the axisymmetric unit cell (fem.electrostatic) gives the perforation factor
+Capacitance side: the axisymmetric unit cell (diagap.fem.field.cell) gives the perforation factor
 (cell capacitance / solid-plate value at the gap), compared with the open-area rule of thumb
 1 − open area. Flow side: the resistance of one hole with Sampson's end correction plus the film
-flow into it (fem.perforation) at 20 °C and 101.325 kPa, the quantity that relieves squeeze-film
+flow into it (diagap.fem.film.perforation) at 20 °C and 101.325 kPa, the quantity that relieves squeeze-film
 damping.
 """
 from __future__ import annotations
