@@ -2,7 +2,7 @@
 
 For every assumption of the textbook capsule model (a rigid parallel-plate piston on a spring, an
 ideal capacitor, small linear motion, an incompressible continuum film, an electrical high-pass far
-below the audio band) the audit puts the closed-form value (:mod:`lumped.analytic`) beside the
+below the audio band) the audit puts the closed-form value (:mod:`diagap.lumped.analytic`) beside the
 finite-element value and gives a verdict with its stated threshold:
 
     holds     |deviation| <= the "holds" threshold
@@ -79,7 +79,23 @@ def _largest_spl_deflection(design, mech, resp) -> tuple[float, float]:
 
 
 def audit_design(design, s: dict) -> Audit:
-    """Audit from the summary sections ``s`` (dict of section name → summary dict)."""
+    """The assumption audit of ``design`` from its computed summary sections.
+
+    Parameters
+    ----------
+    design : Design
+        The design that was run.
+    s : dict
+        Section name → summary dictionary (``{k: v.to_summary() for k, v in
+        result.sections.items()}`` of a :class:`diagap.RunResult`); a row whose inputs are
+        missing is left out.
+
+    Returns
+    -------
+    Audit
+        ``.rows`` of :class:`AuditRow`, each with the simple and FE values, the deviation, the
+        thresholds and the verdict ("holds", "marginal" or "fails").
+    """
     rows = []
     d, b, e = design.diaphragm, design.backplate, design.electrical
     mech, es, cp = s.get("mechanics"), s.get("electrostatics"), s.get("coupled")
@@ -110,14 +126,14 @@ def audit_design(design, s: dict) -> Audit:
                          "large-deflection energy estimate for a clamped plate (Timoshenko & "
                          "Woinowsky-Krieger 1959, from memory), scaled by the FE stiffness"))
     if es:
-        pp = es["parallel_plate_capacitance_f"]
+        pp = analytic.parallel_plate_capacitance(el_area, b.gap_m)
         fe = es["rest_capacitance_f"]
         rows.append(_row("parallel-plate capacitance", "rest capacitance (F)", pp, fe, _rel(pp, fe),
                          "eps0 A / g over FE - 1", 0.02, 0.10,
                          "FE includes hole fringing, rim fringing and the open area"))
         if b.perforated:
             fraction = es["open_area_fraction"]
-            simple = 1.0 - fraction
+            simple = analytic.open_area_perforation_factor(fraction)
             rows.append(_row("open-area capacitance rule", "perforation factor", simple,
                              es["perforation_factor"], _rel(simple, es["perforation_factor"]),
                              "(1 - open area) / FE cell factor - 1", 0.02, 0.10))
@@ -139,7 +155,7 @@ def audit_design(design, s: dict) -> Audit:
     if damp:
         kn = damp.get("knudsen_number")
         if kn is not None:
-            factor = 1.0 + 9.638 * kn**1.159
+            factor = analytic.rarefaction_factor(kn)
             rows.append(_row("continuum gas", "viscosity / effective viscosity", 1.0, factor,
                              factor - 1.0, "mu / mu_eff - 1 (Veijola et al. 1995)", 0.05, 0.30,
                              f"Knudsen number lambda/g = {kn:.3g}"))
@@ -162,16 +178,11 @@ def audit_design(design, s: dict) -> Audit:
 
 
 def _stretching_ratio(d, w0: float) -> float:
-    """Ratio of the cubic stretching pressure to the linear restoring pressure at centre deflection
-    w0, from the energy estimate for a clamped circular plate (Timoshenko & Woinowsky-Krieger,
-    1959, §97, from memory): p a⁴/(E h⁴) = (16/3)/(1−ν²)·(w0/h)·[linear] + (7−ν)/(3(1−ν))·(w0/h)³,
-    with the linear term replaced by the FE-consistent stiffness including tension (so the ratio is
-    cubic / (plate + tension) linear)."""
-    e, h, nu, a = d.youngs_modulus_pa, d.thickness_m, d.poisson_ratio, d.size_m
-    cubic = (7.0 - nu) / (3.0 * (1.0 - nu)) * e * h * w0**3 / a**4
-    plate = 16.0 / 3.0 / (1.0 - nu**2) * e * h**3 * w0 / a**4
-    tension = 4.0 * max(d.tension_n_per_m, 0.0) * w0 / a**2
-    return cubic / (plate + tension)
+    """Cubic stretching over linear restoring pressure at centre deflection w0
+    (:func:`diagap.lumped.analytic.clamped_plate_stretching_ratio`)."""
+    return analytic.clamped_plate_stretching_ratio(d.youngs_modulus_pa, d.thickness_m,
+                                                   d.poisson_ratio, d.size_m,
+                                                   d.tension_n_per_m, w0)
 
 
 def _linear_capacitance_row(design, mech, es, resp) -> AuditRow:

@@ -295,7 +295,26 @@ def _backplate(raw: dict, d: Diaphragm) -> Backplate:
 
 
 def parse_design(raw: dict, source: str = "<design>") -> Design:
-    """Validate a design given as the dictionary of a TOML file and return it in SI."""
+    """Validate a design given as the dictionary of a TOML file and return it in SI.
+
+    Parameters
+    ----------
+    raw : dict
+        Sections (``diaphragm``, ``backplate``, ``acoustics``, ``electrical``, ``analysis``) of
+        key → value; values are numbers in SI or strings with units (``"0.5 mm"``, ``"200 V"``).
+    source : str
+        Name used in error messages (the file name).
+
+    Returns
+    -------
+    Design
+        Frozen dataclasses in SI units (``design.diaphragm.size_m``, ``design.backplate.gap_m``).
+
+    Raises
+    ------
+    DesignError
+        One line naming the key, the value and what is allowed.
+    """
     if not isinstance(raw, dict):
         raise DesignError(f"{source}: a design must be a TOML table")
     _check_keys("", {k: v for k, v in raw.items() if not isinstance(v, dict)} | {
@@ -333,7 +352,22 @@ def _loads(text: str, source: str) -> dict:
 
 
 def load_design(path: str | Path) -> Design:
-    """Read and validate a design file."""
+    """Read and validate a design file (TOML; see :func:`parse_design`).
+
+    Parameters
+    ----------
+    path : str or Path
+        The design file.
+
+    Returns
+    -------
+    Design
+
+    Raises
+    ------
+    DesignError
+        Missing or unreadable file, invalid TOML or an invalid value (one line).
+    """
     p = Path(path)
     try:
         text = p.read_text(encoding="utf-8")
@@ -359,17 +393,37 @@ def starter_text() -> str:
 
 
 def demo_design() -> Design:
+    """The built-in demo design (an invented scenario), validated: a :class:`Design`."""
     return parse_design(_loads(demo_text(), "<built-in demo>"), "<built-in demo>")
 
 
 def with_override(design: Design, path: str, value) -> Design:
-    """A copy of ``design`` with the key ``section.key`` set to ``value`` (validated again)."""
+    """A copy of ``design`` with the key ``section.key`` set to ``value`` (validated again);
+    see :func:`with_overrides`."""
     return with_overrides(design, {path: value})
 
 
 def with_overrides(design: Design, changes: dict) -> Design:
-    """A copy of ``design`` with several ``section.key`` values replaced at once (``None``
-    removes a key), validated once, so that combinations valid only together are accepted."""
+    """A copy of ``design`` with several ``section.key`` values replaced at once.
+
+    Parameters
+    ----------
+    design : Design
+        The design to start from (unchanged).
+    changes : dict
+        ``"section.key"`` → value as in a design file (``{"backplate.gap": "5 um"}``); ``None``
+        removes a key (its default applies again).
+
+    Returns
+    -------
+    Design
+        Validated once, so that combinations valid only together are accepted.
+
+    Raises
+    ------
+    DesignError
+        An unknown key or an invalid value (one line).
+    """
     raw = design.raw_dict()
     for path, value in changes.items():
         parts = path.split(".")

@@ -7,7 +7,7 @@ __all__ = ["plate_problem"]
 
 
 def plate_problem(design: Design):
-    """The diaphragm problem of ``design`` for :func:`fem.plate.solve_plate`."""
+    """The diaphragm problem of ``design`` for :func:`diagap.fem.plate.solver.solve_plate`."""
     from diagap.fem.plate.solver import PlateProblem
 
     d = design.diaphragm

@@ -1,9 +1,9 @@
 """``diagap holes``: the cost of a backplate hole pattern, evaluated on its own in about a second.
 
-Capacitance side: the axisymmetric unit cell (fem.electrostatic) gives the perforation factor
+Capacitance side: the axisymmetric unit cell (diagap.fem.field.cell) gives the perforation factor
 (cell capacitance / solid-plate value at the gap), compared with the open-area rule of thumb
 1 − open area. Flow side: the resistance of one hole with Sampson's end correction plus the film
-flow into it (fem.perforation) at 20 °C and 101.325 kPa, the quantity that relieves squeeze-film
+flow into it (diagap.fem.film.perforation) at 20 °C and 101.325 kPa, the quantity that relieves squeeze-film
 damping.
 """
 from __future__ import annotations
@@ -16,10 +16,35 @@ __all__ = ["evaluate_holes", "holes_table"]
 
 def evaluate_holes(gap, radius, pitch, thickness, lattice: str = "hex",
                    accuracy: str = "normal", model: str = "axisymmetric") -> dict:
-    """Evaluate a hole pattern; quantities are SI numbers or strings with units."""
+    """Evaluate a backplate hole pattern on its own (what ``diagap holes`` prints).
+
+    Parameters
+    ----------
+    gap, radius, pitch, thickness : float or str
+        Gap, hole radius, hole pitch and backplate thickness: metres, or strings with units
+        (``"4 um"``).
+    lattice : {"hex", "square"}
+    accuracy : {"draft", "normal", "fine"}
+    model : {"axisymmetric", "3d"}
+        Equal-area axisymmetric unit cell, or the 3D lattice cell as well.
+
+    Returns
+    -------
+    dict
+        ``perforation_factor`` (cell capacitance over ε0/g) with ``rel_error``,
+        ``open_area_fraction``, ``open_area_rule_factor`` (1 − open area),
+        ``capacitance_density_f_per_m2``, ``hole_density_per_m2``,
+        ``hole_flow_resistance_pa_s_per_m3`` (20 °C, 1 atm), ``dofs``, ``runtime_s``.
+
+    Raises
+    ------
+    DesignError
+        A value that is not a positive length, or holes that touch (one line).
+    """
     from diagap.fem.air import air_properties
     from diagap.fem.field.cell import cell_capacitance, lattice_summary
     from diagap.fem.film.perforation import perforation
+    from diagap.lumped.analytic import open_area_perforation_factor
 
     def q(name, v):
         if isinstance(v, str):
@@ -44,7 +69,7 @@ def evaluate_holes(gap, radius, pitch, thickness, lattice: str = "hex",
                    dofs=cell.dofs)
     air = air_properties(ROOM_TEMPERATURE_K, STANDARD_PRESSURE_PA)
     perf = perforation(lattice, r, p, t, g, air.viscosity_pa_s, air.mean_free_path_m)
-    out["open_area_rule_factor"] = 1.0 - out["open_area_fraction"]
+    out["open_area_rule_factor"] = open_area_perforation_factor(out["open_area_fraction"])
     out["hole_flow_resistance_pa_s_per_m3"] = perf.resistance_pa_s_per_m3
     return out
 

@@ -1,7 +1,7 @@
 """The analysis pipeline: a validated design in, every computed section out.
 
-design ─► mechanics (fem.plate) ─► electrostatics (fem.capacitance) ─► coupled (fem.coupled)
-       ─► damping (fem.squeeze) ─► lumped model, response, noise, distortion ─► audit
+design ─► mechanics (fem.plate) ─► electrostatics (fem.field) ─► coupled (fem.coupling)
+       ─► damping (fem.film) ─► lumped model, response, noise, distortion ─► audit
 
 Each stage returns a frozen result object that knows its summary section. A section that is not
 computed is absent from the summary, never filled with placeholders.
@@ -24,7 +24,31 @@ log = logging.getLogger(__name__)
 
 @dataclass
 class RunResult:
-    """Everything computed for one design; ``summary()`` is the summary.json dictionary."""
+    """Everything computed for one design, as objects and as the summary dictionary.
+
+    Returned by :func:`run_design`. The solver results are frozen objects with SI attributes and
+    an ``uncertainty`` dictionary (relative discretisation error per quantity); a section that was
+    not computed (e.g. the response of a collapsed design) is ``None``.
+
+    Attributes
+    ----------
+    design : Design
+        The design that was run.
+    sections : dict
+        Summary-section name → result object with ``to_summary()`` (``"mechanics"``,
+        ``"electrostatics"``, ``"coupled"``, ``"damping"``, ``"response"``, ``"audit"``).
+    timings_s : dict
+        Wall time of each stage (s).
+    collapsed : bool
+        True when the bias voltage is at or above pull-in.
+
+    Examples
+    --------
+    >>> from diagap import demo_design, run_design
+    >>> result = run_design(demo_design().with_accuracy("draft"))   # doctest: +SKIP
+    >>> result.mechanics.natural_frequencies_hz[0]                  # doctest: +SKIP
+    >>> result.summary()["response"]["sensitivity_db_v_per_pa"]     # doctest: +SKIP
+    """
 
     design: Design
     sections: dict[str, Any] = field(default_factory=dict)  # name -> result with to_summary()
@@ -32,6 +56,8 @@ class RunResult:
     collapsed: bool = False
 
     def summary(self) -> dict:
+        """The summary.json dictionary: schema version, design, every section, uncertainties
+        (``"section.key"`` → relative error) and timings (s)."""
         out: dict[str, Any] = {"schema_version": SCHEMA_VERSION, "design": self.design.to_dict()}
         uncertainty: dict[str, float] = {}
         for name, res in self.sections.items():
@@ -41,6 +67,59 @@ class RunResult:
         out["uncertainty"] = uncertainty
         out["timings_s"] = {k: round(v, 3) for k, v in self.timings_s.items()}
         return out
+
+    def _object(self, section: str, key: str):
+        sec = self.sections.get(section)
+        return None if sec is None else getattr(sec, "objects", {}).get(key)
+
+    @property
+    def mechanics(self):
+        """:class:`diagap.fem.plate.solver.PlateResult`: centre and volume compliance (m/Pa,
+        m³/Pa), natural frequencies (Hz), mode-1 effective mass (kg), stiffness (N/m) and area
+        (m²), without bias."""
+        return self.sections.get("mechanics")
+
+    @property
+    def capacitance(self):
+        """:class:`diagap.fem.field.device.DeviceCapacitance`: rest capacitance C0 (F), slope
+        dC/dx (F/m), the C(x) samples, rim fringing and perforation factor."""
+        return self._object("electrostatics", "device")
+
+    @property
+    def coupling(self):
+        """:class:`diagap.fem.coupling.plate.CoupledResult`: pull-in voltage (V), bias deflection
+        (m), softened resonance (Hz) and compliance at bias (m/Pa)."""
+        return self._object("coupled", "coupled")
+
+    @property
+    def squeeze_film(self):
+        """:class:`diagap.fem.film.result.SqueezeResult`: film damping (N·s/m) and film stiffness
+        (N/m) versus frequency, cut-off frequency (Hz), hole resistance."""
+        return self._object("damping", "squeeze")
+
+    @property
+    def lumped_model(self):
+        """:class:`diagap.lumped.model.LumpedModel` built from the FE results (None when
+        collapsed)."""
+        return self._object("response", "model")
+
+    @property
+    def response(self):
+        """:class:`diagap.lumped.response.ResponseResult`: sensitivity (V/Pa), corners and
+        resonance (Hz), Q, and the complex response ``.response`` (None when collapsed)."""
+        return self._object("response", "response")
+
+    @property
+    def distortion(self):
+        """:class:`diagap.lumped.distortion.DistortionResult`: THD versus SPL (None when
+        collapsed)."""
+        return self._object("response", "distortion")
+
+    @property
+    def audit(self):
+        """:class:`diagap.audit.Audit`: the assumption audit, ``.rows`` of
+        :class:`diagap.audit.AuditRow` (assumption, simple and FE values, deviation, verdict)."""
+        return self.sections.get("audit")
 
 
 def _stage(result: RunResult, name: str, func, *args, **kw):
@@ -55,6 +134,26 @@ def _stage(result: RunResult, name: str, func, *args, **kw):
 def run_design(design: Design) -> RunResult:
     """Run every stage of the analysis for ``design``.
 
+    Parameters
+    ----------
+    design : Design
+        From :func:`diagap.load_design`, :func:`diagap.parse_design` or
+        :func:`diagap.demo_design`, possibly changed with :func:`diagap.with_overrides`; its
+        ``analysis.accuracy`` chooses the meshes (``design.with_accuracy("draft")`` for speed).
+
+    Returns
+    -------
+    RunResult
+        The results as objects and :meth:`RunResult.summary` (write them with
+        :func:`diagap.write_outputs`).
+
+    Raises
+    ------
+    ValueError
+        Input outside a solver's range (each solver has its own ``ValueError`` subclass).
+
+    Notes
+    -----
     A bias at or above pull-in marks the run ``collapsed``: the sections that do not depend on the
     bias point (mechanics, electrostatics, damping) are kept, the coupled section reports the
     pull-in voltage with ``collapsed = true``, and the lumped response and audit rows that need a

@@ -149,7 +149,7 @@ def damping_stage(design: Design, mech, resonance_hz: float) -> Section:
 
 
 def lumped_model(design: Design, mech, es: Section, cp: Section, damp: Section):
-    """The one-degree-of-freedom model at the bias point (see :mod:`lumped.model`)."""
+    """The one-degree-of-freedom model at the bias point (see :mod:`diagap.lumped.model`)."""
     from diagap.lumped.model import FilmTable, LumpedModel
 
     res = cp.objects["coupled"]

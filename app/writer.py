@@ -46,10 +46,21 @@ def _producers(result):
 
 
 def write_outputs(result, out: Path) -> list[Path]:
-    """Write every output of ``result`` into ``out`` (created if needed); return the paths.
+    """Write every output of ``result`` into ``out`` (created if needed).
 
-    Names may contain sub-folders (``plots/response.png``). Everything is produced in a temporary
-    folder beside ``out`` first; only when all producers have succeeded are the files moved in.
+    Parameters
+    ----------
+    result : RunResult
+        From :func:`diagap.run_design`.
+    out : str or Path
+        The output folder: summary.json, response.csv, model.cir, report.html, plots/, VTK files.
+
+    Returns
+    -------
+    list of Path
+        The files written. Everything is produced in a temporary folder beside ``out`` first;
+        only when all producers have succeeded are the files moved in (names may contain
+        sub-folders, ``plots/response.png``).
     """
     out = Path(out)
     out.parent.mkdir(parents=True, exist_ok=True)

@@ -3,8 +3,10 @@
 Rooms by physics: ``plate`` (Argyris Kirchhoff plate with tension, membrane limit), ``field``
 (unit cells of the perforated backplate, c(g) table, rim fringing, device C(x)), ``film``
 (Reynolds squeeze film with perforation sinks, hole and cell flow resistances), ``coupling``
-(bias equilibrium, softening, pull-in). Shared: ``air`` (gas properties), ``levels`` (accuracy
-levels and the Richardson estimate), ``locate`` (point location on triangle meshes).
+(bias equilibrium, softening, pull-in). Shared: ``forms`` (weak forms), ``richardson`` (error
+estimates from mesh levels), ``levels`` (the diaphragm's accuracy levels), ``validate`` (input
+checks), ``constants`` (ε0, k_B, reference pressures), ``air`` (gas properties), ``locate``
+(point location on triangle meshes).
 Imports are lazy so that `import diagap.fem` stays cheap.
 """
 from importlib import import_module

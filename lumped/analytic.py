@@ -1,25 +1,23 @@
 """Closed-form (textbook) estimates that the audit compares with the finite-element results.
 
 All in SI. Each formula names its source; these are the "simple model" of a condenser capsule:
-a rigid parallel-plate piston on a spring, an ideal capacitor, an incompressible continuum film and
-a first-order electrical high-pass.
+a rigid parallel-plate piston on a spring, an ideal capacitor, small deflections, an
+incompressible continuum film. The closed forms of plate buckling live in
+:mod:`diagap.lumped.buckling`; Veijola's rarefaction factor is the one of the film solver
+(:func:`diagap.fem.film.perforation.rarefaction_factor`), re-exported here.
 """
 from __future__ import annotations
 
 import math
 
 from diagap.fem.constants import EPSILON_0_F_PER_M
+from diagap.fem.film.perforation import rarefaction_factor
 
 __all__ = [
-    "parallel_plate_capacitance", "open_area_capacitance", "piston_pull_in_voltage",
-    "membrane_pull_in_voltage", "plate_center_compliance", "membrane_center_compliance",
-    "rc_highpass_corner_hz", "piston_sensitivity_v_per_pa", "griffin_damping",
-    "piston_resonance_hz", "MEMBRANE_PULL_IN_PARAMETER",
+    "parallel_plate_capacitance", "open_area_perforation_factor", "piston_pull_in_voltage",
+    "plate_center_compliance", "membrane_center_compliance", "griffin_damping",
+    "clamped_plate_stretching_ratio", "rarefaction_factor",
 ]
-
-#: λ* = ε0 V² a² / (2 T g³) at pull-in of a clamped circular membrane under a full electrode
-#: (Pelesko & Bernstein, *Modeling MEMS and NEMS*, 2002, ch. 7; value 0.789 from memory).
-MEMBRANE_PULL_IN_PARAMETER = 0.789
 
 
 def parallel_plate_capacitance(area_m2: float, gap_m: float) -> float:
@@ -27,21 +25,16 @@ def parallel_plate_capacitance(area_m2: float, gap_m: float) -> float:
     return EPSILON_0_F_PER_M * area_m2 / gap_m
 
 
-def open_area_capacitance(area_m2: float, gap_m: float, open_fraction: float) -> float:
-    """The open-area rule of thumb C = ε0 A (1 − open fraction) / g (common practice)."""
-    return EPSILON_0_F_PER_M * area_m2 * (1.0 - open_fraction) / gap_m
+def open_area_perforation_factor(open_fraction: float) -> float:
+    """The open-area rule of thumb for the perforation factor C/(ε0 A/g) = 1 − open fraction
+    (the holes simply remove electrode area; common practice)."""
+    return 1.0 - open_fraction
 
 
 def piston_pull_in_voltage(stiffness_n_per_m: float, gap_m: float, area_m2: float) -> float:
     """V_PI = √(8 k g³ / (27 ε0 A)); pull-in at x = g/3 (Nathanson et al., IEEE Trans. Electron
     Devices 14, 1967; Senturia, *Microsystem Design*, 2001, ch. 6)."""
     return math.sqrt(8.0 * stiffness_n_per_m * gap_m**3 / (27.0 * EPSILON_0_F_PER_M * area_m2))
-
-
-def membrane_pull_in_voltage(radius_m: float, tension_n_per_m: float, gap_m: float) -> float:
-    """V_PI of a clamped circular membrane with a full electrode: λ* = ε0V²a²/(2Tg³) = 0.789."""
-    return math.sqrt(2.0 * MEMBRANE_PULL_IN_PARAMETER * tension_n_per_m * gap_m**3
-                     / (EPSILON_0_F_PER_M * radius_m**2))
 
 
 def plate_center_compliance(shape: str, edge: str, size_m: float, bending_stiffness: float,
@@ -73,24 +66,26 @@ def membrane_center_compliance(shape: str, size_m: float, tension_n_per_m: float
     return total * size_m**2 / tension_n_per_m
 
 
-def rc_highpass_corner_hz(resistance_ohm: float, capacitance_f: float) -> float:
-    """f_c = 1/(2π R C) (first-order high-pass, common practice)."""
-    return 1.0 / (2.0 * math.pi * resistance_ohm * capacitance_f)
-
-
-def piston_sensitivity_v_per_pa(bias_v: float, gap_m: float, compliance_m_per_pa: float,
-                                c0_f: float, cp_f: float) -> float:
-    """Open-circuit mid-band sensitivity of a rigid piston, (V/g)·(x/p)·C0/(C0 + Cp) (common
-    practice)."""
-    return bias_v / gap_m * compliance_m_per_pa * c0_f / (c0_f + cp_f)
-
-
 def griffin_damping(viscosity_pa_s: float, radius_m: float, gap_m: float) -> float:
     """Rigid disk over a solid plate, vented rim, low squeeze number: b = 3πμa⁴/(2g³)
     (Griffin, Richardson & Yamanami, J. Basic Eng. 1966; from memory)."""
     return 3.0 * math.pi * viscosity_pa_s * radius_m**4 / (2.0 * gap_m**3)
 
 
-def piston_resonance_hz(stiffness_n_per_m: float, mass_kg: float) -> float:
-    """f = √(k/m)/(2π) of a single-degree-of-freedom piston."""
-    return math.sqrt(stiffness_n_per_m / mass_kg) / (2.0 * math.pi)
+def clamped_plate_stretching_ratio(youngs_modulus_pa: float, thickness_m: float,
+                                   poisson_ratio: float, radius_m: float,
+                                   tension_n_per_m: float, center_deflection_m: float) -> float:
+    """Ratio of the cubic (membrane stretching) to the linear restoring pressure of a clamped
+    circular plate at centre deflection w0.
+
+    Energy estimate of Timoshenko & Woinowsky-Krieger, *Theory of Plates and Shells*, 1959, §97
+    (from memory): p a⁴/(E h⁴) = (16/3)/(1−ν²)·(w0/h) + (7−ν)/(3(1−ν))·(w0/h)³, with the linear
+    pressure of a pre-tension T (tensile part only) added as 4 T w0 / a² (membrane a²/(4T)
+    compliance), so the ratio is cubic / (plate + tension) linear. Dimensionless.
+    """
+    e, h, nu, a, w0 = (youngs_modulus_pa, thickness_m, poisson_ratio, radius_m,
+                       center_deflection_m)
+    cubic = (7.0 - nu) / (3.0 * (1.0 - nu)) * e * h * w0**3 / a**4
+    plate = 16.0 / 3.0 / (1.0 - nu**2) * e * h**3 * w0 / a**4
+    tension = 4.0 * max(tension_n_per_m, 0.0) * w0 / a**2
+    return cubic / (plate + tension)

@@ -18,7 +18,7 @@ Equations (phasors e^{jωt}; x = U/(jωA)):
 * diaphragm branch: p − p_b = Z_d·U − (Γ/A)·v − f_n/A, with
   Z_d = jωM_a + b(ω)/A² + (k + k_film(ω) − k_e)/(jωA²);
   this is m ẍ + b ẋ + (k + k_film)x = A(p − p_b) + k_e x + Γ v + f_n divided by A, the
-  linearised force δF = Γδv + k_e δx of :mod:`lumped.model`;
+  linearised force δF = Γδv + k_e δx of :mod:`diagap.lumped.model`;
 * back-volume node (KCL): jωC_bv·p_b = U + (p − p_b + e_v)/R_v, C_bv = V/(γ p0)
   (Beranek, *Acoustics*, 1954, ch. 5 [from memory]);
 * output node (KCL): (e_R − v)/R = jωC_node·v + (Γ/A)·U, the motional current being
@@ -39,7 +39,7 @@ restores k − k_e + Γ²/C_node (constant charge).  The same Y_e gives the elec
 v = −(Γ/C_node)·x·jωτ/(1 + jωτ), τ = R·C_node, when the motion is imposed.  Units: SI.
 
 :class:`NonlinearTransducer` is the large-signal form of the same two-port (readout q/C_t(x) and
-force ½v²C'(x)) used by :mod:`lumped.distortion`.
+force ½v²C'(x)) used by :mod:`diagap.lumped.distortion`.
 """
 from __future__ import annotations
 

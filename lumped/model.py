@@ -16,7 +16,7 @@ Electrostatics at the bias point (capsule voltage V_b, capacitance C(x)):
 The constant-charge stiffness k_e − Γ²/C_node (C_node = C0 + C_p + C_in) follows from these two
 lines when the node charge is held; it is zero for a parallel-plate capacitor with no parasitic
 capacitance (Senturia, *Microsystem Design*, 2001, ch. 6 [from memory]).  Which regime applies is
-decided by the bias circuit; see :mod:`lumped.circuit`.
+decided by the bias circuit; see :mod:`diagap.lumped.circuit`.
 
 :class:`CapacitanceCurve` turns the sampled C(x) into a smooth function for the nonlinear model:
 it interpolates the elastance 1/C(x) with a cubic spline, which is exact for a parallel-plate

@@ -16,7 +16,7 @@ noise floor over the audio band 20 Hz – 20 kHz is
 
     p_A² = ∫ S_p(f) |A(f)|² df,   L_A = 10 log10(p_A² / p_ref²) dB SPL,  p_ref = 20 µPa,
 
-with A(f) from :mod:`lumped.weighting` (IEC 61672-1:2013). The integral runs over a logarithmic
+with A(f) from :mod:`diagap.lumped.weighting` (IEC 61672-1:2013). The integral runs over a logarithmic
 grid (∫ S|A|² f d ln f, Simpson's rule, 801 points), the spectrum being interpolated log-log
 between the given frequencies. k_B = 1.380649e-23 J/K (exact, SI 2019).
 """

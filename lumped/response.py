@@ -1,7 +1,7 @@
 """Frequency response of the lumped capsule model: V_out/p, sensitivity, corners, resonance, Q.
 
 The response is the output-node voltage per pascal of sound pressure at the front of the
-diaphragm, H(f) = v/p = −(Γ/A)·H_v/(Z·Y_e) from the reduced circuit of :mod:`lumped.circuit`
+diaphragm, H(f) = v/p = −(Γ/A)·H_v/(Z·Y_e) from the reduced circuit of :mod:`diagap.lumped.circuit`
 (open circuit apart from C_p and C_in; physical sign: a pressure towards the backplate raises C
 and, at held charge, lowers the node voltage for V_b > 0, so the mid-band phase is near ±180°).
 

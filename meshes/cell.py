@@ -16,7 +16,7 @@ Both meshes are graded towards the hole rim (the two circles r = a, z = 1 and z 
 the size law of :class:`MeshSizes` (linear growth with the distance d to the nearer rim, capped
 in the gap layer and overall), given to gmsh as a ``MathEval`` size field. The air is built from fragments (gap, hole, air above) so
 that the plane z = 1 is a mesh surface also inside the hole. Meshes are cached on disk
-(:mod:`meshes.cache`). This module knows nothing of physics: names refer to geometry only.
+(:mod:`diagap.meshes.cache`). This module knows nothing of physics: names refer to geometry only.
 """
 from __future__ import annotations
 

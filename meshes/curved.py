@@ -1,6 +1,6 @@
 """Quadratic (six-node) diaphragm meshes whose edge nodes lie on the true boundary.
 
-``curved_disk_mesh`` takes the graded linear mesh of the unit disk from :mod:`meshes.diaphragm`
+``curved_disk_mesh`` takes the graded linear mesh of the unit disk from :mod:`diagap.meshes.diaphragm`
 and moves the midpoint nodes of the boundary edges radially onto the unit circle, so that an
 isoparametric P2 discretisation sees the circle to O(h³) instead of the O(h²) of the polygon.
 ``quadratic_square_mesh`` is the straight-sided quadratic mesh of [−1, 1]². Scaled coordinates.

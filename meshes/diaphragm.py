@@ -4,7 +4,7 @@ Coordinates are scaled: the disk has radius 1, the square is [-1, 1]² (lengths 
 half-side). The element size grows from ``h_edge`` at the edge to ``h_center`` inside with the
 linear law h(d) = min(h_center, h_edge + grading·d), d being the distance to the edge; gmsh
 evaluates it as a ``MathEval`` size field (``Mesh.Algorithm = 5``, Delaunay, avoids slivers).
-Meshes are cached on disk by :mod:`meshes.cache`.
+Meshes are cached on disk by :mod:`diagap.meshes.cache`.
 """
 from __future__ import annotations
 

@@ -14,7 +14,7 @@ inside a half disk of radius ``outer_radius`` centred at the middle of the gap. 
 * the outer arc as boundary group ``"outer"``.
 
 The mesh is graded towards the electrode edges (points (lower_radius, 0), (upper_radius, 1) and
-(upper_radius, 1 + thickness)) with the law of :class:`meshes.cell.MeshSizes`, capped at
+(upper_radius, 1 + thickness)) with the law of :class:`diagap.meshes.cell.MeshSizes`, capped at
 ``h_gap`` between the electrodes and growing with distance outside them (``MathEval`` field).
 Cached on disk. :func:`disk_pair_mesh` is the classic validation case of two equal thin disks.
 """

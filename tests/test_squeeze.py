@@ -1,4 +1,4 @@
-"""Squeeze-film damping (fem.squeeze) and perforation resistances (fem.perforation).
+"""Squeeze-film damping (diagap.fem.film.squeeze) and perforation resistances (diagap.fem.film.perforation).
 
 External references used here:
 * Griffin, Richardson & Yamanami, J. Basic Eng. 88 (1966): rigid disk b = 3πμa⁴/(2g³) [from memory].

@@ -393,7 +393,7 @@ def test_folder_of_another_design_is_refused(tmp_path):
 # ---- command line ----------------------------------------------------------------------------
 
 def _cli(argv):
-    """``diagap`` with the sweep subcommand (through lumped.cli once it registers ``sweep``)."""
+    """``diagap`` with the sweep subcommand (through diagap.cli once it registers ``sweep``)."""
     from diagap import cli
     from diagap.sweep.cli import add_parser, cmd_sweep
 

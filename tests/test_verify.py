@@ -1,6 +1,6 @@
 """`diagap verify` runs the production solvers on published cases; every check must pass and the
 deviations must lie within the solvers' own error estimates (factor 3) where they give one.
-Sources are named per case in lumped/verify.py (Timoshenko & Woinowsky-Krieger 1959; Leissa 1969;
+Sources are named per case in app/verify.py (Timoshenko & Woinowsky-Krieger 1959; Leissa 1969;
 scipy Bessel zeros; Nathanson et al. 1967; Griffin et al. 1966; IEC 61672-1:2013)."""
 from diagap.cli import main
 from diagap.verify import run_checks

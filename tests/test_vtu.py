@@ -1,6 +1,6 @@
 """VTK files of the diaphragm and unit-cell fields: round trip through meshio, and sanity checks.
 
-Round trip: what :mod:`lumped.report.vtu` writes, ``meshio.read`` gives back (points, triangles,
+Round trip: what :mod:`diagap.report.vtu` writes, ``meshio.read`` gives back (points, triangles,
 point and cell data within float tolerance). Sanity checks against closed forms: the mesh of a
 disk of radius a covers π a² (to the polygonal-boundary error); away from the hole the cell
 potential is the parallel-plate one, u = V z / g, and |E| = V / g (uniform field between

@@ -1,14 +1,14 @@
 """Field data for the reports: the diaphragm mesh with its nodal fields and the unit-cell field.
 
-Both are plain SI arrays taken from solver results; the plots (:mod:`lumped.report.plots`) and
-the VTK writer (:mod:`lumped.report.vtu`) read them from here.
+Both are plain SI arrays taken from solver results; the plots (:mod:`diagap.report.plots`) and
+the VTK writer (:mod:`diagap.report.vtu`) read them from here.
 
 Diaphragm: the vertices and linear triangles of the finest plate mesh (points in m, z = 0), the
 static deflection per pascal (m/Pa) and the vacuum mode shapes (mode 1 is 1 at the centre, the
 others have max |φ| = 1), all at the mesh vertices.
 
 Unit cell: the Laplace solution ∇·(ε∇u) = 0 of the axisymmetric equal-area cell of the hole
-lattice (:func:`fem.electrostatic.cell_capacitance`) at the rest gap, diaphragm (z = 0) at 0 V
+lattice (:func:`diagap.fem.field.cell.cell_capacitance`) at the rest gap, diaphragm (z = 0) at 0 V
 and backplate at 1 V: potential u (V) and |E| = |∇u| (V/m) at the vertices, in the r-z plane.
 Both scale linearly with the applied voltage. An unperforated backplate has no unit cell (the gap
 field is the uniform V/g), so there is no cell field.
@@ -76,7 +76,7 @@ class CellField:
 
 
 def diaphragm_field(mech) -> DiaphragmField:
-    """The diaphragm field of a :class:`fem.plate.PlateResult`."""
+    """The diaphragm field of a :class:`diagap.fem.plate.solver.PlateResult`."""
     points, triangles, data = mech.nodal_fields()
     return DiaphragmField(np.asarray(points, float), np.asarray(triangles).T.copy(),
                           {k: np.asarray(v, float) for k, v in data.items()})

@@ -129,9 +129,9 @@ def _files_list(files: list[str]) -> str:
 
 
 def report_html(result, plots, files: list[str] = ()) -> str:
-    """The report page of ``result`` (a :class:`lumped.pipeline.RunResult`).
+    """The report page of ``result`` (a :class:`diagap.pipeline.RunResult`).
 
-    ``plots`` are (Plot, PNG bytes) pairs (:meth:`lumped.report.plots.RenderedPlots.items`);
+    ``plots`` are (Plot, PNG bytes) pairs (:meth:`diagap.report.plots.RenderedPlots.items`);
     ``files`` the other output files, listed at the end of the page.
     """
     summary = result.summary()

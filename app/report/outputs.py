@@ -1,13 +1,13 @@
 """The registry of a run's output files (besides summary.json): name → producer(path).
 
-``report_files(result)`` yields (relative file name, function(path)) pairs; :mod:`lumped.writer`
+``report_files(result)`` yields (relative file name, function(path)) pairs; :mod:`diagap.writer`
 calls each producer on a path in a temporary folder and moves the files into OUT only when all
 have succeeded. Files:
 
 response.csv, model.cir   lumped response table and SPICE netlist (stable bias point only)
-plots/<name>.png          the report plots (:mod:`lumped.report.plots`)
-report.html               the self-contained report page (:mod:`lumped.report.html`)
-fields.vtu                diaphragm mesh, deflection and mode shapes (:mod:`lumped.report.vtu`)
+plots/<name>.png          the report plots (:mod:`diagap.report.plots`)
+report.html               the self-contained report page (:mod:`diagap.report.html`)
+fields.vtu                diaphragm mesh, deflection and mode shapes (:mod:`diagap.report.vtu`)
 cell_potential.vtu        unit-cell potential and |E| (perforated backplate only)
 
 Each plot is drawn once; the PNG file and the image embedded in report.html are the same bytes.

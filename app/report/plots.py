@@ -102,9 +102,9 @@ class RenderedPlots:
 
 
 def report_plots(result, cell=None) -> list[Plot]:
-    """The plots ``result`` (a :class:`lumped.pipeline.RunResult`) can make, in report order.
+    """The plots ``result`` (a :class:`diagap.pipeline.RunResult`) can make, in report order.
 
-    ``cell`` is the unit-cell field (:func:`lumped.report.fields.cell_field`), or None.
+    ``cell`` is the unit-cell field (:func:`diagap.report.fields.cell_field`), or None.
     """
     from diagap.report.plots_electro import electro_plots
     from diagap.report.plots_mech import mech_plots

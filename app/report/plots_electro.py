@@ -2,12 +2,12 @@
 
 * Unit cell: potential u (filled map and equipotentials) and field magnitude |E| (log-scaled map)
   of the axisymmetric equal-area cell at the rest gap with 1 V across it
-  (:mod:`lumped.report.fields`); the backplate cross-section is hatched.
-* C(x): the device capacitance of :class:`fem.capacitance.DeviceCapacitance` against the centre
+  (:mod:`diagap.report.fields`); the backplate cross-section is hatched.
+* C(x): the device capacitance of :class:`diagap.fem.field.device.DeviceCapacitance` against the centre
   displacement x (positive towards the backplate), its tangent C0 + (dC/dx)·x at rest, and the
   relative departure of the tangent from C(x).
 * Bias branch: centre deflection against bias voltage along the equilibrium branch of
-  :mod:`fem.coupled_plate`, traced in displacement control through the pull-in fold; beyond
+  :mod:`diagap.fem.coupling.plate`, traced in displacement control through the pull-in fold; beyond
   the fold (dashed) the equilibria are unstable.
 """
 from __future__ import annotations

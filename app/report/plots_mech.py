@@ -1,7 +1,7 @@
 """Diaphragm plots: static deflection profile, mode-shape profiles and mode-shape maps.
 
-Profiles are sampled from the FE solution (:meth:`fem.plate.PlateResult.static_deflection_m_per_pa`
-and :meth:`~fem.plate.PlateResult.mode_shape`) along a line through the centre; maps are filled
+Profiles are sampled from the FE solution (:meth:`diagap.fem.plate.solver.PlateResult.static_deflection_m_per_pa`
+and :meth:`~diagap.fem.plate.solver.PlateResult.mode_shape`) along a line through the centre; maps are filled
 contours of the same FE shapes sampled on a fine grid over the diaphragm. Degenerate mode pairs (equal frequencies, e.g. the two (1,0)
 modes of a disk) are shown once: their orientation is arbitrary, so a mode's profile is taken
 along the diameter through its largest |φ|.
@@ -139,7 +139,7 @@ def draw_mode_maps(mech):
 
 
 def mech_plots(mech) -> list[Plot]:
-    """The diaphragm plots of a :class:`fem.plate.PlateResult`."""
+    """The diaphragm plots of a :class:`diagap.fem.plate.solver.PlateResult`."""
     fw, wl = prefixed(mech.center_compliance_m_per_pa, "m")
     modes = distinct_modes(mech)
     return [

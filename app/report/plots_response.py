@@ -1,14 +1,14 @@
 """Acoustic-response plots: squeeze-film spectrum, frequency response, noise and THD against SPL.
 
-* Squeeze film: damping b(f) and film stiffness k(f) of :func:`fem.squeeze.squeeze_film` on the
+* Squeeze film: damping b(f) and film stiffness k(f) of :func:`diagap.fem.film.squeeze.squeeze_film` on the
   mode-1 shape, with the film's cut-off frequency (where the film turns from damper to spring).
 * Frequency response: |V_out/p| in dB re 1 V/Pa and its phase from the lumped model
-  (:mod:`lumped.response`), with the electrical high-pass corner 1/(2πRC), the acoustic (vent)
+  (:mod:`diagap.lumped.response`), with the electrical high-pass corner 1/(2πRC), the acoustic (vent)
   corner and the resonance marked.
 * Noise: the input-referred pressure noise density √S_p(f) (Pa/√Hz) and each source's share
   (mechanical-thermal film damping, bias resistor, vent), output PSDs divided by |V_out/p|²;
   the A-weighted floor over 20 Hz – 20 kHz (IEC 61672-1 weighting) is stated.
-* THD against SPL at the distortion frequency (harmonic balance of :mod:`lumped.distortion`),
+* THD against SPL at the distortion frequency (harmonic balance of :mod:`diagap.lumped.distortion`),
   with the 1 % and 10 % levels.
 """
 from __future__ import annotations

@@ -6,7 +6,7 @@ supply) — and a test bench (pressure source AC 1, bias source DC V_b, ``.ac de
 100 kHz, ``.print``).  Only standard elements are used: R, L, C, independent sources and the
 linear controlled sources E (VCVS) and F (CCCS), with plain numeric values.
 
-The circuit is the acoustic impedance analogy of :mod:`lumped.circuit`: inside the subcircuit a
+The circuit is the acoustic impedance analogy of :mod:`diagap.lumped.circuit`: inside the subcircuit a
 node voltage is a pressure (1 V = 1 Pa) and a branch current is a volume velocity scaled by the
 impedance scale ZS (ohm per Pa·s/m³): 1 A ≙ 1/ZS m³/s.  Acoustic impedances are multiplied by ZS
 (R = ZS·R_a, L = ZS·M_a, C = C_a/ZS), so the element values stay in a range SPICE handles well:

@@ -1,6 +1,6 @@
 """The ``diagap sweep`` subcommand (argparse parser and command). Only this module prints.
 
-Registered by :mod:`lumped.cli` with :func:`add_parser` and :func:`cmd_sweep`.
+Registered by :mod:`diagap.cli` with :func:`add_parser` and :func:`cmd_sweep`.
 """
 from __future__ import annotations
 

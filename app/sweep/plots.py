@@ -207,7 +207,7 @@ def write_plots(records: Sequence[dict], variations: Sequence[Variation], plot_d
                 outputs: Sequence[str] | None = None) -> list[Path]:
     """Write one PNG per (output, varied input) into ``plot_dir``; return the paths.
 
-    ``records`` are sweep records (see :mod:`lumped.sweep_point`); only ok and collapsed points
+    ``records`` are sweep records (see :mod:`diagap.sweep.point`); only ok and collapsed points
     are drawn. ``outputs`` defaults to :func:`outputs_of_interest`.
     """
     good = [r for r in records if r.get("status") in ("ok", "collapsed")]

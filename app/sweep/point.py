@@ -64,7 +64,7 @@ class PointTask:
 
 
 def pipeline_point(design: Design) -> PointOutput:
-    """The default point function: the analysis pipeline, :func:`lumped.pipeline.run_design`."""
+    """The default point function: the analysis pipeline, :func:`diagap.pipeline.run_design`."""
     from diagap.pipeline import run_design
 
     result = run_design(design)

@@ -1,10 +1,10 @@
 """Parameter sweeps of a design: resumable, failure-tolerant, serial, local-parallel or on Dask.
 
-A sweep is the cartesian product of variations of design keys (:mod:`lumped.sweep_spec`), each
+A sweep is the cartesian product of variations of design keys (:mod:`diagap.sweep.spec`), each
 point a copy of the base design with its overrides, evaluated by the analysis pipeline (or any
 picklable ``evaluate(design)``). Results go to ``OUT/sweep.jsonl`` (the record of every finished
 point, fsync'ed line by line) and ``OUT/sweep.csv`` (one row per point), summary plots to
-``OUT/plots/`` (layout and columns: :mod:`lumped.sweep_store`).
+``OUT/plots/`` (layout and columns: :mod:`diagap.sweep.store`).
 
 Resuming: a point's id is a hash of its overrides (the varied values in SI and the accuracy
 level), so running the same sweep again into the same folder computes only the points without a
@@ -57,7 +57,7 @@ class SweepResult:
         The varied inputs.
     records : tuple of dict
         One record per finished point of this sweep, in grid order (keys: point_id, overrides,
-        status, error, wall_time_s, outputs, uncertainty; see :mod:`lumped.sweep_point`).
+        status, error, wall_time_s, outputs, uncertainty; see :mod:`diagap.sweep.point`).
     computed, reused : int
         Points computed by this call, and points found already finished in ``out_dir``.
     plot_files : tuple of Path

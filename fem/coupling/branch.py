@@ -131,12 +131,6 @@ class _Solver:
     def g_diag(self, u):  # ½|π'| at the points
         return 0.5 * np.abs(self.load.pressure_slope_per_v2(self.local_gap(u))) * self.W
 
-    def tangent_op(self, lam, u):
-        d = lam * self.g_diag(u)
-        K, B, BT = self.K, self.B, self.BT
-        return spla.LinearOperator((self.n, self.n), matvec=lambda x: K @ x - BT @ (d * (B @ x)),
-                                   dtype=float)
-
     def factor_t(self, lam, u):
         """Sparse LU of J = K − λG (symmetric mode, no pivoting; partial pivoting as fallback)."""
         d = lam * self.g_diag(u)
@@ -204,16 +198,6 @@ class _Solver:
 def _point(solver: _Solver, u, lam, stability: bool = True) -> EquilibriumPoint:
     mu = solver.min_stiffness_ratio(lam, u) if stability else float("nan")
     return EquilibriumPoint(float(solver.c @ u), float(np.sqrt(max(lam, 0.0))), u, mu)
-
-
-def _vertex(x: np.ndarray, y: np.ndarray) -> tuple[float, float]:
-    """Vertex of the parabola through three points."""
-    a, b, c = np.polyfit(x, y, 2)
-    if a >= 0:
-        i = int(np.argmax(y))
-        return float(x[i]), float(y[i])
-    xv = -b / (2 * a)
-    return float(xv), float(np.polyval([a, b, c], xv))
 
 
 def lam_k_prev_slope_small(pts) -> bool:

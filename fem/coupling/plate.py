@@ -1,8 +1,8 @@
 """Pull-in and the bias point of the finite-element diaphragm (Argyris plate) under an electrode.
 
-Builds the :class:`fem.coupled.CouplingSystem` of an assembled plate (:mod:`fem.plate_system`) on
+Builds the :class:`diagap.fem.coupling.branch.CouplingSystem` of an assembled plate (:mod:`diagap.fem.plate.system`) on
 a mesh that embeds the electrode edge (so no element straddles it and the electrode integrals are
-exact up to quadrature), then traces the equilibrium branch (see :mod:`fem.coupled` for the
+exact up to quadrature), then traces the equilibrium branch (see :mod:`diagap.fem.coupling.branch` for the
 equations and the method). Two mesh levels give Richardson-style error estimates of the pull-in
 voltage, the centre deflection at pull-in and at bias, and the softened resonance.
 
@@ -12,14 +12,14 @@ at the electrode rim (a line force of relative size ~g/a) is left out of the for
 """
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, field
 
 import numpy as np
 import scipy.sparse as sp
 
-from diagap.fem.coupling.branch import (Branch, CouplingSystem, CoupledError, ElectrostaticLoad, EquilibriumPoint,
-                      center_compliance, equilibrium_at_voltage, softened_modes, trace_branch)
+from diagap.fem.coupling.branch import (Branch, CouplingSystem, ElectrostaticLoad,
+                                        EquilibriumPoint, center_compliance,
+                                        equilibrium_at_voltage, softened_modes, trace_branch)
 
 __all__ = ["coupling_system", "CoupledResult", "solve_coupled", "load_from_density", "plate_levels"]
 
@@ -146,7 +146,7 @@ def plate_levels(problem, accuracy: str, electrode_size_m: float):
 
 def solve_coupled(problem, accuracy: str, electrode_size_m: float, gap_m: float,
                   bias_voltage_v: float, density=None) -> CoupledResult:
-    """Pull-in and the bias point of the diaphragm ``problem`` (a :class:`fem.plate.PlateProblem`)
+    """Pull-in and the bias point of the diaphragm ``problem`` (a :class:`diagap.fem.plate.solver.PlateProblem`)
     on the mesh levels of ``accuracy``; ``density`` is the capacitance density of the gap (None:
     solid parallel plates). The meshes are those of ``COUPLING_MESHES[accuracy]``. Values are the
     finest level's; the error estimates compare the two finest levels (Richardson with order 2,

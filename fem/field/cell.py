@@ -21,7 +21,7 @@ factor is c / (ε0/g) and the open-area fraction πa²/A_cell.
 Numerics
 --------
 Lengths are scaled by the gap g inside (C = ε0·g·Ĉ with Ĉ the scaled energy). P2 elements on
-meshes graded to the hole rim (:mod:`meshes.cell`), where the 270° corners make the field
+meshes graded to the hole rim (:mod:`diagap.meshes.cell`), where the 270° corners make the field
 singular (|∇u| ~ ρ^(-1/3)). Axisymmetric cells are solved directly, 3D cells by CG with an
 algebraic multigrid preconditioner (pyamg; BLAS pinned to one thread). The discretisation error
 is estimated from two mesh levels (all sizes halved): the energy is an upper bound that

@@ -1,6 +1,6 @@
 r"""Capacitance density c(g) of the hole lattice over a range of gaps, and a smooth fit.
 
-The unit-cell capacitance density c(g) [F/m²] (:func:`fem.electrostatic.cell_capacitance`) is
+The unit-cell capacitance density c(g) [F/m²] (:func:`diagap.fem.field.cell.cell_capacitance`) is
 sampled at Chebyshev points of [g_min, g_max] and fitted by the four-term model
 
 .. math:: c(g) = \frac{\varepsilon_0}{g}\left[A + C_f\,\hat g + k_1 \hat g\ln\hat g
@@ -165,7 +165,7 @@ def capacitance_density_table(gap_min_m: float, gap_max_m: float, hole_radius_m:
     gap_min_m, gap_max_m : float
         Gap range [m], 0 < gap_min_m < gap_max_m.
     hole_radius_m, pitch_m, lattice, backplate_thickness_m, accuracy, air_height_m
-        As for :func:`fem.electrostatic.cell_capacitance`.
+        As for :func:`diagap.fem.field.cell.cell_capacitance`.
 
     Returns
     -------

@@ -5,8 +5,8 @@ Model
 With the diaphragm displaced by x·φ(r) towards the backplate (φ the deflection shape, 1 at the
 centre, x the centre displacement [m], positive towards the backplate) every area element of the
 electrode sees a locally uniform gap g − x·φ and contributes the lattice capacitance density
-c(g − x·φ) of :mod:`fem.cell_table` (locally-parallel-plate approximation: the tilt of the
-diaphragm is neglected, its slope ~ x/R_e ≪ 1). The rim fringing of :mod:`fem.rim_fringing` is
+c(g − x·φ) of :mod:`diagap.fem.field.cell_table` (locally-parallel-plate approximation: the tilt of the
+diaphragm is neglected, its slope ~ x/R_e ≪ 1). The rim fringing of :mod:`diagap.fem.field.rim` is
 evaluated at the local gap under the electrode rim, g − x·φ_rim:
 
 .. math:: C(x) = \sum_q w_q\, c(g - x\varphi_q) + C_\mathrm{rim}(g - x\varphi_\mathrm{rim}),

@@ -9,7 +9,7 @@ beyond the electrode as a solid ring R_e < r < R_b of relative permittivity ε_r
 isolated: the far boundary (a sphere of radius 50× the largest electrode dimension) carries the
 natural condition ∂u/∂n = 0, so the charges on the electrodes are equal and opposite and
 C = ε0∫ε_r|∇u|² dV at 1 V is the two-terminal capacitance. Weak form as in
-:mod:`fem.electrostatic`, weight 2πr (axisymmetric, circular electrodes). The rim fringing is
+:mod:`diagap.fem.field.cell`, weight 2πr (axisymmetric, circular electrodes). The rim fringing is
 
     C_rim = C_pair − ε0 π min(R_d, R_e)² / g,
 
@@ -37,7 +37,7 @@ import time
 from dataclasses import replace, dataclass
 
 import numpy as np
-from skfem import Basis, ElementTriP2
+from skfem import ElementTriP2
 
 from diagap.meshes.cell import MeshSizes
 from diagap.meshes.rim import PairGeometry, electrode_pair_mesh

@@ -1,6 +1,6 @@
 """Flow resistances of a perforated backplate and the rarefied-gas film viscosity.
 
-The squeeze film (:mod:`fem.squeeze`) sees the perforation as a distributed sink: per unit area
+The squeeze film (:mod:`diagap.fem.film.squeeze`) sees the perforation as a distributed sink: per unit area
 there are n_h holes, and the mean film pressure P̄ of a lattice cell drives a volume flow
 Q = P̄ / Z through each hole, Z = R_cell + R_hole (Pa·s/m³). The pieces:
 

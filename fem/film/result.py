@@ -1,4 +1,4 @@
-"""The result of a squeeze-film solve (:func:`fem.squeeze.squeeze_film`): the film impedance
+"""The result of a squeeze-film solve (:func:`diagap.fem.film.squeeze.squeeze_film`): the film impedance
 referred to the centre velocity, b(f) and k_film(f), the cut-off, the perforation numbers and
 their error estimates, with the ``damping`` section of summary.json."""
 from __future__ import annotations

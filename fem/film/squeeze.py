@@ -13,7 +13,7 @@ Mass balance per unit area (volume flow, m/s):
 
 with μ_eff the rarefied-gas viscosity (Veijola et al. 1995), n_h the holes per unit area and
 Z the flow resistance per hole including the flow from the cell into the hole
-(:mod:`fem.perforation`). The three left-hand terms are the lateral film flow, the flow out
+(:mod:`diagap.fem.film.perforation`). The three left-hand terms are the lateral film flow, the flow out
 through the holes and the isothermal gas compression. The film pushes back on the diaphragm with
 the generalised force −∫ P φ dA; the mechanical impedance referred to the centre velocity is
 
@@ -37,7 +37,7 @@ side (square).
 Discretisation
 --------------
 Quadratic Lagrange triangles (``ElementTriP2``) on the rim-graded electrode mesh of
-:mod:`meshes.diaphragm` (the disk mesh made isoparametric: edge nodes on the circle), refined
+:mod:`diagap.meshes.diaphragm` (the disk mesh made isoparametric: edge nodes on the circle), refined
 uniformly twice. Every reported number comes from the finest of the three nested levels; the
 error estimate is Richardson's |J₁ − J₂| / (2^p − 1) with the order p observed from the three
 levels (clamped to [1, 4]). Frequencies below half the lowest film eigenvalue are evaluated from
@@ -317,7 +317,7 @@ def squeeze_film(shape: str, electrode_size_m: float, gap_m: float, hole_radius_
     backplate_thickness_m : float
         Hole length (m).
     air : AirProperties
-        From :func:`fem.air.air_properties`.
+        From :func:`diagap.fem.air.air_properties`.
     mode_shape : callable
         φ(x_m, y_m), 1 at the centre.
     frequencies_hz : array_like

@@ -194,7 +194,7 @@ class ArgyrisEvaluator:
     element_dofs : (21, nel) global DOF numbers per triangle (``basis.element_dofs``)
 
     Points outside the mesh polygon use the polynomial of the nearest triangle (see
-    :mod:`fem.locate`); coordinates are those of the mesh.
+    :mod:`diagap.fem.locate`); coordinates are those of the mesh.
     """
 
     def __init__(self, mesh, element: ElementTriArgyrisLocal, element_dofs: np.ndarray):

@@ -60,7 +60,7 @@ def model_error(problem) -> float:
 
 @dataclass
 class MembraneSystem:
-    """Assembled membrane on one mesh; same interface as :class:`fem.plate_system.PlateSystem`.
+    """Assembled membrane on one mesh; same interface as :class:`diagap.fem.plate.system.PlateSystem`.
 
     ``length_m`` is L_eff, the shrunk length scale; ``edge_shrink_m`` the shift ℓ of the edge.
     """
@@ -165,7 +165,7 @@ def _mesh(shape: str, size: MeshSize):
 
 
 def build_membrane_system(problem, mesh) -> MembraneSystem:
-    """Assemble the membrane of ``problem`` (a :class:`fem.plate.PlateProblem`) on a scaled
+    """Assemble the membrane of ``problem`` (a :class:`diagap.fem.plate.solver.PlateProblem`) on a scaled
     quadratic mesh (unit disk or [−1, 1]²)."""
     shrink = edge_shrink(problem)
     basis = CellBasis(mesh, ElementTriP2(), intorder=4)

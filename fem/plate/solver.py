@@ -3,14 +3,14 @@
 Equation (SI): D∇⁴w − T∇²w = p on the diaphragm, D = Eh³/(12(1−ν²)) (N·m), T = σ0·h (N/m,
 tensile positive), p in Pa; free vibration D∇⁴w − T∇²w = ρ_s ω² w, ρ_s = ρh (kg/m²). Shapes: a
 disk of radius a or a square of side a; edges clamped (w = ∂w/∂n = 0) or simply supported
-(w = 0, zero edge moment). Weak form, edge conditions and scaling: :mod:`fem.plate_system`,
-:mod:`fem.plate_bc`; the Argyris C¹ quintic element: :mod:`fem.argyris`.
+(w = 0, zero edge moment). Weak form, edge conditions and scaling: :mod:`diagap.fem.plate.system`,
+:mod:`diagap.fem.plate.bc`; the Argyris C¹ quintic element: :mod:`diagap.fem.plate.argyris`.
 
 Model choice. When the tension dominates, τ = T L²/D > ``MEMBRANE_TAU`` (L radius or half-side),
 the bending boundary layer ℓ = √(D/T) is thinner than 1/√τ of L and the diaphragm is solved as a
-membrane (:mod:`fem.membrane`), with the clamped edge's layer folded into a domain shrunk by ℓ.
+membrane (:mod:`diagap.fem.plate.membrane`), with the clamped edge's layer folded into a domain shrunk by ℓ.
 
-Every quantity is computed on two or more meshes (:mod:`fem.levels`) and reported for the finest
+Every quantity is computed on two or more meshes (:mod:`diagap.fem.levels`) and reported for the finest
 one with a Richardson estimate of its relative discretisation error (plus, for the membrane, the
 model error of the asymptotic boundary-layer treatment).
 """
@@ -159,8 +159,8 @@ class PlateResult:
 
     @property
     def system(self):
-        """The assembled system of the finest level (:class:`~fem.plate_system.PlateSystem` or
-        :class:`~fem.membrane.MembraneSystem`)."""
+        """The assembled system of the finest level (:class:`~diagap.fem.plate.system.PlateSystem` or
+        :class:`~diagap.fem.plate.membrane.MembraneSystem`)."""
         return self._finest.system
 
     @property
@@ -246,14 +246,14 @@ def assemble_plate(problem: PlateProblem, mesh: MeshLike = "normal") -> PlateSys
     ----------
     problem : the diaphragm
     mesh : an accuracy name ("draft" | "normal" | "fine": its finest mesh), a
-        :class:`~fem.levels.MeshSize`, or a scaled ``skfem.MeshTri`` (unit disk or [−1, 1]²)
+        :class:`~diagap.fem.levels.MeshSize`, or a scaled ``skfem.MeshTri`` (unit disk or [−1, 1]²)
 
     Returns
     -------
     PlateSystem
         K (N/m) and M (kg) in SI units over DOFs in scaled coordinates, the constrained basis
         B, load vectors for any pressure field, centre and point evaluation; see
-        :class:`fem.plate_system.PlateSystem`. Always the plate (Argyris) model, also for
+        :class:`diagap.fem.plate.system.PlateSystem`. Always the plate (Argyris) model, also for
         tension-dominated diaphragms.
     """
     if isinstance(mesh, str):
@@ -314,7 +314,7 @@ def solve_plate(problem: PlateProblem, accuracy: str = "normal", n_modes: int = 
     Parameters
     ----------
     problem : the diaphragm (SI units)
-    accuracy : "draft" | "normal" | "fine" — the mesh levels (:mod:`fem.levels`)
+    accuracy : "draft" | "normal" | "fine" — the mesh levels (:mod:`diagap.fem.levels`)
     n_modes : number of natural frequencies (≥ 1)
 
     Returns

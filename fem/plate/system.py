@@ -6,7 +6,7 @@ D∇⁴w − T∇²w = ρ_s ω² w, ρ_s = ρh. Weak form: find w in the constra
     ∫ D[∇²w ∇²v − (1−ν)(w_xx v_yy + w_yy v_xx − 2 w_xy v_xy)] dA + ∫ T ∇w·∇v dA = ∫ p v dA
 
 for every v in V_h (the full Kirchhoff energy, so that the zero-moment condition of a simply
-supported edge holds naturally with the right ν). Edge conditions: :mod:`fem.plate_bc`.
+supported edge holds naturally with the right ν). Edge conditions: :mod:`diagap.fem.plate.bc`.
 
 Scaling. Lengths are scaled by L (the radius of a disk, the half-side of a square):
 x = L ξ, and the mesh is the unit disk or [−1, 1]². The DOF vector holds w in metres and its ξ
@@ -22,7 +22,7 @@ so that K u = f gives u (w in m) and K φ = ω² M φ gives ω in rad/s directly
 """
 from __future__ import annotations
 
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, field
 from typing import Callable, Union
 
 import numpy as np
@@ -88,7 +88,7 @@ class PlateSystem:
     ----------
     mesh : skfem.MeshTri in scaled coordinates (unit disk or [−1, 1]²)
     length_m : L, the length scale (m): radius or half-side
-    basis : skfem.CellBasis of :class:`~fem.argyris.ElementTriArgyrisLocal` (quadrature order 8)
+    basis : skfem.CellBasis of :class:`~diagap.fem.plate.argyris.ElementTriArgyrisLocal` (quadrature order 8)
     B : (n_global × n_free) sparse constrained basis, full DOF vector u = B q
     K, M : (n_free × n_free) sparse SI stiffness (N/m) and mass (kg) in the constrained basis
     parts : dimensionless constrained matrices ``{"lap", "gauss", "tension", "mass"}`` (Bᵀ·B),
@@ -136,10 +136,6 @@ class PlateSystem:
     @property
     def n_free(self) -> int:
         return self.B.shape[1]
-
-    def with_tension(self, tension_n_per_m: float) -> "PlateSystem":
-        """The same mesh and matrices with another in-plane tension T (N/m); no re-assembly."""
-        return replace(self, tension_n_per_m=float(tension_n_per_m), _cache={})
 
     def factor(self):
         """Sparse factorisation of K (cached, see :func:`spd_factor`); call ``.solve(f)``."""
