@@ -66,7 +66,7 @@ pressure) on the graded mesh of :mod:`meshes.flow_cell`, block assembly, one spa
 saddle-point system. The discrete dissipation equals the discrete power input exactly (the
 discrete divergence constraint is tested with p_h itself). Two mesh levels (size factors 2s
 and s); the error estimate is Richardson's (:func:`fem.levels.richardson`, ratio 2, order
-``ORDER`` — the observed order on the radical meshes, asserted in the tests).
+``ORDER`` = 1.5, below the observed orders 2.2–2.6, which the tests assert).
 """
 from __future__ import annotations
 
@@ -89,10 +89,11 @@ __all__ = ["ACCURACY_LEVELS", "HoleFlow", "ORDER", "StokesCellError", "cell_flow
 
 #: size factor s of the finest level per accuracy (the coarse level uses 2s)
 ACCURACY_LEVELS = {"draft": 0.5, "normal": 0.3, "fine": 0.15}
-#: convergence order of the resistance on the radical meshes (observed, see the tests)
-ORDER = 2.0
+#: order assumed by the error estimate: below the observed orders on the radical meshes
+#: (2.2 with slip walls, 2.4–2.6 without, see the tests), so the estimate errs on the safe side
+ORDER = 1.5
 _TWO_PI = 2.0 * math.pi
-_SOLVER = 1  # bump when the solve changes (invalidates cached results)
+_SOLVER = 2  # bump when the solve changes (invalidates cached results)
 
 
 class StokesCellError(ValueError):
