@@ -24,7 +24,8 @@ level factor s,
 
 μ = ``GRADING_EXPONENT`` (a radical mesh: with μ = 1 − λ/k it restores the optimal order of a
 degree-k element for a corner singularity ρ^λ; Stokes flow at a 270° corner has λ ≈ 0.5445),
-ρ0 = ℓ·s^(1/(1−μ)) (the smallest element) and c_film = 1 (film cells no larger than s gaps).
+ρ0 = ℓ·s^(1/(1−μ)) (the smallest element), c_film = 1 (film cells no larger than s gaps) and
+c_max = max(4, R/2) by default.
 Meshes of one geometry at different s are a family (not nested). Cached on disk
 (:mod:`meshes.cache`).
 """
@@ -148,7 +149,7 @@ def _build(geo: FlowCellGeometry, level: float, c_max: float) -> dict:
         return tagged_mesh_arrays(gmsh, 2)
 
 
-def flow_cell_mesh(geo: FlowCellGeometry, level: float, max_size: float = 4.0) -> MeshTri:
+def flow_cell_mesh(geo: FlowCellGeometry, level: float, max_size: float | None = None) -> MeshTri:
     """Graded triangular mesh of the flow cell (x = r, y = z; cached on disk).
 
     Parameters
@@ -157,8 +158,8 @@ def flow_cell_mesh(geo: FlowCellGeometry, level: float, max_size: float = 4.0) -
         Geometry in units of the film height.
     level : float
         Size factor s in (0, 1] (module docstring); halving s roughly halves every element.
-    max_size : float
-        c_max, the largest element size divided by s.
+    max_size : float, optional
+        c_max, the largest element size divided by s; default max(4, R/2).
 
     Returns
     -------
@@ -166,6 +167,8 @@ def flow_cell_mesh(geo: FlowCellGeometry, level: float, max_size: float = 4.0) -
         With the boundaries of the module docstring.
     """
     geo.check()
+    if max_size is None:
+        max_size = max(4.0, 0.5 * geo.cell_radius)
     if not (0 < level <= 1 and max_size > 0):
         raise ValueError(f"level must lie in (0, 1] and max_size > 0, got {level}, {max_size}")
     params = {**geo.as_dict(), "s": level, "cmax": max_size, "mu": GRADING_EXPONENT,

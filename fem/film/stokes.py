@@ -93,7 +93,7 @@ ACCURACY_LEVELS = {"draft": 0.5, "normal": 0.3, "fine": 0.15}
 #: (2.2 with slip walls, 2.4–2.6 without, see the tests), so the estimate errs on the safe side
 ORDER = 1.5
 _TWO_PI = 2.0 * math.pi
-_SOLVER = 2  # bump when the solve changes (invalidates cached results)
+_SOLVER = 3  # bump when the solve changes (invalidates cached results)
 
 
 class StokesCellError(ValueError):
