@@ -17,9 +17,9 @@ the flow from the cell into the hole (:mod:`fem.film.perforation`): by default t
 Stokes solve of the cell with Maxwell slip walls (:mod:`fem.film.stokes`), the closed forms
 (Škvor/Bao cell + Poiseuille + Sampson) on request (``hole_model="closed-form"``). P is the
 cell-averaged pressure, so the Laplacian carries the flow between cells only and Z the flow
-within a cell (no part counted twice). The three left-hand terms are the lateral film flow, the flow out
-through the holes and the isothermal gas compression. The film pushes back on the diaphragm with
-the generalised force −∫ P φ dA; the mechanical impedance referred to the centre velocity is
+within a cell (no part counted twice). The three left-hand terms are the lateral film flow,
+the flow out through the holes and the isothermal gas compression. The film pushes back on the
+diaphragm with the generalised force −∫ P φ dA; the mechanical impedance referred to the centre velocity is
 
     Z_m(ω) = ∫ P φ dA / v0 = b(ω) + k_film(ω)/(jω),
 
