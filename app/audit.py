@@ -1,8 +1,9 @@
 """The assumption audit: which simple-model assumptions hold for this design, and by how much.
 
 For every assumption of the textbook capsule model (a rigid parallel-plate piston on a spring, an
-ideal capacitor, small linear motion, an incompressible continuum film, an electrical high-pass far
-below the audio band) the audit puts the closed-form value (:mod:`diagap.lumped.analytic`) beside the
+ideal capacitor, small linear motion, an incompressible continuum film, closed-form hole flow, an
+electrical high-pass far below the audio band) the audit puts the closed-form value
+(:mod:`diagap.lumped.analytic`) beside the
 finite-element value and gives a verdict with its stated threshold:
 
     holds     |deviation| <= the "holds" threshold
@@ -159,6 +160,15 @@ def audit_design(design, s: dict) -> Audit:
             rows.append(_row("continuum gas", "viscosity / effective viscosity", 1.0, factor,
                              factor - 1.0, "mu / mu_eff - 1 (Veijola et al. 1995)", 0.05, 0.30,
                              f"Knudsen number lambda/g = {kn:.3g}"))
+        z_fe, z_cf = (damp.get("hole_resistance_pa_s_per_m3"),
+                      damp.get("hole_resistance_closed_form_pa_s_per_m3"))
+        if z_fe and z_cf and (damp.get("perforation") or {}).get("hole_model") == "stokes":
+            rows.append(_row("hole flow closed forms", "resistance per hole (Pa s/m^3)", z_cf,
+                             z_fe, _rel(z_cf, z_fe),
+                             "Skvor/Bao cell + Poiseuille + Sampson over Stokes FE cell - 1",
+                             0.05, 0.20,
+                             "the closed forms omit the turn of the flow from the film into the "
+                             "hole; damping scales about like the resistance"))
         ratio = damp.get("resonance_to_cutoff_ratio")
         if ratio is not None:
             sig = damp.get("squeeze_number_at_resonance")

@@ -145,6 +145,11 @@ def damping_stage(design: Design, mech, resonance_hz: float) -> Section:
     data["force_noise_n_per_rthz"] = float(np.sqrt(thermal.force_psd_n2_per_hz[0]))
     unc = {"damping_n_s_per_m": res.damping_relative_uncertainty,
            "cutoff_frequency_hz": data["cutoff_relative_uncertainty"]}
+    if res.perforation is not None:  # per-hole resistance used (Stokes cell) and closed forms
+        data["hole_resistance_pa_s_per_m3"] = res.perforation.resistance_pa_s_per_m3
+        data["hole_resistance_closed_form_pa_s_per_m3"] = \
+            res.perforation.closed_form_resistance_pa_s_per_m3
+        unc["hole_resistance_pa_s_per_m3"] = res.perforation.resistance_rel_error
     return Section(data, unc, {"squeeze": res, "air": air})
 
 

@@ -24,6 +24,7 @@ _EXPORTS = {
     "solve_coupled": "coupling.plate", "CoupledResult": "coupling.plate",
     "squeeze_film": "film.squeeze", "film_impedance": "film.squeeze", "SqueezeResult": "film.squeeze",
     "perforation": "film.perforation", "rarefaction_factor": "film.perforation",
+    "cell_flow_resistance": "film.stokes", "HoleFlow": "film.stokes",
     "air_properties": "air", "AirProperties": "air",
 }
 __all__ = sorted(_EXPORTS)

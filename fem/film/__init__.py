@@ -1,2 +1,3 @@
-"""Squeeze film: the Reynolds equation with perforation sinks (squeeze, result) and the hole and
-cell flow resistances with rarefaction (perforation)."""
+"""Squeeze film: the Reynolds equation with perforation sinks (squeeze, result), the hole and
+cell flow resistances with rarefaction (perforation: closed forms) and the axisymmetric Stokes
+solve of one perforation cell with slip walls (stokes)."""

@@ -12,10 +12,14 @@ Mass balance per unit area (volume flow, m/s):
     P = 0                                                         on ∂Ω (vented rim),
 
 with μ_eff the rarefied-gas viscosity (Veijola et al. 1995), n_h the holes per unit area and
-Z the flow resistance per hole including the flow from the cell into the hole
-(:mod:`diagap.fem.film.perforation`). The three left-hand terms are the lateral film flow, the flow out
-through the holes and the isothermal gas compression. The film pushes back on the diaphragm with
-the generalised force −∫ P φ dA; the mechanical impedance referred to the centre velocity is
+Z the flow resistance per hole from the cell-averaged film pressure to the open side, including
+the flow from the cell into the hole (:mod:`diagap.fem.film.perforation`): by default the axisymmetric
+Stokes solve of the cell with Maxwell slip walls (:mod:`diagap.fem.film.stokes`), the closed forms
+(Škvor/Bao cell + Poiseuille + Sampson) on request (``hole_model="closed-form"``). P is the
+cell-averaged pressure, so the Laplacian carries the flow between cells only and Z the flow
+within a cell (no part counted twice). The three left-hand terms are the lateral film flow,
+the flow out through the holes and the isothermal gas compression. The film pushes back on the
+diaphragm with the generalised force −∫ P φ dA; the mechanical impedance referred to the centre velocity is
 
     Z_m(ω) = ∫ P φ dA / v0 = b(ω) + k_film(ω)/(jω),
 
@@ -43,7 +47,9 @@ error estimate is Richardson's |J₁ − J₂| / (2^p − 1) with the order p ob
 levels (clamped to [1, 4]). Frequencies below half the lowest film eigenvalue are evaluated from
 the moments of one real factorisation (a convergent series with a rigorous remainder bound);
 the others by complex sparse LU. The cut-off frequency is where the spring and damping forces
-are equal, k_film = ω b.
+are equal, k_film = ω b. The relative error of the Stokes resistance Z is added to the relative
+damping error (a bound: |d ln b / d ln Z| <= 1, since b grows with Z towards the unperforated
+film and never faster than the perforated limit b ∝ Z).
 """
 from __future__ import annotations
 
@@ -58,7 +64,7 @@ from skfem import Basis, ElementTriP2, MeshTri, MeshTri2
 from diagap.meshes.diaphragm import disk_mesh, square_mesh
 
 from diagap.fem.air import AirProperties
-from diagap.fem.film.perforation import film_viscosity, perforation
+from diagap.fem.film.perforation import HOLE_MODELS, film_viscosity, perforation
 from diagap.fem.film.result import SqueezeResult
 from diagap.fem.forms import laplace, mass, source, squared
 from diagap.fem.richardson import observed_estimate
@@ -302,7 +308,8 @@ def film_impedance(shape: str, electrode_size_m: float, gap_m: float,
 def squeeze_film(shape: str, electrode_size_m: float, gap_m: float, hole_radius_m: float,
                  hole_pitch_m: float, lattice: str, backplate_thickness_m: float,
                  air: AirProperties, mode_shape, frequencies_hz,
-                 accuracy: str = "normal") -> SqueezeResult:
+                 accuracy: str = "normal", *, hole_model: str = "stokes",
+                 accommodation: float = 1.0) -> SqueezeResult:
     """Squeeze-film damping and film stiffness of a capsule's air gap.
 
     Parameters
@@ -323,6 +330,10 @@ def squeeze_film(shape: str, electrode_size_m: float, gap_m: float, hole_radius_
     frequencies_hz : array_like
         Frequencies of the returned spectra (Hz).
     accuracy : {"draft", "normal", "fine"}
+    hole_model : {"stokes", "closed-form"}
+        Resistance per hole from the Stokes cell (default) or the closed forms.
+    accommodation : float
+        Tangential momentum accommodation coefficient of the slip walls (Stokes cell).
 
     Returns
     -------
@@ -330,15 +341,25 @@ def squeeze_film(shape: str, electrode_size_m: float, gap_m: float, hole_radius_
         Damping and film stiffness referred to the centre velocity, with error estimates.
     """
     g = _check.positive("gap_m", gap_m)
+    _check.choice("accuracy", accuracy, tuple(_ACCURACY))
+    _check.choice("hole_model", hole_model, HOLE_MODELS)
     mu_film = film_viscosity(air.viscosity_pa_s, air.mean_free_path_m, g)
     if lattice == "none":
         perf, sink = None, 0.0
     elif lattice in ("hex", "square"):
         perf = perforation(lattice, hole_radius_m, hole_pitch_m, backplate_thickness_m, g,
-                           air.viscosity_pa_s, air.mean_free_path_m)
+                           air.viscosity_pa_s, air.mean_free_path_m, hole_model=hole_model,
+                           accommodation=accommodation, accuracy=accuracy)
         sink = perf.sink_m_per_pa_s
     else:
         _check.choice("lattice", lattice, ("hex", "square", "none"))
     result = film_impedance(shape, electrode_size_m, g, mu_film, air.static_pressure_pa, sink,
                             mode_shape, frequencies_hz, accuracy)
-    return replace(result, perforation=perf, knudsen_number=air.mean_free_path_m / g)
+    extra = 0.0 if perf is None else perf.resistance_rel_error
+    return replace(
+        result, perforation=perf, knudsen_number=air.mean_free_path_m / g,
+        damping_uncertainty_n_s_per_m=(result.damping_uncertainty_n_s_per_m
+                                       + extra * abs(result.damping_n_s_per_m)),
+        damping_spectrum_uncertainty_n_s_per_m=(
+            result.damping_spectrum_uncertainty_n_s_per_m
+            + extra * np.abs(result.damping_spectrum_n_s_per_m)))
