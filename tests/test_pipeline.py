@@ -37,7 +37,7 @@ def test_demo_run_writes_the_contract(demo_run):
     summary = json.loads((out / "summary.json").read_text())
     assert json.loads(proc.stdout) == summary
     assert summary["schema_version"]
-    assert summary["design"]["diaphragm"]["size_m"] == pytest.approx(0.5e-3)
+    assert summary["design"]["diaphragm"]["size_m"] == pytest.approx(0.5e-3, rel=1e-6, abs=0)
     for section, keys in CONTRACT.items():
         for key in keys:
             assert summary[section][key] is not None, f"{section}.{key}"
@@ -56,15 +56,15 @@ def test_demo_run_writes_the_contract(demo_run):
 
 def test_demo_numbers_are_physical(demo_run):
     # Common practice checks of the lumped result: positive sensitivity in the usual MEMS range,
-    # the electrical corner at 1/(2 pi R C_total), SNR = 94 dB - noise floor.
+    # the electrical corner at 1/(2 pi R C_total).
     import math
     _, out = demo_run
     s = json.loads((out / "summary.json").read_text())
     r, e = s["response"], s["design"]["electrical"]
     c_tot = s["electrostatics"]["rest_capacitance_f"] + e["parasitic_capacitance_f"] + \
         e["preamp_input_capacitance_f"]
-    assert r["highpass_corner_hz"] == pytest.approx(1 / (2 * math.pi * e["bias_resistance_ohm"] * c_tot), rel=0.02)
-    assert r["snr_db"] == pytest.approx(94.0 - r["noise_dba_spl"])
+    assert r["highpass_corner_hz"] == pytest.approx(1 / (2 * math.pi * e["bias_resistance_ohm"] * c_tot), rel=0.02, abs=0)
+    # (the SNR itself is recomputed from the noise spectrum in tests/test_snr.py)
     assert -70 < r["sensitivity_db_v_per_pa"] < -20
     assert s["coupled"]["pull_in_center_deflection_m"] > s["design"]["backplate"]["gap_m"] / 3
 

@@ -20,8 +20,9 @@ import numpy as np
 from scipy import special
 from skfem import MeshTri
 
+from checks import kirchhoff_plate
 from diagap.fem.levels import MeshSize, richardson
-from diagap.fem.plate.membrane import build_membrane_system, edge_shrink
+from diagap.fem.plate.membrane import build_membrane_system
 from diagap.fem.plate.membrane import _mesh as membrane_mesh
 from diagap.fem.plate.solver import PlateProblem, assemble_plate
 
@@ -35,7 +36,8 @@ def slope(h, err):
 
 def _disk_errors(edge):
     pr = PlateProblem("circle", 0.5e-3, residual_stress_pa=0.0, edge=edge, **POLY)
-    D, a, nu = pr.bending_stiffness, pr.size_m, pr.poisson_ratio
+    D = kirchhoff_plate(160e9, 1e-6, 0.22, 2330.0)[0]  # D = Eh³/(12(1 − ν²)) from raw inputs
+    a, nu = 0.5e-3, 0.22
     factor = 1.0 if edge == "clamped" else (5 + nu) / (1 + nu)
     exact = factor * a**4 / (64 * D)  # T&W 1959, ch. 3
     base = MeshSize(0.3, 0.06, 0.3)
@@ -69,10 +71,11 @@ def test_simply_supported_disk_converges_to_the_curved_limit():
 
 def test_argyris_high_order_on_square():
     pr = PlateProblem("square", 1e-3, 160e9, 0.3, 1e-6, 2330.0, 0.0, "simply-supported")
-    D, a = pr.bending_stiffness, pr.size_m
+    D, _, rs = kirchhoff_plate(160e9, 1e-6, 0.3, 2330.0)  # from raw inputs
+    a = 1e-3
     k2 = 2 * math.pi**2 / a**2
     w_exact = 1.0 / (D * k2 * k2)  # single Navier term, T&W ch. 5
-    f_exact = math.sqrt(D * k2 * k2 / pr.areal_density) / (2 * math.pi)
+    f_exact = math.sqrt(D * k2 * k2 / rs) / (2 * math.pi)
     n_cells = np.array([4, 6, 8])
     err_w, err_f = [], []
     for n in n_cells:
@@ -90,8 +93,8 @@ def test_argyris_high_order_on_square():
 
 def test_membrane_p2_order():
     pr = PlateProblem("circle", 0.5e-3, 1e3, 0.3, 1e-6, 2330.0, 10e6, "clamped")
-    T, rs, D = pr.tension_n_per_m, pr.areal_density, pr.bending_stiffness
-    a_eff = pr.size_m - edge_shrink(pr)
+    D, T, rs = kirchhoff_plate(1e3, 1e-6, 0.3, 2330.0, 10e6)  # from raw inputs
+    a_eff = 0.5e-3 - math.sqrt(D / T)  # clamped edge moved inward by √(D/T) (module docstring)
     k = special.jn_zeros(0, 1)[0] / a_eff
     f_exact = k * math.sqrt(T / rs) * math.sqrt(1 + D * k * k / T) / (2 * math.pi)
     h = np.array([0.3, 0.2, 0.133])
