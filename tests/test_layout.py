@@ -175,3 +175,24 @@ def test_only_the_cli_prints_or_exits():
         (2, "print("), (3, "sys.exit("), (4, "raise SystemExit")]
     for rel in CLI_MODULES:
         assert (REPO / rel).exists(), rel
+
+
+def test_tests_use_relative_tolerances():
+    # tests must be able to fail: pytest.approx keeps an absolute tolerance of 1e-12 unless told
+    # otherwise, np.allclose/np.isclose one of 1e-8 — either accepts any capacitance (~1e-12 F)
+    # or noise PSD (~1e-12 Pa²/Hz) as equal to any other. Every call states its absolute
+    # tolerance (abs=0 / atol=0 for SI values; tests/checks.py has relative helpers).
+    bad = []
+    for path in sorted((REPO / "tests").rglob("*.py")):
+        tree = ast.parse(path.read_text(encoding="utf-8"))
+        for node in ast.walk(tree):
+            if not isinstance(node, ast.Call):
+                continue
+            name = ast.unparse(node.func)
+            kws = {k.arg for k in node.keywords}
+            if name.endswith("approx") and name in ("pytest.approx", "approx") and "abs" not in kws:
+                bad.append(f"{path.relative_to(REPO)}:{node.lineno}: {name} without abs=")
+            elif name in ("np.allclose", "np.isclose", "numpy.allclose", "numpy.isclose") \
+                    and "atol" not in kws:
+                bad.append(f"{path.relative_to(REPO)}:{node.lineno}: {name} without atol=")
+    assert not bad, "\n".join(bad)
