@@ -81,3 +81,30 @@ def test_rc_corner_sensitivity_damping_resonance():
               / (2 * G**3), rel=1e-12)
     rel_close(an.piston_resonance_hz(50.0, 2e-9), math.sqrt(50.0 / 2e-9) / (2 * math.pi),
               rel=1e-12)
+
+
+def test_buckling_tensions():
+    # compressive membrane force N_cr at which the flat plate buckles (Timoshenko & Gere, Theory
+    # of Elastic Stability, 1961 [from memory]): clamped disk j_{1,1}² D/a² (j_{1,1} from
+    # scipy.special.jn_zeros); simply supported disk λ² D/a² with λ the first root of
+    # λ J0(λ) = (1 − ν) J1(λ); clamped square ≈ 5.30 π² D/a²; simply supported square 2 π² D/a²
+    # (Navier term (1,1)). a = radius (disk) or side (square); D from raw inputs.
+    from scipy.optimize import brentq
+    from scipy.special import j0, j1, jn_zeros
+
+    from diagap.lumped.buckling import critical_tension_n_per_m
+
+    d = kirchhoff_plate(E, H, NU, RHO)[0]
+    rel_close(critical_tension_n_per_m("circle", "clamped", A, d, NU),
+              jn_zeros(1, 1)[0] ** 2 * d / A**2, rel=1e-12)
+    lam = brentq(lambda x: x * j0(x) - (1 - NU) * j1(x), 1.0, 3.0, xtol=1e-14)
+    rel_close(critical_tension_n_per_m("circle", "simply-supported", A, d, NU), lam**2 * d / A**2,
+              rel=1e-9)
+    lam3 = brentq(lambda x: x * j0(x) - 0.7 * j1(x), 1.0, 3.0, xtol=1e-14)
+    rel_close(lam3**2, 4.20, rel=2e-3, what="SS disk N_cr = 4.20 D/a² at ν = 0.3 [from memory]")
+    rel_close(critical_tension_n_per_m("circle", "simply-supported", A, d, 0.3),
+              lam3**2 * d / A**2, rel=1e-9)
+    rel_close(critical_tension_n_per_m("square", "clamped", 1e-3, d, NU),
+              5.30 * math.pi**2 * d / 1e-6, rel=1e-12)
+    rel_close(critical_tension_n_per_m("square", "simply-supported", 1e-3, d, NU),
+              2 * math.pi**2 * d / 1e-6, rel=1e-12)

@@ -251,7 +251,7 @@ MUTATIONS = [
     M("analytic-membrane-square", "lumped/analytic.py", "total += sign * 16.0 / (math.pi**4",
       "total += sign * 8.0 / (math.pi**4", T + "test_closed_forms.py", "square membrane series 8/π⁴"),
     M("buckling-clamped-square", "lumped/buckling.py", "k = 5.30 if edge", "k = 4.00 if edge",
-      T + "test_design_errors.py", "clamped-square buckling coefficient 4"),
+      T + "test_closed_forms.py", "clamped-square buckling coefficient 4"),
 ]
 
 
