@@ -81,7 +81,7 @@ MUTATIONS = [
       PLATE + "::test_membrane_dominated_disk_against_plate_with_tension", "edge layer √(2D/T)"),
     M("membrane-bending-correction", "fem/plate/membrane.py",
       "lam = lam * (1.0 + self.bending_stiffness_nm", "lam = lam * (1.0 + 0.0 * self.bending_stiffness_nm",
-      PLATE + "::test_membrane_dominated_disk_against_plate_with_tension",
+      PLATE + "::test_membrane_model_near_its_threshold",
       "no (1 + D k²/T) frequency correction"),
     # ------------------------------------------------------- electrostatics (fem/field)
     M("cell-axisymmetric-weight", "fem/field/cell.py",
