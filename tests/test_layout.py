@@ -196,3 +196,21 @@ def test_tests_use_relative_tolerances():
                     and "atol" not in kws:
                 bad.append(f"{path.relative_to(REPO)}:{node.lineno}: {name} without atol=")
     assert not bad, "\n".join(bad)
+
+
+def test_session_uses_a_fresh_temporary_cache(diagap_cache_dir):
+    # tests/conftest.py: the whole session (and every subprocess it starts) uses a temporary
+    # cache folder, never the user's platform cache
+    import os
+    import tempfile
+
+    from diagap.meshes.cache import cache_dir
+
+    assert Path(diagap_cache_dir).name.startswith("diagap-test-cache-")
+    assert Path(diagap_cache_dir).parent == Path(tempfile.gettempdir())
+    assert cache_dir() == Path(diagap_cache_dir)
+    proc = subprocess.run([sys.executable, "-c", "from diagap.meshes.cache import cache_dir; "
+                           "print(cache_dir())"], capture_output=True, text=True)
+    assert proc.returncode == 0, proc.stderr
+    assert proc.stdout.strip() == diagap_cache_dir
+    assert os.environ["DIAGAP_CACHE_DIR"] == diagap_cache_dir
