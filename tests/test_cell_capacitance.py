@@ -68,6 +68,14 @@ def test_convergence_under_rim_refinement():
     slope = np.polyfit(np.log(scales), np.log(errors), 1)[0]
     assert slope > 1.2
     assert errors[-1] / ref < 5e-5  # the finer level of "normal"
+    # the reported estimate is the two-level Richardson estimate with the corner order 4/3
+    # (Grisvard 1985 [from memory]: u ~ ρ^(2/3) at the 270° rim corner, energy error ~ h^(4/3)),
+    # levels a factor 2 apart; the observed order above must not be below it
+    normal = cell_capacitance(GAP, 4e-6, PITCH, "hex", T)
+    (_, coarse), (_, fine) = normal.levels
+    assert normal.rel_error == pytest.approx(abs(fine - coarse) / ((2 ** (4 / 3) - 1) * fine),
+                                             rel=1e-9, abs=0)
+    assert slope >= 4 / 3 - 0.1
 
 
 @pytest.mark.parametrize("case", [

@@ -34,6 +34,22 @@ def slope(h, err):
     return float(np.polyfit(np.log(h), np.log(np.abs(err)), 1)[0])
 
 
+def test_richardson_estimate_is_exact_for_a_power_law():
+    # Richardson (Phil. Trans. R. Soc. A 210, 1911): if v(h) = v* + C h^p, then with levels h and
+    # h/r the error of the fine value is |v_fine − v_coarse|/(r^p − 1), exactly. The helper's
+    # relative estimate must reproduce it (plus its stated noise floor, below 1e-4).
+    from diagap.fem.levels import RATIO
+
+    v_star, c = 2.5e-9, 3e-10
+    for p in (1.0, 4.0 / 3.0, 2.0, 4.0):
+        for h in (0.4, 0.1):
+            coarse, fine = v_star + c * h**p, v_star + c * (h / RATIO) ** p
+            true = abs(fine - v_star) / fine
+            est = float(richardson(np.array([coarse]), np.array([fine]), order=p)[0])
+            assert true <= est <= true + 1e-4, (p, h, true, est)
+            assert est - true < 0.01 * true + 1e-4
+
+
 def _disk_errors(edge):
     pr = PlateProblem("circle", 0.5e-3, residual_stress_pa=0.0, edge=edge, **POLY)
     D = kirchhoff_plate(160e9, 1e-6, 0.22, 2330.0)[0]  # D = Eh³/(12(1 − ν²)) from raw inputs
