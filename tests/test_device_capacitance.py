@@ -56,9 +56,9 @@ def test_piston_over_solid_plate_is_parallel_plate_plus_rim(solid_table, demo_ri
     area = math.pi * R_EL**2
     expected = epsilon_0 * area / (G - dev.x_m) + demo_rim(G - dev.x_m)
     np.testing.assert_allclose(dev.capacitance_f, expected, rtol=1e-10)
-    assert dev.parallel_plate_capacitance_f == pytest.approx(epsilon_0 * area / G, rel=1e-12)
+    assert dev.parallel_plate_capacitance_f == pytest.approx(epsilon_0 * area / G, rel=1e-12, abs=0)
     assert dev.capacitance_slope_f_per_m == pytest.approx(
-        epsilon_0 * area / G**2 - demo_rim.derivative(G), rel=1e-10)
+        epsilon_0 * area / G**2 - demo_rim.derivative(G), rel=1e-10, abs=0)
 
 
 def test_clamped_shape_matches_closed_form(solid_table):
@@ -78,10 +78,10 @@ def test_clamped_shape_matches_closed_form(solid_table):
     np.testing.assert_allclose(dev.capacitance_f, exact, rtol=1e-9)
     h = 1e-4 * G
     assert dev.capacitance_slope_f_per_m == pytest.approx(
-        (closed(h) - closed(-h)) / (2 * h), rel=1e-7)
+        (closed(h) - closed(-h)) / (2 * h), rel=1e-7, abs=0)
     # at x = 0 the slope is ε0·∫φ dA/g² = ε0·πa²/(3g²)
     assert dev.capacitance_slope_f_per_m == pytest.approx(
-        epsilon_0 * math.pi * R_EL**2 / (3 * G**2), rel=1e-9)
+        epsilon_0 * math.pi * R_EL**2 / (3 * G**2), rel=1e-9, abs=0)
 
 
 def test_perforated_device_curve(demo_table, demo_rim):
@@ -90,18 +90,18 @@ def test_perforated_device_curve(demo_table, demo_rim):
     phi_rim = (1 - (R_EL / R_DIA) ** 2) ** 2
     dev = device_capacitance(w, phi, demo_table, G, demo_rim, phi_rim=phi_rim)
     C, x = dev.capacitance_f, dev.x_m
-    assert x[0] == pytest.approx(-G / 3) and x[-1] == pytest.approx(G / 3)
+    assert x[0] == pytest.approx(-G / 3, rel=1e-6, abs=0) and x[-1] == pytest.approx(G / 3, rel=1e-6, abs=0)
     assert np.all(np.diff(C) > 0)  # monotonic: the gap closes as x grows
-    assert C[len(C) // 2] == pytest.approx(dev.rest_capacitance_f, rel=1e-14)
+    assert C[len(C) // 2] == pytest.approx(dev.rest_capacitance_f, rel=1e-14, abs=0)
     assert dev.rest_capacitance_f == pytest.approx(
-        math.pi * R_EL**2 * demo_table(G) + demo_rim(G), rel=1e-9)
+        math.pi * R_EL**2 * demo_table(G) + demo_rim(G), rel=1e-9, abs=0)
     # slope against finite differences of the callable and of the curve itself
     h = 1e-5 * G
-    assert dev.capacitance_slope_f_per_m == pytest.approx((dev(h) - dev(-h)) / (2 * h), rel=1e-6)
+    assert dev.capacitance_slope_f_per_m == pytest.approx((dev(h) - dev(-h)) / (2 * h), rel=1e-6, abs=0)
     k = len(C) // 2
     assert dev.capacitance_slope_f_per_m == pytest.approx(
-        (C[k + 1] - C[k - 1]) / (x[k + 1] - x[k - 1]), rel=2e-3)
-    assert np.allclose(dev(x), C, rtol=1e-14)
+        (C[k + 1] - C[k - 1]) / (x[k + 1] - x[k - 1]), rel=2e-3, abs=0)
+    assert np.allclose(dev(x), C, rtol=1e-14, atol=0)
     # the holes lower C below the solid-plate value; the rim adds to it
     assert dev.perforation_factor < 1 and dev.rim_fringing_capacitance_f > 0
     assert 0 < dev.rel_error < 1e-3 and 0 < dev.slope_rel_error < 1e-2
@@ -116,7 +116,7 @@ def test_summary_block(demo_table, demo_rim):
                 "open_area_fraction", "rim_fringing_capacitance_f"):
         assert key in s
     assert len(s["capacitance_curve"]) == 41 and len(s["capacitance_curve"][0]) == 2
-    assert s["open_area_fraction"] == pytest.approx(math.pi * 16 / (math.sqrt(3) / 2 * 400))
+    assert s["open_area_fraction"] == pytest.approx(math.pi * 16 / (math.sqrt(3) / 2 * 400), rel=1e-6, abs=0)
 
 
 def test_table_fit_and_slope(demo_table):
@@ -124,15 +124,15 @@ def test_table_fit_and_slope(demo_table):
     g = 4.37e-6  # not a sample
     direct = cell_capacitance(g, A_HOLE, PITCH, "hex", T, accuracy="fine")
     tol = demo_table.fit_error + demo_table.rel_error + direct.rel_error
-    assert demo_table(g) == pytest.approx(direct.capacitance_density_f_per_m2, rel=3 * tol)
+    assert demo_table(g) == pytest.approx(direct.capacitance_density_f_per_m2, rel=3 * tol, abs=0)
     # dc/dg against a central difference of independent FE cells
     h = 0.02 * g
     cp, cm = (cell_capacitance(g + s, A_HOLE, PITCH, "hex", T, accuracy="fine")
               .capacitance_density_f_per_m2 for s in (h, -h))
-    assert demo_table.derivative(g) == pytest.approx((cp - cm) / (2 * h), rel=2e-3)
-    assert demo_table.spline_derivative(g) == pytest.approx(demo_table.derivative(g), rel=1e-3)
+    assert demo_table.derivative(g) == pytest.approx((cp - cm) / (2 * h), rel=2e-3, abs=0)
+    assert demo_table.spline_derivative(g) == pytest.approx(demo_table.derivative(g), rel=1e-3, abs=0)
     c0 = cell_capacitance(g, A_HOLE, PITCH, "hex", T, accuracy="fine").capacitance_density_f_per_m2
-    assert demo_table.curvature(g) == pytest.approx((cp - 2 * c0 + cm) / h**2, rel=1e-2)
+    assert demo_table.curvature(g) == pytest.approx((cp - 2 * c0 + cm) / h**2, rel=1e-2, abs=0)
     assert demo_table.slope(g) == demo_table.derivative(g)
     with pytest.raises(ElectrostaticsInputError, match="outside the capacitance table range"):
         demo_table(0.5 * G)
@@ -140,9 +140,9 @@ def test_table_fit_and_slope(demo_table):
 
 def test_solid_table_is_exact(solid_table):
     np.testing.assert_allclose(solid_table.coefficients, [1, 0, 0, 0], atol=1e-10)
-    assert solid_table(G) == pytest.approx(epsilon_0 / G, rel=1e-12)
-    assert solid_table.derivative(G) == pytest.approx(-epsilon_0 / G**2, rel=1e-9)
-    assert solid_table.curvature(G) == pytest.approx(2 * epsilon_0 / G**3, rel=1e-9)
+    assert solid_table(G) == pytest.approx(epsilon_0 / G, rel=1e-12, abs=0)
+    assert solid_table.derivative(G) == pytest.approx(-epsilon_0 / G**2, rel=1e-9, abs=0)
+    assert solid_table.curvature(G) == pytest.approx(2 * epsilon_0 / G**3, rel=1e-9, abs=0)
 
 
 def test_wide_gap_range_fit():
@@ -158,13 +158,13 @@ def test_plane_rim_model_matches_palmer_strips():
                                  axisymmetric=False)
     w = 2 * half
     palmer = w * (1 + (1 + math.log(2 * math.pi * w)) / (math.pi * w))
-    assert 2 * energy == pytest.approx(palmer, rel=2e-4)
+    assert 2 * energy == pytest.approx(palmer, rel=2e-4, abs=0)
 
 
 def test_square_rim_uses_perimeter(demo_rim):
     sq = rim_fringing(R_EL, R_DIA, G, T, shape="square", accuracy="draft")
-    assert sq.perimeter_m == pytest.approx(8 * R_EL)
-    assert sq.per_length_f_per_m == pytest.approx(demo_rim.per_length_f_per_m, rel=0.1)
+    assert sq.perimeter_m == pytest.approx(8 * R_EL, rel=1e-6, abs=0)
+    assert sq.per_length_f_per_m == pytest.approx(demo_rim.per_length_f_per_m, rel=0.1, abs=0)
 
 
 @pytest.mark.parametrize("kwargs,match", [

@@ -37,7 +37,7 @@ def test_demo_run_writes_the_contract(demo_run):
     summary = json.loads((out / "summary.json").read_text())
     assert json.loads(proc.stdout) == summary
     assert summary["schema_version"]
-    assert summary["design"]["diaphragm"]["size_m"] == pytest.approx(0.5e-3)
+    assert summary["design"]["diaphragm"]["size_m"] == pytest.approx(0.5e-3, rel=1e-6, abs=0)
     for section, keys in CONTRACT.items():
         for key in keys:
             assert summary[section][key] is not None, f"{section}.{key}"
@@ -56,16 +56,34 @@ def test_demo_run_writes_the_contract(demo_run):
 
 def test_demo_numbers_are_physical(demo_run):
     # Common practice checks of the lumped result: positive sensitivity in the usual MEMS range,
-    # the electrical corner at 1/(2 pi R C_total), SNR = 94 dB - noise floor.
+    # the electrical corner at 1/(2 pi R C_total).
     import math
     _, out = demo_run
     s = json.loads((out / "summary.json").read_text())
     r, e = s["response"], s["design"]["electrical"]
     c_tot = s["electrostatics"]["rest_capacitance_f"] + e["parasitic_capacitance_f"] + \
         e["preamp_input_capacitance_f"]
-    assert r["highpass_corner_hz"] == pytest.approx(1 / (2 * math.pi * e["bias_resistance_ohm"] * c_tot), rel=0.02)
-    assert r["snr_db"] == pytest.approx(94.0 - r["noise_dba_spl"])
-    assert -70 < r["sensitivity_db_v_per_pa"] < -20
+    assert r["highpass_corner_hz"] == pytest.approx(1 / (2 * math.pi * e["bias_resistance_ohm"] * c_tot), rel=0.02, abs=0)
+    # (the SNR itself is recomputed from the noise spectrum in tests/test_snr.py)
+    # mid-band sensitivity and resonance by hand from the FE sections (rigid-piston lumping of
+    # the mode; Senturia, Microsystem Design, 2001, ch. 6 [from memory]): Γ = V·C'(x_b),
+    # C_t = C(x_b) + C_p + C_in, k_cq = k_soft + Γ²/C_t + A_eff²γp0/V_back, S = Γ/C_t·A_eff/k_cq.
+    # Left out here: film stiffness, vent, 1 kHz not exactly mid-band (measured 0.7 % / 0.2 %).
+    import numpy as np
+    m, c, ac = s["mechanics"], s["coupled"], s["design"]["acoustics"]
+    curve = np.array(s["electrostatics"]["capacitance_curve"])
+    xb = c["bias_center_deflection_m"]
+    i = int(np.searchsorted(curve[:, 0], xb))
+    slope = (curve[i, 1] - curve[i - 1, 1]) / (curve[i, 0] - curve[i - 1, 0])
+    gamma = e["bias_voltage_v"] * slope
+    c_t = np.interp(xb, curve[:, 0], curve[:, 1]) + e["parasitic_capacitance_f"] + \
+        e["preamp_input_capacitance_f"]
+    area = m["effective_area_m2"]
+    k_cq = c["softened_stiffness_n_per_m"] + gamma**2 / c_t + \
+        area**2 * 1.4 * ac["static_pressure_pa"] / ac["back_volume_m3"]
+    assert r["sensitivity_v_per_pa"] == pytest.approx(gamma / c_t * area / k_cq, rel=0.02, abs=0)
+    f_res = math.sqrt(k_cq / m["effective_mass_kg"]) / (2 * math.pi)
+    assert r["resonance_hz"] == pytest.approx(f_res, rel=0.01, abs=0)
     assert s["coupled"]["pull_in_center_deflection_m"] > s["design"]["backplate"]["gap_m"] / 3
 
 

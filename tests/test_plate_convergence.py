@@ -20,8 +20,9 @@ import numpy as np
 from scipy import special
 from skfem import MeshTri
 
+from checks import kirchhoff_plate
 from diagap.fem.levels import MeshSize, richardson
-from diagap.fem.plate.membrane import build_membrane_system, edge_shrink
+from diagap.fem.plate.membrane import build_membrane_system
 from diagap.fem.plate.membrane import _mesh as membrane_mesh
 from diagap.fem.plate.solver import PlateProblem, assemble_plate
 
@@ -33,9 +34,26 @@ def slope(h, err):
     return float(np.polyfit(np.log(h), np.log(np.abs(err)), 1)[0])
 
 
+def test_richardson_estimate_is_exact_for_a_power_law():
+    # Richardson (Phil. Trans. R. Soc. A 210, 1911): if v(h) = v* + C h^p, then with levels h and
+    # h/r the error of the fine value is |v_fine − v_coarse|/(r^p − 1), exactly. The helper's
+    # relative estimate must reproduce it (plus its stated noise floor, below 1e-4).
+    from diagap.fem.levels import RATIO
+
+    v_star, c = 2.5e-9, 3e-10
+    for p in (1.0, 4.0 / 3.0, 2.0, 4.0):
+        for h in (0.4, 0.1):
+            coarse, fine = v_star + c * h**p, v_star + c * (h / RATIO) ** p
+            true = abs(fine - v_star) / fine
+            est = float(richardson(np.array([coarse]), np.array([fine]), order=p)[0])
+            assert true <= est <= true + 1e-4, (p, h, true, est)
+            assert est - true < 0.01 * true + 1e-4
+
+
 def _disk_errors(edge):
     pr = PlateProblem("circle", 0.5e-3, residual_stress_pa=0.0, edge=edge, **POLY)
-    D, a, nu = pr.bending_stiffness, pr.size_m, pr.poisson_ratio
+    D = kirchhoff_plate(160e9, 1e-6, 0.22, 2330.0)[0]  # D = Eh³/(12(1 − ν²)) from raw inputs
+    a, nu = 0.5e-3, 0.22
     factor = 1.0 if edge == "clamped" else (5 + nu) / (1 + nu)
     exact = factor * a**4 / (64 * D)  # T&W 1959, ch. 3
     base = MeshSize(0.3, 0.06, 0.3)
@@ -69,10 +87,11 @@ def test_simply_supported_disk_converges_to_the_curved_limit():
 
 def test_argyris_high_order_on_square():
     pr = PlateProblem("square", 1e-3, 160e9, 0.3, 1e-6, 2330.0, 0.0, "simply-supported")
-    D, a = pr.bending_stiffness, pr.size_m
+    D, _, rs = kirchhoff_plate(160e9, 1e-6, 0.3, 2330.0)  # from raw inputs
+    a = 1e-3
     k2 = 2 * math.pi**2 / a**2
     w_exact = 1.0 / (D * k2 * k2)  # single Navier term, T&W ch. 5
-    f_exact = math.sqrt(D * k2 * k2 / pr.areal_density) / (2 * math.pi)
+    f_exact = math.sqrt(D * k2 * k2 / rs) / (2 * math.pi)
     n_cells = np.array([4, 6, 8])
     err_w, err_f = [], []
     for n in n_cells:
@@ -90,8 +109,8 @@ def test_argyris_high_order_on_square():
 
 def test_membrane_p2_order():
     pr = PlateProblem("circle", 0.5e-3, 1e3, 0.3, 1e-6, 2330.0, 10e6, "clamped")
-    T, rs, D = pr.tension_n_per_m, pr.areal_density, pr.bending_stiffness
-    a_eff = pr.size_m - edge_shrink(pr)
+    D, T, rs = kirchhoff_plate(1e3, 1e-6, 0.3, 2330.0, 10e6)  # from raw inputs
+    a_eff = 0.5e-3 - math.sqrt(D / T)  # clamped edge moved inward by √(D/T) (module docstring)
     k = special.jn_zeros(0, 1)[0] / a_eff
     f_exact = k * math.sqrt(T / rs) * math.sqrt(1 + D * k * k / T) / (2 * math.pi)
     h = np.array([0.3, 0.2, 0.133])

@@ -18,8 +18,10 @@ from diagap.report.spice import impedance_scale, spice_netlist, write_spice
 from diagap.lumped.response import frequency_response
 
 NGSPICE = shutil.which("ngspice")
-needs_ngspice = pytest.mark.skipif(NGSPICE is None, reason="ngspice not installed "
-                                   "(apt-get install ngspice) — SPICE comparison skipped")
+# skipped (reason printed) without ngspice; a failure on CI (tests/conftest.py)
+needs_ngspice = pytest.mark.external_tool(
+    "ngspice", NGSPICE is not None,
+    "ngspice not installed (apt-get install ngspice) — SPICE comparison skipped")
 
 
 def piston():
@@ -61,18 +63,18 @@ def run_ngspice(netlist: str, tmp_path) -> np.ndarray:
 @pytest.mark.parametrize("make", [piston, small_curved_capsule])
 def test_ngspice_agrees_with_response(make, tmp_path):
     # reference: ngspice (Berkeley SPICE3 descendant) AC analysis of the exported netlist;
-    # agreement within 0.05 dB and 0.5° from 10 Hz to 50 kHz
+    # agreement within 1e-4 dB and 1e-3° from 10 Hz to 50 kHz (observed 3e-8 dB, 2e-7°)
     model = make()
     path = write_spice(model, tmp_path)
     rows = run_ngspice(path.read_text(), tmp_path)
     f = rows[:, 0]
-    assert f[0] == pytest.approx(1.0) and f[-1] == pytest.approx(1e5)
+    assert f[0] == pytest.approx(1.0, rel=1e-6, abs=0) and f[-1] == pytest.approx(1e5, rel=1e-6, abs=0)
     band = (f >= 10.0) & (f <= 5e4)
     h_spice = rows[band, 1] + 1j * rows[band, 2]
     h = frequency_response(model, f[band]).voltage_per_pa
     ratio = h_spice / h
-    assert np.max(np.abs(20 * np.log10(np.abs(ratio)))) < 0.05
-    assert np.max(np.abs(np.degrees(np.angle(ratio)))) < 0.5
+    assert np.max(np.abs(20 * np.log10(np.abs(ratio)))) < 1e-4
+    assert np.max(np.abs(np.degrees(np.angle(ratio)))) < 1e-3
 
 
 def _elements(text: str) -> list[str]:
@@ -124,7 +126,7 @@ def test_write_to_directory(tmp_path):
 def test_ngspice_agrees_with_the_demo_pipeline_model(tmp_path):
     # reference: ngspice AC analysis of the netlist exported from the demo's FE-extracted model.
     # The netlist carries the low-frequency film damping (its header says so); diagap's own
-    # response with that same constant damping must agree within 0.05 dB and 0.5 degrees.
+    # response with that same constant damping must agree within 1e-3 dB and 0.01 degrees.
     from diagap.design import demo_design
     from diagap.pipeline import run_design
 
@@ -135,5 +137,5 @@ def test_ngspice_agrees_with_the_demo_pipeline_model(tmp_path):
     keep = (f >= 10.0) & (f <= 50e3)
     ours = frequency_response(model, f[keep]).voltage_per_pa
     theirs = rows[keep, 1] + 1j * rows[keep, 2]
-    assert np.max(np.abs(20 * np.log10(np.abs(theirs) / np.abs(ours)))) < 0.05
-    assert np.max(np.abs(np.angle(theirs / ours, deg=True))) < 0.5
+    assert np.max(np.abs(20 * np.log10(np.abs(theirs) / np.abs(ours)))) < 1e-3
+    assert np.max(np.abs(np.angle(theirs / ours, deg=True))) < 1e-2

@@ -176,7 +176,7 @@ def test_flatten_keeps_numeric_scalars_and_short_lists_of_any_section():
     s["audit"] = [{"assumption": "rigid piston", "deviation": 0.1}]
     s["coupled"] = {"pull_in_voltage_v": float("inf"), "collapsed": False, "note": None}
     out, unc = flatten_summary(s)
-    assert out["mechanics.natural_frequencies_hz_1"] == pytest.approx(1.04e4)
+    assert out["mechanics.natural_frequencies_hz_1"] == pytest.approx(1.04e4, rel=1e-6, abs=0)
     assert out["mechanics.natural_frequencies_hz_4"] == 6e4
     assert out["coupled.pull_in_voltage_v"] is None and out["coupled.collapsed"] is False
     assert "coupled.note" in out and out["response.sensitivity_db_v_per_pa"] == -39.0
@@ -230,7 +230,7 @@ def test_serial_sweep_writes_records_csv_and_plots(tmp_path):
     assert {r["analysis.accuracy"] for r in rows} == {"draft"}
     r0 = rows[0]
     assert float(r0["backplate.hole_radius_m"]) == 2e-6
-    assert float(r0["mechanics.center_compliance_m_per_pa"]) == pytest.approx(1e-9 * 1.1)
+    assert float(r0["mechanics.center_compliance_m_per_pa"]) == pytest.approx(1e-9 * 1.1, rel=1e-6, abs=0)
     summary = json.loads((res.out_dir / "points" / f"{r0['point_id']}.json").read_text())
     assert summary["mechanics"]["capacitance_curve"][1] == [1e-7, 1.1e-12]
     names = {p.name for p in res.plot_files}
@@ -250,7 +250,7 @@ def test_invalid_combination_is_recorded_and_the_others_kept(tmp_path):
                                    "than half the hole_pitch")
     rows = _rows(res.csv_path)
     assert rows[1]["status"] == "failed" and rows[1]["mechanics.center_compliance_m_per_pa"] == ""
-    assert float(rows[2]["mechanics.center_compliance_m_per_pa"]) == pytest.approx(1.3e-9)
+    assert float(rows[2]["mechanics.center_compliance_m_per_pa"]) == pytest.approx(1.3e-9, rel=1e-6, abs=0)
     assert "hole_pitch" in rows[1]["error"]
 
 

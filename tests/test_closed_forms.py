@@ -1,0 +1,110 @@
+"""The closed forms of the simple capsule model (lumped.analytic) against their published
+expressions, written out here from raw inputs. Parameter values are invented."""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+from scipy.constants import epsilon_0
+
+from checks import kirchhoff_plate, rel_close
+from diagap.lumped import analytic as an
+
+E, H, NU, RHO = 160e9, 1e-6, 0.22, 2330.0
+A, G = 0.5e-3, 4e-6
+
+
+def test_capacitor_forms():
+    # elementary electrostatics: C = ε0A/g; open-area rule C = ε0A(1 − φ)/g (common practice)
+    area = math.pi * A**2
+    rel_close(an.parallel_plate_capacitance(area, G), 8.8541878128e-12 * area / G, rel=1e-9)
+    rel_close(an.open_area_capacitance(area, G, 0.145), epsilon_0 * area * 0.855 / G, rel=1e-12)
+
+
+def test_piston_pull_in():
+    # Nathanson et al., IEEE Trans. Electron Devices 14 (1967): V_PI = √(8kg³/(27ε0A))
+    k, area = 50.0, math.pi * A**2
+    v = an.piston_pull_in_voltage(k, G, area)
+    rel_close(v, math.sqrt(8 * k * G**3 / (27 * epsilon_0 * area)), rel=1e-12)
+    # at V_PI the balance kx = ε0AV²/(2(g − x)²) has its fold at x = g/3
+    x = G / 3
+    rel_close(k * x, epsilon_0 * area * v**2 / (2 * (G - x) ** 2), rel=1e-12)
+
+
+def test_membrane_pull_in():
+    # Pelesko & Bernstein 2002, ch. 7 [value from memory]: λ* = ε0V²a²/(2Tg³) = 0.789
+    t = 10e6 * H
+    v = an.membrane_pull_in_voltage(A, t, G)
+    rel_close(epsilon_0 * v**2 * A**2 / (2 * t * G**3), 0.789, rel=1e-12)
+
+
+@pytest.mark.parametrize("edge,factor", [("clamped", 1.0),
+                                         ("simply-supported", (5 + NU) / (1 + NU))])
+def test_disk_plate_compliance(edge, factor):
+    # Timoshenko & Woinowsky-Krieger 1959, ch. 3: w0 = p a⁴/(64 D), ×(5+ν)/(1+ν) when simply
+    # supported; D from the raw inputs
+    d = kirchhoff_plate(E, H, NU, RHO)[0]
+    rel_close(an.plate_center_compliance("circle", edge, A, d, NU), factor * A**4 / (64 * d),
+              rel=1e-12)
+
+
+@pytest.mark.parametrize("edge,coefficient", [("clamped", 0.00126), ("simply-supported", 0.00406)])
+def test_square_plate_compliance(edge, coefficient):
+    # T&W 1959, tables for the square plate (ν = 0.3) [from memory]: w_max = α p a⁴/D
+    d = kirchhoff_plate(E, H, 0.3, RHO)[0]
+    rel_close(an.plate_center_compliance("square", edge, 1e-3, d, 0.3), coefficient * 1e-12 / d,
+              rel=1e-12)
+
+
+def test_membrane_compliance():
+    # disk: w0 = p a²/(4T) (Morse 1948); square of side a: Fourier series of the Poisson problem
+    # T∇²w = −p summed here to 2000 terms per direction; ≈ 0.0737 a²/T [from memory]
+    t = 10e6 * H
+    rel_close(an.membrane_center_compliance("circle", A, t), A**2 / (4 * t), rel=1e-12)
+    m = np.arange(1, 4000, 2)[:, None]
+    n = m.T
+    series = np.sum((-1.0) ** ((m + n) // 2 - 1) * 16 / (np.pi**4 * m * n * (m * m + n * n)))
+    value = an.membrane_center_compliance("square", 1e-3, t)
+    rel_close(value, series * 1e-6 / t, rel=1e-4, what="square membrane")
+    rel_close(value * t / 1e-6, 0.0737, rel=2e-3, what="0.0737 a²/T")
+
+
+def test_rc_corner_sensitivity_damping_resonance():
+    # first-order high-pass f = 1/(2πRC); piston sensitivity (V/g)·x/p·C0/(C0 + Cp) (common
+    # practice); Griffin et al. 1966 [from memory] b = 3πμa⁴/(2g³); f = √(k/m)/(2π)
+    rel_close(an.rc_highpass_corner_hz(1e10, 1.5e-12), 1 / (2 * math.pi * 1e10 * 1.5e-12),
+              rel=1e-12)
+    rel_close(an.piston_sensitivity_v_per_pa(10.0, G, 2e-9, 1.7e-12, 0.3e-12),
+              10.0 / G * 2e-9 * 1.7 / 2.0, rel=1e-12)
+    rel_close(an.griffin_damping(1.8e-5, 0.45e-3, G), 3 * math.pi * 1.8e-5 * 0.45e-3**4
+              / (2 * G**3), rel=1e-12)
+    rel_close(an.piston_resonance_hz(50.0, 2e-9), math.sqrt(50.0 / 2e-9) / (2 * math.pi),
+              rel=1e-12)
+
+
+def test_buckling_tensions():
+    # compressive membrane force N_cr at which the flat plate buckles (Timoshenko & Gere, Theory
+    # of Elastic Stability, 1961 [from memory]): clamped disk j_{1,1}² D/a² (j_{1,1} from
+    # scipy.special.jn_zeros); simply supported disk λ² D/a² with λ the first root of
+    # λ J0(λ) = (1 − ν) J1(λ); clamped square ≈ 5.30 π² D/a²; simply supported square 2 π² D/a²
+    # (Navier term (1,1)). a = radius (disk) or side (square); D from raw inputs.
+    from scipy.optimize import brentq
+    from scipy.special import j0, j1, jn_zeros
+
+    from diagap.lumped.buckling import critical_tension_n_per_m
+
+    d = kirchhoff_plate(E, H, NU, RHO)[0]
+    rel_close(critical_tension_n_per_m("circle", "clamped", A, d, NU),
+              jn_zeros(1, 1)[0] ** 2 * d / A**2, rel=1e-12)
+    lam = brentq(lambda x: x * j0(x) - (1 - NU) * j1(x), 1.0, 3.0, xtol=1e-14)
+    rel_close(critical_tension_n_per_m("circle", "simply-supported", A, d, NU), lam**2 * d / A**2,
+              rel=1e-9)
+    lam3 = brentq(lambda x: x * j0(x) - 0.7 * j1(x), 1.0, 3.0, xtol=1e-14)
+    rel_close(lam3**2, 4.20, rel=2e-3, what="SS disk N_cr = 4.20 D/a² at ν = 0.3 [from memory]")
+    rel_close(critical_tension_n_per_m("circle", "simply-supported", A, d, 0.3),
+              lam3**2 * d / A**2, rel=1e-9)
+    rel_close(critical_tension_n_per_m("square", "clamped", 1e-3, d, NU),
+              5.30 * math.pi**2 * d / 1e-6, rel=1e-12)
+    rel_close(critical_tension_n_per_m("square", "simply-supported", 1e-3, d, NU),
+              2 * math.pi**2 * d / 1e-6, rel=1e-12)
