@@ -81,3 +81,13 @@ def test_api_tour_script():
     assert on_disk["coupled"]["pull_in_voltage_v"] == pytest.approx(mod.PULL_IN_V, rel=1e-12,
                                                                    abs=0)
     shutil.rmtree(mod.OUT)
+
+
+def test_public_api_names_resolve_and_are_documented():
+    import diagap
+
+    for name in diagap.__all__:
+        obj = getattr(diagap, name)
+        assert obj.__doc__ and obj.__doc__.strip(), name
+    with pytest.raises(AttributeError, match="no attribute 'solve'"):
+        diagap.solve
