@@ -28,7 +28,7 @@ def _backplate_patch(ax, cell, f):
                            hatch="///", lw=0.8))
     ax.text(0.5 * (cell.hole_radius_m + cell.cell_radius_m) * f,
             (cell.gap_m + 0.5 * cell.backplate_thickness_m) * f, "backplate (1 V)",
-            ha="center", va="center", fontsize=8, bbox={"fc": "white", "ec": "none", "pad": 1})
+            ha="center", va="center", fontsize=9, bbox={"fc": "white", "ec": "none", "pad": 1})
 
 
 def _field_ticks(lo: float, hi: float) -> list[float]:
@@ -56,7 +56,7 @@ def draw_cell_field(cell):
                             cmap=SEQUENTIAL_MAP)
     lines = a1.tricontour(tri, cell.potential_v, levels=np.linspace(0.1, 0.9, 9), colors="black",
                           linewidths=0.7)
-    a1.clabel(lines, levels=lines.levels[::2], fmt="%.1f", fontsize=7)
+    a1.clabel(lines, levels=lines.levels[::2], fmt="%.1f", fontsize=9)
     fig.colorbar(filled, ax=a1, location="bottom", label="potential u (V) at 1 V",
                  ticks=np.linspace(0, 1, 6), shrink=0.9, pad=0.12)
     e = cell.field_v_per_m
@@ -109,7 +109,7 @@ def draw_capacitance(device, bias_deflection_m: float | None = None):
         a1.plot([], [], color="0.3", ls=":",
                 label=f"bias point x = {bias_deflection_m * fx:.3g} {xl}")
     a1.set_ylabel(f"capacitance ({cl})")
-    a1.legend(fontsize=8, loc="upper left")
+    a1.legend(fontsize=9, loc="upper left")
     a2.set_ylabel("(linear − C)/C (%)")
     a2.set_xlabel(f"centre displacement x towards the backplate ({xl}); gap {g * fx:.3g} {xl}")
     return fig
@@ -148,7 +148,7 @@ def draw_bias_branch(coupled_data: dict, gap_m: float, bias_voltage_v: float):
                                                    lambda r: r * gap_m * fw))
     right.set_ylabel("centre deflection / gap")
     ax.grid(True, color="0.85")
-    ax.legend(fontsize=8, loc="upper center", bbox_to_anchor=(0.5, -0.14), ncols=2)
+    ax.legend(fontsize=9, loc="upper center", bbox_to_anchor=(0.5, -0.14), ncols=2)
     return fig
 
 
