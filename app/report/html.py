@@ -40,8 +40,10 @@ th,td{border:1px solid #999;padding:.25em .5em;vertical-align:top;text-align:lef
 th{background:#e8e8e8}td.num{text-align:right;font-variant-numeric:tabular-nums;white-space:nowrap}
 table.design,table.results{width:auto;min-width:60%}
 .small{font-size:.85em;color:#333}td .small{white-space:normal;text-align:left}
-.wide{overflow-x:auto;max-width:100%}table.audit{font-size:.84em;min-width:36em}
-table.audit td:first-child{min-width:10em}table.audit td:last-child{min-width:12em}
+.wide{overflow-x:auto;max-width:100%}table.audit{font-size:.84em}
+table.audit td,table.audit th{padding:.2em .35em}table.audit td.num{white-space:nowrap}
+@media (max-width:760px){main{padding:.8em .7em 2em}table.audit{font-size:.74em}
+ table.audit td,table.audit th{padding:.15em .25em}}
 td.verdict{white-space:nowrap}.v-holds{background:#e3f3e3}.v-marginal{background:#fff1c9}
 .v-fails{background:#f8d4d4}
 figure{margin:1.2em 0 1.8em;break-inside:avoid}

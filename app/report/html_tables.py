@@ -196,8 +196,8 @@ def audit_table(rows) -> str:
             f"<td>{html.escape(r.kind)}</td>"
             f"<td class=num>{html.escape(r.deviation_text())}</td>"
             f"{_verdict_cell(r.verdict)}"
-            f"<td class=small>{html.escape(r.threshold_text())}; else fails</td>"
+            f"<td class=small>{html.escape(r.threshold_text())}</td>"
             f"<td class=small>{html.escape(r.note)}</td></tr>")
     return '<div class="wide">' + _table(
         ("assumption (quantity: values)", "deviation: what it is, unit", "value", "verdict",
-         "threshold on |value|", "note"), body, "audit") + "</div>"
+         "threshold on |value| (else fails)", "note"), body, "audit") + "</div>"

@@ -54,8 +54,9 @@ def draw_squeeze(sq, resonance_hz: float | None):
         # the panel shows the value, not a line along the top edge of a 0-based axis
         mid = 0.5 * (hi + lo)
         a1.set_ylim(0.75 * mid, 1.25 * mid)
-        a1.text(0.98, 0.06, f"b varies by {100 * spread:.2g} % over the plotted range",
-                transform=a1.transAxes, ha="right", va="bottom", fontsize=9)
+        a1.text(0.98, 0.94, f"b varies by {100 * spread:.2g} % over the plotted range",
+                transform=a1.transAxes, ha="right", va="top", fontsize=9,
+                bbox={"fc": "white", "ec": "none", "pad": 1})
     else:
         a1.set_ylim(0.0, 1.1 * hi)
     a1.set_ylabel(f"damping b ({name.unit})")
