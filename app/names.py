@@ -24,7 +24,7 @@ import math
 import re
 from dataclasses import dataclass
 
-__all__ = ["Name", "NAMES", "INPUT_NAMES", "lookup", "input_name", "format_display",
+__all__ = ["Name", "NAMES", "INPUT_NAMES", "KEY_OUTPUTS", "lookup", "input_name", "format_display",
            "display_text", "TEXT_KEYS"]
 
 
@@ -198,6 +198,18 @@ _ROWS = [
 #: every named output, by ``section.key``
 NAMES: dict[str, Name] = {n.key: n for n in _ROWS}
 
+#: the key results of a design, in this order: what a sweep plots against its inputs
+KEY_OUTPUTS = (
+    "response.sensitivity_db_v_per_pa", "response.snr_db", "response.noise_dba_spl",
+    "coupled.pull_in_voltage_v", "coupled.bias_margin", "mechanics.natural_frequencies_hz_1",
+    "coupled.resonance_at_bias_hz", "response.resonance_hz", "response.quality_factor",
+    "response.highpass_corner_hz", "response.acoustic_corner_hz", "response.thd_1pct_spl_db",
+    "response.aop_10pct_spl_db", "electrostatics.rest_capacitance_f",
+    "electrostatics.capacitance_slope_f_per_m", "electrostatics.perforation_factor",
+    "damping.damping_n_s_per_m", "damping.cutoff_frequency_hz",
+    "mechanics.center_compliance_m_per_pa",
+)
+
 #: text (non-numeric) summary keys, shown as they are
 TEXT_KEYS = ("mechanics.model", "mechanics.accuracy", "damping.perforation.lattice",
              "response.thd_limit_note", "coupled.note")
@@ -210,7 +222,7 @@ _INPUTS = {
     "diaphragm.youngs_modulus": ("Young's modulus", "Pa", "GPa", 1e-9),
     "diaphragm.poisson_ratio": ("Poisson's ratio", "", "", 1.0),
     "diaphragm.density": ("diaphragm density", "kg/m³", "kg/m³", 1.0),
-    "diaphragm.residual_stress": ("residual stress (tensile +)", "Pa", "MPa", 1e-6),
+    "diaphragm.residual_stress": ("residual stress, tensile positive", "Pa", "MPa", 1e-6),
     "backplate.gap": ("gap at rest", "m", "µm", 1e6),
     "backplate.thickness": ("backplate thickness", "m", "µm", 1e6),
     "backplate.electrode_radius": ("electrode radius", "m", "µm", 1e6),
