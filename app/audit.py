@@ -12,6 +12,16 @@ finite-element value and gives a verdict with its stated threshold:
 Thresholds are engineering judgement of our own (common practice, no single source); they are
 written into every row so that a reader can apply their own. The audit reads the summary sections
 only, so it audits exactly what is reported; a row whose inputs were not computed is left out.
+
+Each row states what its deviation is (``label``, one meaning per row) and how it is shown
+(``unit``): "%" for relative deviations (shown × 100), "" for ratios (bias / pull-in voltage,
+resonance / film cut-off) and "dB" for the resonance peak; summary.json carries them as
+``deviation_kind`` and ``deviation_unit`` beside the unchanged ``deviation`` (a fraction or ratio).
+
+The "well-damped resonance" row flags a high Q: the peak of a second-order system with the
+lumped model's Q over its low-frequency response, M_r = Q / sqrt(1 - 1/(4 Q^2)) for
+Q > 1/sqrt(2) (resonant peak of a second-order system; Ogata, Modern Control Engineering,
+sec. 7-2); holds up to +3 dB, marginal up to +6 dB (common practice for a flat capsule response).
 """
 from __future__ import annotations
 
