@@ -21,7 +21,8 @@ resonance / film cut-off) and "dB" for the resonance peak; summary.json carries 
 The "well-damped resonance" row flags a high Q: the peak of a second-order system with the
 lumped model's Q over its low-frequency response, M_r = Q / sqrt(1 - 1/(4 Q^2)) for
 Q > 1/sqrt(2) (resonant peak of a second-order system; Ogata, Modern Control Engineering,
-sec. 7-2); holds up to +3 dB, marginal up to +6 dB (common practice for a flat capsule response).
+sec. 7-2, from memory); holds up to +3 dB, marginal up to +6 dB (common practice for a flat
+capsule response).
 """
 from __future__ import annotations
 
@@ -149,7 +150,8 @@ def audit_design(design, s: dict) -> Audit:
         fe = mech["center_compliance_m_per_pa"]
         rows.append(_row("membrane vs plate", f"centre compliance, {label} (m/Pa)", simple, fe,
                          _rel(simple, fe), "closed form / FE - 1", 0.05, 0.20,
-                         f"tension ratio T a^2 / D = {t * d.size_m**2 / d.bending_stiffness_n_m:.3g}",
+                         f"tension ratio T a^2 / D = "
+                         f"{t * d.size_m**2 / d.bending_stiffness_n_m:.3g}",
                          label="closed form vs FE compliance"))
         spl, w = _largest_spl_deflection(design, mech, resp)
         ratio = _stretching_ratio(d, w)
@@ -231,7 +233,8 @@ def resonance_peak_db(q: float) -> float:
     """Peak of a second-order low-pass |1/(1 - u^2 + j u/Q)| over its low-frequency value, in dB.
 
     The maximum is Q / sqrt(1 - 1/(4 Q^2)) for Q > 1/sqrt(2) and 1 (no peak) otherwise
-    (textbook second-order system, e.g. Ogata, Modern Control Engineering, resonant peak M_r).
+    (textbook second-order system, e.g. Ogata, Modern Control Engineering, resonant peak M_r,
+    from memory).
     """
     if q <= 1.0 / math.sqrt(2.0):
         return 0.0

@@ -2,8 +2,9 @@
 
 Each case runs the production solver on a problem with a published closed form or table value and
 reports the FE value and the reference in the unit of the check, the relative deviation, the
-solver's own relative error estimate and the tolerance (all three in per cent). The same checks (and more) are in the test suite; this command lets a user confirm
-an installation on their own machine.
+solver's own relative error estimate and the tolerance (all three in per cent). The same checks
+(and more) are in the test suite; this command lets a user confirm an installation on their own
+machine.
 """
 from __future__ import annotations
 

@@ -180,7 +180,7 @@ def test_absent_overload_point_has_a_reason(summary):
                                         (22.0, "fails")])
 def test_high_q_is_flagged(q, verdict):
     # resonant peak of a second-order system M_r = 1 / (2 zeta sqrt(1 - zeta^2)), zeta = 1/(2Q),
-    # for zeta < 1/sqrt(2) (Ogata, Modern Control Engineering, 5th ed. 2010, sec. 7-2)
+    # for zeta < 1/sqrt(2) (Ogata, Modern Control Engineering, 5th ed. 2010, sec. 7-2 [from memory])
     zeta = 1.0 / (2.0 * q)
     expected = 20 * math.log10(1 / (2 * zeta * math.sqrt(1 - zeta**2))) \
         if zeta < 1 / math.sqrt(2) else 0.0

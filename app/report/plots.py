@@ -94,7 +94,8 @@ def print_style():
 def png_bytes(fig, dpi: int = DPI) -> bytes:
     """The figure as PNG bytes; the figure is cleared afterwards."""
     buf = io.BytesIO()
-    fig.savefig(buf, format="png", dpi=dpi)
+    # light compression: about a fifth faster than the default level for ~10 % larger files
+    fig.savefig(buf, format="png", dpi=dpi, pil_kwargs={"compress_level": 1})
     fig.clear()
     return buf.getvalue()
 

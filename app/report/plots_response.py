@@ -90,12 +90,11 @@ def draw_response(resp):
             color="black", label=f"1 kHz: {resp.sensitivity_db_v_per_pa:.2f} dB re 1 V/Pa")
     a2.semilogx(f, r.phase_deg, color="black", lw=1.5)
     for ax, lab in ((a1, True), (a2, False)):
-        _markers_line(ax, resp.highpass_corner_hz, "--",
-                      f"electrical high-pass "
-                      f"{display_text('response.highpass_corner_hz', resp.highpass_corner_hz)}" if lab else None)
-        _markers_line(ax, resp.acoustic_corner_hz, "-.",
-                      f"acoustic (vent) corner "
-                      f"{display_text('response.acoustic_corner_hz', resp.acoustic_corner_hz)}" if lab else None)
+        hp, ac = resp.highpass_corner_hz, resp.acoustic_corner_hz
+        _markers_line(ax, hp, "--", f"electrical high-pass "
+                      f"{display_text('response.highpass_corner_hz', hp)}" if lab else None)
+        _markers_line(ax, ac, "-.", f"acoustic (vent) corner "
+                      f"{display_text('response.acoustic_corner_hz', ac)}" if lab else None)
         if resp.resonance_hz:
             q = f", Q = {resp.quality_factor:.3g}" if resp.quality_factor else ""
             _markers_line(ax, resp.resonance_hz, ":", f"resonance in air (lumped model) "
