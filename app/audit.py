@@ -13,6 +13,17 @@ finite-element value and gives a verdict with its stated threshold:
 Thresholds are engineering judgement of our own (common practice, no single source); they are
 written into every row so that a reader can apply their own. The audit reads the summary sections
 only, so it audits exactly what is reported; a row whose inputs were not computed is left out.
+
+Each row states what its deviation is (``label``, one meaning per row) and how it is shown
+(``unit``): "%" for relative deviations (shown × 100), "" for ratios (bias / pull-in voltage,
+resonance / film cut-off) and "dB" for the resonance peak; summary.json carries them as
+``deviation_kind`` and ``deviation_unit`` beside the unchanged ``deviation`` (a fraction or ratio).
+
+The "well-damped resonance" row flags a high Q: the peak of a second-order system with the
+lumped model's Q over its low-frequency response, M_r = Q / sqrt(1 - 1/(4 Q^2)) for
+Q > 1/sqrt(2) (resonant peak of a second-order system; Ogata, Modern Control Engineering,
+sec. 7-2, from memory); holds up to +3 dB, marginal up to +6 dB (common practice for a flat
+capsule response).
 """
 from __future__ import annotations
 
@@ -22,7 +33,8 @@ from dataclasses import dataclass
 from diagap.fem.constants import P_REF_PA
 from diagap.lumped import analytic
 
-__all__ = ["AuditRow", "Audit", "audit_design", "verdict"]
+__all__ = ["AuditRow", "Audit", "audit_design", "verdict", "deviation_text", "threshold_text",
+           "resonance_peak_db"]
 
 
 @dataclass(frozen=True)
@@ -37,6 +49,8 @@ class AuditRow:
     marginal_below: float
     verdict: str
     note: str = ""
+    label: str = ""   # what the deviation is, for tables ("closed form vs FE, %")
+    unit: str = "%"   # how the deviation is shown: "%" (x 100), "" (a ratio) or "dB"
 
     def to_summary(self) -> dict:
         return {
@@ -44,7 +58,41 @@ class AuditRow:
             "fe": self.fe, "deviation": self.deviation, "measure": self.measure,
             "threshold": {"holds": self.holds_below, "marginal": self.marginal_below},
             "verdict": self.verdict, "note": self.note,
+            "deviation_kind": self.kind, "deviation_unit": self.unit,
         }
+
+    @property
+    def kind(self) -> str:
+        """One meaning of the deviation per row, with the unit it is shown in."""
+        text = self.label or self.measure
+        return f"{text}, {self.unit}" if self.unit else f"{text} (ratio)"
+
+    def deviation_text(self) -> str:
+        return deviation_text(self.deviation, self.unit)
+
+    def threshold_text(self) -> str:
+        return threshold_text(self.holds_below, self.marginal_below, self.unit)
+
+
+def _shown(value: float, unit: str) -> float:
+    return 100.0 * value if unit == "%" else value
+
+
+def deviation_text(deviation: float, unit: str) -> str:
+    """A deviation with 3 significant digits in its display unit: ``+165 %``, ``0.412``."""
+    v = _shown(deviation, unit)
+    if unit == "%":
+        return f"{v:+.3g} %"
+    return f"{v:+.3g} dB" if unit == "dB" else f"{v:.3g}"
+
+
+def threshold_text(holds_below: float, marginal_below: float, unit: str,
+                   compact: bool = False) -> str:
+    """``holds ≤ 5 %, marginal ≤ 20 %`` (bounds on |deviation|, in the display unit);
+    ``compact``: ``5 % / 20 %``."""
+    u = f" {unit}" if unit else ""
+    h, m = f"{_shown(holds_below, unit):.3g}{u}", f"{_shown(marginal_below, unit):.3g}{u}"
+    return f"{h} / {m}" if compact else f"holds ≤ {h}, marginal ≤ {m}"
 
 
 def verdict(deviation: float, holds_below: float, marginal_below: float) -> str:
@@ -66,9 +114,10 @@ class Audit:
     uncertainty = {}  # the audit reports no FE quantity of its own
 
 
-def _row(assumption, quantity, simple, fe, deviation, measure, holds, marginal, note=""):
+def _row(assumption, quantity, simple, fe, deviation, measure, holds, marginal, note="",
+         label="", unit="%"):
     return AuditRow(assumption, quantity, float(simple), float(fe), float(deviation), measure,
-                    holds, marginal, verdict(deviation, holds, marginal), note)
+                    holds, marginal, verdict(deviation, holds, marginal), note, label, unit)
 
 
 def _largest_spl_deflection(design, mech, resp) -> tuple[float, float]:
@@ -106,7 +155,8 @@ def audit_design(design, s: dict) -> Audit:
         rows.append(_row(
             "rigid piston", "effective area (m^2)", d.area_m2, mech["effective_area_m2"],
             _rel(d.area_m2, mech["effective_area_m2"]), "piston area / FE mode-1 area - 1",
-            0.05, 0.20, "the piston moves the whole diaphragm area by the centre displacement"))
+            0.05, 0.20, "the piston moves the whole diaphragm area by the centre displacement",
+            label="piston area vs FE mode-1 area"))
         t = d.tension_n_per_m
         if t > 0:
             simple = analytic.membrane_center_compliance(d.shape, d.size_m, t)
@@ -118,33 +168,39 @@ def audit_design(design, s: dict) -> Audit:
         fe = mech["center_compliance_m_per_pa"]
         rows.append(_row("membrane vs plate", f"centre compliance, {label} (m/Pa)", simple, fe,
                          _rel(simple, fe), "closed form / FE - 1", 0.05, 0.20,
-                         f"tension ratio T a^2 / D = {t * d.size_m**2 / d.bending_stiffness_n_m:.3g}"))
+                         f"tension ratio T a^2 / D = "
+                         f"{t * d.size_m**2 / d.bending_stiffness_n_m:.3g}",
+                         label="closed form vs FE compliance"))
         spl, w = _largest_spl_deflection(design, mech, resp)
         ratio = _stretching_ratio(d, w)
         rows.append(_row("small deflection", f"stretching / linear stiffness at {spl:.0f} dB SPL",
                          0.0, ratio, ratio, "cubic (stretching) over linear restoring pressure",
                          0.01, 0.05,
                          "large-deflection energy estimate for a clamped plate (Timoshenko & "
-                         "Woinowsky-Krieger 1959, from memory), scaled by the FE stiffness"))
+                         "Woinowsky-Krieger, Theory of Plates and Shells, 1959, §97), scaled "
+                         "by the FE stiffness", label="stretching / linear stiffness"))
     if es:
         pp = analytic.parallel_plate_capacitance(el_area, b.gap_m)
         fe = es["rest_capacitance_f"]
         rows.append(_row("parallel-plate capacitance", "rest capacitance (F)", pp, fe, _rel(pp, fe),
                          "eps0 A / g over FE - 1", 0.02, 0.10,
-                         "FE includes hole fringing, rim fringing and the open area"))
+                         "FE includes hole fringing, rim fringing and the open area",
+                         label="ε0·A/g vs FE capacitance"))
         if b.perforated:
             fraction = es["open_area_fraction"]
             simple = analytic.open_area_perforation_factor(fraction)
             rows.append(_row("open-area capacitance rule", "perforation factor", simple,
                              es["perforation_factor"], _rel(simple, es["perforation_factor"]),
-                             "(1 - open area) / FE cell factor - 1", 0.02, 0.10))
+                             "(1 - open area) / FE cell factor - 1", 0.02, 0.10,
+                             label="open-area rule vs FE cell factor"))
         if mech and es.get("capacitance_curve"):
             rows.append(_linear_capacitance_row(design, mech, es, resp))
     if cp and mech:
         if "bias_center_deflection_m" in cp:
             ratio = cp["bias_center_deflection_m"] / b.gap_m
             rows.append(_row("negligible bias deflection", "centre deflection at bias / gap", 0.0,
-                             ratio, ratio, "bias deflection / gap", 0.02, 0.10))
+                             ratio, ratio, "bias deflection / gap", 0.02, 0.10,
+                             label="bias deflection / gap"))
         if "pull_in_voltage_v" in cp:
             v_pi = analytic.piston_pull_in_voltage(mech["effective_stiffness_n_per_m"], b.gap_m,
                                                    mech["effective_area_m2"])
@@ -152,14 +208,17 @@ def audit_design(design, s: dict) -> Audit:
             rows.append(AuditRow(
                 "pull-in margin", "pull-in voltage (V)", v_pi, cp["pull_in_voltage_v"],
                 margin, "bias / FE pull-in voltage", 0.6, 0.8, verdict(margin, 0.6, 0.8),
-                f"piston estimate with k_eff and A_eff deviates {100 * _rel(v_pi, cp['pull_in_voltage_v']):+.1f}%"))
+                f"piston estimate with k_eff and A_eff: {v_pi:.3g} V, "
+                f"{100 * _rel(v_pi, cp['pull_in_voltage_v']):+.2g} % from FE",
+                label="bias / FE pull-in voltage", unit=""))
     if damp:
         kn = damp.get("knudsen_number")
         if kn is not None:
             factor = analytic.rarefaction_factor(kn)
             rows.append(_row("continuum gas", "viscosity / effective viscosity", 1.0, factor,
                              factor - 1.0, "mu / mu_eff - 1 (Veijola et al. 1995)", 0.05, 0.30,
-                             f"Knudsen number lambda/g = {kn:.3g}"))
+                             f"Knudsen number lambda/g = {kn:.3g}",
+                             label="viscosity μ/μ_eff − 1"))
         z_fe, z_cf = (damp.get("hole_resistance_pa_s_per_m3"),
                       damp.get("hole_resistance_closed_form_pa_s_per_m3"))
         if z_fe and z_cf and (damp.get("perforation") or {}).get("hole_model") == "stokes":
@@ -168,7 +227,8 @@ def audit_design(design, s: dict) -> Audit:
                              "Skvor/Bao cell + Poiseuille + Sampson over Stokes FE cell - 1",
                              0.05, 0.20,
                              "the closed forms omit the turn of the flow from the film into the "
-                             "hole; damping scales about like the resistance"))
+                             "hole; damping scales about like the resistance",
+                             label="closed forms vs Stokes FE"))
         ratio = damp.get("resonance_to_cutoff_ratio")
         if ratio is not None:
             sig = damp.get("squeeze_number_at_resonance")
@@ -177,14 +237,45 @@ def audit_design(design, s: dict) -> Audit:
                              0.1, 0.5,
                              f"squeeze number at resonance {sig:.3g}; with holes the film stays "
                              "incompressible well above sigma ~ 1, so the cut-off is the measure"
-                             if sig is not None else ""))
+                             if sig is not None else "", label="resonance / film cut-off",
+                             unit=""))
     if resp and "highpass_corner_hz" in resp:
         c0 = (es or {}).get("rest_capacitance_f")
         fc = resp["highpass_corner_hz"]
         rows.append(_row("high-pass corner below 20 Hz", "electrical corner (Hz)", 20.0, fc,
                          fc / 20.0, "corner / 20 Hz", 0.5, 1.0,
-                         "1/(2 pi R C) with C = C0 + Cp + C_in" if c0 else ""))
+                         "1/(2 pi R C) with C = C0 + Cp + C_in" if c0 else "",
+                         label="corner / 20 Hz", unit=""))
+    if resp and resp.get("quality_factor"):
+        rows.append(_resonance_peak_row(resp["quality_factor"]))
     return Audit(tuple(rows))
+
+
+#: largest resonance peak (dB above the stiffness-controlled band) for "holds" / "marginal":
+#: common practice for a flat capsule response (a +-3 dB band is the usual tolerance of a
+#: microphone response specification; above +6 dB the peak dominates the response and rings)
+PEAK_HOLDS_DB, PEAK_MARGINAL_DB = 3.0, 6.0
+
+
+def resonance_peak_db(q: float) -> float:
+    """Peak of a second-order low-pass |1/(1 - u^2 + j u/Q)| over its low-frequency value, in dB.
+
+    The maximum is Q / sqrt(1 - 1/(4 Q^2)) for Q > 1/sqrt(2) and 1 (no peak) otherwise
+    (textbook second-order system, e.g. Ogata, Modern Control Engineering, resonant peak M_r,
+    from memory).
+    """
+    if q <= 1.0 / math.sqrt(2.0):
+        return 0.0
+    return 20.0 * math.log10(q / math.sqrt(1.0 - 1.0 / (4.0 * q * q)))
+
+
+def _resonance_peak_row(q: float) -> AuditRow:
+    peak = resonance_peak_db(q)
+    return _row("well-damped resonance", "quality factor Q of the resonance in air (lumped)",
+                1.0 / math.sqrt(2.0), q, peak, "resonance peak over the low-frequency response "
+                "of a second-order system with this Q, dB", PEAK_HOLDS_DB, PEAK_MARGINAL_DB,
+                f"Q = {q:.3g}; Q = 0.707 is maximally flat (no peak); a high peak rings and "
+                "needs acoustic damping", label="resonance peak", unit="dB")
 
 
 def _stretching_ratio(d, w0: float) -> float:
@@ -206,4 +297,5 @@ def _linear_capacitance_row(design, mech, es, resp) -> AuditRow:
     c_lin = c0 + slope * x
     dev = (c_lin - c_fe) / (c_fe - c0) if c_fe != c0 else 0.0
     return _row("linear C(x)", f"capacitance at {spl:.0f} dB SPL deflection (F)", c_lin, c_fe, dev,
-                "(linear - FE) / FE capacitance change", 0.01, 0.10)
+                "(linear - FE) / FE capacitance change", 0.01, 0.10,
+                label="linear vs FE capacitance change")

@@ -66,6 +66,9 @@ def build_parser() -> argparse.ArgumentParser:
     run.add_argument("design", nargs="?", help="design file (TOML); omit for the built-in demo")
     run.add_argument("-o", "--out", default="diagap-out", help="output folder (default: diagap-out)")
     run.add_argument("--json", action="store_true", help="print summary.json instead of the table")
+    run.add_argument("--no-report", action="store_true",
+                     help="write only summary.json and response.csv (no plots, report.html, "
+                     "VTK or SPICE files): faster, for scripts")
     _add_common(run)
 
     from diagap.sweep.cli import add_parser as add_sweep_parser
@@ -132,7 +135,7 @@ def _check_output_folder(out: Path) -> None:
 def _cmd_run(args) -> int:
     from diagap.design import demo_design, load_design
     from diagap.pipeline import run_design
-    from diagap.table import summary_table
+    from diagap.table import CAUTION_LINE, summary_table
     from diagap.writer import write_outputs
 
     design = load_design(args.design) if args.design else demo_design()
@@ -141,19 +144,22 @@ def _cmd_run(args) -> int:
         design = design.with_accuracy(args.accuracy)
     result = run_design(design)
     summary = result.summary()
-    write_outputs(result, Path(args.out))
+    write_outputs(result, Path(args.out), report=not args.no_report)
     if args.json:
         print(json.dumps(summary, indent=2))
     else:
         print(summary_table(summary))
         print(f"\noutputs written to {Path(args.out)}/")
+    code = EXIT_OK
     if result.collapsed:
         cp = summary["coupled"]
         print(f"diagap: design verdict: COLLAPSE - the bias {cp['bias_voltage_v']:g} V is at or "
               f"above the pull-in voltage {cp['pull_in_voltage_v']:.4g} V; results that depend "
               f"on the bias point are not computed (exit code {EXIT_COLLAPSED})", file=sys.stderr)
-        return EXIT_COLLAPSED
-    return EXIT_OK
+        code = EXIT_COLLAPSED
+    # last line of the output; on stderr with --json so that stdout stays valid JSON
+    print(CAUTION_LINE, file=sys.stderr if args.json or result.collapsed else sys.stdout)
+    return code
 
 
 def _cmd_sweep(args) -> int:

@@ -152,6 +152,12 @@ class Design:
         """The normalised design in SI (keys carry units), for summary.json."""
         d = asdict(self)
         d.pop("raw", None)
+        # the size is named for what it is, as in the design file: radius or side
+        size = "radius" if self.diaphragm.shape == "circle" else "side"
+        d["diaphragm"] = {(f"{size}_m" if k == "size_m" else k): v
+                          for k, v in d["diaphragm"].items()}
+        d["backplate"] = {(f"electrode_{size}_m" if k == "electrode_size_m" else k): v
+                          for k, v in d["backplate"].items()}
         return d
 
     def raw_dict(self) -> dict:

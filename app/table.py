@@ -1,39 +1,63 @@
-"""The short human-readable table printed by ``diagap run`` (built from the summary dict)."""
+"""The short human-readable table printed by ``diagap run`` (built from the summary dict).
+
+Labels and display units come from :mod:`diagap.names`, so they are the ones of report.html and
+the plots. Estimated relative errors are shown in per cent. The audit lists, per row, what its
+deviation is (one meaning per row, with its unit), the value with three significant digits, the
+thresholds and the verdict. A result that is absent gets its reason on the next line.
+"""
 from __future__ import annotations
 
-__all__ = ["summary_table", "UNCERTAINTY_ALIAS"]
+import math
+import textwrap
+
+from diagap.names import lookup
+
+__all__ = ["summary_table", "audit_lines", "absent_reason", "UNCERTAINTY_ALIAS", "ROWS",
+           "SECTION_HEADS", "CAUTION_LINE"]
 
 #: results whose error estimate is filed under another key
 UNCERTAINTY_ALIAS = {"distinct_frequencies_hz": "natural_frequencies_hz",
                      "sensitivity_db_v_per_pa": "sensitivity_v_per_pa"}
 
-# (section, key, label, scale, unit)
+#: printed at the end of every ``run`` and ``sweep`` output
+CAUTION_LINE = ("Caution: bias voltages can be hazardous; diagap's results are design estimates "
+                "and do not replace prototypes, measurement, safety codes or qualified review.")
+
+SECTION_HEADS = {"mechanics": "mechanics: diaphragm in vacuum, no bias",
+                 "electrostatics": "electrostatics: rest gap",
+                 "coupled": "bias and pull-in",
+                 "damping": "squeeze-film damping",
+                 "response": "lumped model in air: response, noise, distortion"}
+
+#: (section, key) of the console table, in order; names and units from diagap.names
 ROWS = [
-    ("mechanics", "center_compliance_m_per_pa", "centre compliance", 1e9, "nm/Pa"),
-    ("mechanics", "volume_compliance_m3_per_pa", "volume compliance", 1e18, "um^3/Pa"),
-    ("mechanics", "distinct_frequencies_hz", "natural frequencies (vacuum)", 1e-3, "kHz"),
-    ("mechanics", "effective_mass_kg", "effective mass", 1e9, "ug"),
-    ("mechanics", "effective_stiffness_n_per_m", "effective stiffness", 1.0, "N/m"),
-    ("mechanics", "effective_area_m2", "effective area", 1e6, "mm^2"),
-    ("electrostatics", "rest_capacitance_f", "rest capacitance", 1e12, "pF"),
-    ("electrostatics", "parallel_plate_capacitance_f", "parallel-plate capacitance", 1e12, "pF"),
-    ("electrostatics", "capacitance_slope_f_per_m", "dC/dx at rest", 1e6, "pF/um"),
-    ("electrostatics", "perforation_factor", "perforation factor", 1.0, ""),
-    ("electrostatics", "open_area_fraction", "open area fraction", 1.0, ""),
-    ("coupled", "pull_in_voltage_v", "pull-in voltage", 1.0, "V"),
-    ("coupled", "bias_center_deflection_m", "centre deflection at bias", 1e9, "nm"),
-    ("coupled", "bias_margin", "bias / pull-in", 1.0, ""),
-    ("coupled", "resonance_at_bias_hz", "resonance at bias (vacuum)", 1e-3, "kHz"),
-    ("damping", "damping_n_s_per_m", "squeeze-film damping", 1e3, "mN*s/m"),
-    ("response", "sensitivity_db_v_per_pa", "sensitivity at 1 kHz", 1.0, "dB re 1 V/Pa"),
-    ("response", "highpass_corner_hz", "electrical high-pass corner", 1.0, "Hz"),
-    ("response", "acoustic_corner_hz", "acoustic (vent) corner", 1.0, "Hz"),
-    ("response", "resonance_hz", "resonance", 1e-3, "kHz"),
-    ("response", "quality_factor", "quality factor", 1.0, ""),
-    ("response", "noise_dba_spl", "noise floor", 1.0, "dB(A) SPL"),
-    ("response", "snr_db", "SNR re 94 dB SPL", 1.0, "dB(A)"),
-    ("response", "thd_1pct_spl_db", "1 % THD at", 1.0, "dB SPL"),
-    ("response", "aop_10pct_spl_db", "10 % THD (overload) at", 1.0, "dB SPL"),
+    ("mechanics", "center_compliance_m_per_pa"),
+    ("mechanics", "volume_compliance_m3_per_pa"),
+    ("mechanics", "distinct_frequencies_hz"),
+    ("mechanics", "effective_mass_kg"),
+    ("mechanics", "effective_stiffness_n_per_m"),
+    ("mechanics", "effective_area_m2"),
+    ("electrostatics", "rest_capacitance_f"),
+    ("electrostatics", "parallel_plate_capacitance_f"),
+    ("electrostatics", "capacitance_slope_f_per_m"),
+    ("electrostatics", "perforation_factor"),
+    ("electrostatics", "open_area_fraction"),
+    ("coupled", "pull_in_voltage_v"),
+    ("coupled", "bias_center_deflection_m"),
+    ("coupled", "bias_margin"),
+    ("coupled", "resonance_at_bias_hz"),
+    ("damping", "damping_n_s_per_m"),
+    ("damping", "cutoff_frequency_hz"),
+    ("response", "sensitivity_db_v_per_pa"),
+    ("response", "highpass_corner_hz"),
+    ("response", "acoustic_corner_hz"),
+    ("response", "resonance_hz"),
+    ("response", "quality_factor"),
+    ("response", "peak_frequency_hz"),
+    ("response", "noise_dba_spl"),
+    ("response", "snr_db"),
+    ("response", "thd_1pct_spl_db"),
+    ("response", "aop_10pct_spl_db"),
 ]
 
 
@@ -44,30 +68,80 @@ def _fmt(v, scale):
         return "-"
     if isinstance(v, str):
         return v
-    return f"{v * scale:.5g}"
+    x = float(v) * scale
+    return f"{x:.5g}" if math.isfinite(x) else "-"
+
+
+def absent_reason(summary: dict, section: str, key: str) -> str:
+    """Why ``section.key`` has no value (empty if it has one or no reason is known)."""
+    sec = summary.get(section) or {}
+    if sec.get(key) is not None:
+        return ""
+    if section == "response" and key in ("thd_1pct_spl_db", "aop_10pct_spl_db"):
+        curve = sec.get("thd_vs_spl") or []
+        level = "1 %" if key.startswith("thd_1pct") else "10 %"
+        if curve:
+            spl, thd = curve[-1][0], curve[-1][1]
+            text = (f"{level} THD not reached up to {spl:.0f} dB SPL (THD {100 * thd:.2g} % "
+                    f"there)")
+        else:
+            text = f"{level} THD not computed"
+        note = sec.get("thd_limit_note")
+        return f"{text}: the scan stops where {note}" if note else text
+    if section == "response" and key in ("resonance_hz", "quality_factor", "peak_frequency_hz"):
+        return "the lumped model has no resonance peak (overdamped)"
+    return ""
+
+
+def audit_lines(audit: list) -> list[str]:
+    """The audit rows of summary.json as aligned text lines (header first)."""
+    from diagap.audit import deviation_text, threshold_text
+
+    rows = []
+    for row in audit:
+        unit = row.get("deviation_unit", "%")
+        kind = row.get("deviation_kind") or f"{row.get('measure', '')}, {unit}"
+        th = row.get("threshold", {})
+        verdict = row["verdict"].upper() if row["verdict"] == "fails" else row["verdict"]
+        rows.append((row["assumption"], kind, deviation_text(row["deviation"], unit),
+                     threshold_text(th["holds"], th["marginal"], unit, compact=True), verdict))
+    head = ("assumption", "deviation: what it is, unit", "value", "holds/marginal if ≤",
+            "verdict")
+    w = [max(len(r[i]) for r in rows + [head]) for i in range(4)]
+    return [f"  {r[0]:<{w[0]}}  {r[1]:<{w[1]}}  {r[2]:>{w[2]}}  {r[3]:<{w[3]}}  {r[4]}"
+            for r in [head] + rows]
 
 
 def summary_table(summary: dict) -> str:
     """Format the main results with their estimated relative discretisation errors."""
     unc = summary.get("uncertainty", {})
-    lines = [f"diagap results: {summary['design']['name']}",
-             f"{'quantity':<32} {'value':>28}  {'unit':<13} {'rel. error':>10}"]
+    rows: list = []  # (label, value, unit, error) or a section head (str)
     section_seen = None
-    for section, key, label, scale, unit in ROWS:
+    for section, key in ROWS:
         sec = summary.get(section)
         if not sec or key not in sec:
             continue
         if section != section_seen:
-            lines.append(f"[{section}]")
+            rows.append(f"[{SECTION_HEADS.get(section, section)}]")
             section_seen = section
+        name = lookup(f"{section}.{key}")
         alias = UNCERTAINTY_ALIAS.get(key)
         err = unc.get(f"{section}.{key}", unc.get(f"{section}.{alias}") if alias else None)
-        err_s = f"{err:.1e}" if isinstance(err, (int, float)) else ""
-        lines.append(f"  {label:<30} {_fmt(sec[key], scale):>28}  {unit:<13} {err_s:>10}")
+        err_s = f"±{100 * err:.2g} %" if isinstance(err, (int, float)) else ""
+        rows.append((name.label, _fmt(sec[key], name.scale), name.unit, err_s))
+        reason = absent_reason(summary, section, key)
+        if reason:
+            rows += [f"    {t}" for t in textwrap.wrap(f"({reason})", 92)]
+    cells = [r for r in rows if isinstance(r, tuple)]
+    head = ("quantity", "value", "unit", "est. error")
+    w = [max(len(r[i]) for r in cells + [head]) for i in range(4)]
+    lines = [f"diagap results: {summary['design']['name']}",
+             f"  {head[0]:<{w[0]}}  {head[1]:>{w[1]}}  {head[2]:<{w[2]}}  {head[3]:>{w[3]}}"]
+    for r in rows:
+        lines.append(r if isinstance(r, str) else
+                     f"  {r[0]:<{w[0]}}  {r[1]:>{w[1]}}  {r[2]:<{w[2]}}  {r[3]:>{w[3]}}".rstrip())
     audit = summary.get("audit")
     if audit:
-        lines.append("[audit of the simple-model assumptions]")
-        for row in audit:
-            lines.append(f"  {row['assumption']:<44} {row['verdict']:<9} "
-                         f"deviation {row['deviation']}")
+        lines.append("[audit of the simple-model assumptions; thresholds are common practice]")
+        lines += audit_lines(audit)
     return "\n".join(lines)

@@ -35,17 +35,18 @@ def json_ready(obj):
     return obj
 
 
-def _producers(result):
-    """(relative file name, function(path)) pairs for every output this run can produce."""
+def _producers(result, report: bool = True):
+    """(relative file name, function(path)) pairs for every output this run can produce
+    (``report=False``: summary.json and response.csv only)."""
     from diagap.report.outputs import report_files
 
     summary = json_ready(result.summary())
     yield "summary.json", lambda p: p.write_text(json.dumps(summary, indent=2) + "\n",
                                                  encoding="utf-8")
-    yield from report_files(result)
+    yield from report_files(result, report=report)
 
 
-def write_outputs(result, out: Path) -> list[Path]:
+def write_outputs(result, out: Path, report: bool = True) -> list[Path]:
     """Write every output of ``result`` into ``out`` (created if needed).
 
     Parameters
@@ -54,6 +55,8 @@ def write_outputs(result, out: Path) -> list[Path]:
         From :func:`diagap.run_design`.
     out : str or Path
         The output folder: summary.json, response.csv, model.cir, report.html, plots/, VTK files.
+    report : bool
+        False writes summary.json and response.csv only (no plots, HTML, SPICE or VTK).
 
     Returns
     -------
@@ -67,7 +70,7 @@ def write_outputs(result, out: Path) -> list[Path]:
     tmp = Path(tempfile.mkdtemp(prefix=".diagap-", dir=out.parent))
     try:
         names = []
-        for fname, func in _producers(result):
+        for fname, func in _producers(result, report):
             target = tmp / fname
             target.parent.mkdir(parents=True, exist_ok=True)
             func(target)

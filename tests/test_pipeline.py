@@ -37,7 +37,7 @@ def test_demo_run_writes_the_contract(demo_run):
     summary = json.loads((out / "summary.json").read_text())
     assert json.loads(proc.stdout) == summary
     assert summary["schema_version"]
-    assert summary["design"]["diaphragm"]["size_m"] == pytest.approx(0.5e-3, rel=1e-6, abs=0)
+    assert summary["design"]["diaphragm"]["radius_m"] == pytest.approx(0.5e-3, rel=1e-6, abs=0)
     for section, keys in CONTRACT.items():
         for key in keys:
             assert summary[section][key] is not None, f"{section}.{key}"

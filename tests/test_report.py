@@ -144,7 +144,9 @@ def test_audit_verdicts_appear_as_words(demo, page):
     for tr, row in zip(body, rows):
         assert html.escape(row.assumption) in tr
         assert words[row.verdict] in tr
-        assert f"{row.holds_below:g}" in tr and f"{row.marginal_below:g}" in tr
+        # thresholds and deviation in the row's display unit (per cent, ratio or dB)
+        assert html.escape(row.threshold_text()) in tr and row.deviation_text() in tr
+        assert html.escape(row.kind) in tr
 
 
 def test_results_carry_their_error_estimates(demo, page):

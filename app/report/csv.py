@@ -10,9 +10,12 @@ from pathlib import Path
 
 import numpy as np
 
+from diagap.names import NAMES
+
 __all__ = ["write_response_csv", "ResponseCsvError", "CSV_COLUMNS"]
 
-CSV_COLUMNS = ("frequency_hz", "magnitude_db_v_per_pa", "phase_deg", "magnitude_v_per_pa")
+#: the header, from the names table (diagap.names, keys "response_csv.<column>")
+CSV_COLUMNS = tuple(k.split(".", 1)[1] for k in NAMES if k.startswith("response_csv."))
 
 
 class ResponseCsvError(ValueError):

@@ -15,6 +15,7 @@ import struct
 from importlib.metadata import PackageNotFoundError, version
 from pathlib import Path
 
+from diagap.names import lookup
 from diagap.report.html_tables import SECTION_TITLES, audit_counts, audit_table, design_table, results_tables
 
 __all__ = ["report_html", "write_report_html", "CAUTION_TEXT", "png_size"]
@@ -39,7 +40,10 @@ th,td{border:1px solid #999;padding:.25em .5em;vertical-align:top;text-align:lef
 th{background:#e8e8e8}td.num{text-align:right;font-variant-numeric:tabular-nums;white-space:nowrap}
 table.design,table.results{width:auto;min-width:60%}
 .small{font-size:.85em;color:#333}td .small{white-space:normal;text-align:left}
-table.audit td:nth-child(6){min-width:9em}table.audit td:nth-child(7){min-width:12em}
+.wide{overflow-x:auto;max-width:100%}table.audit{font-size:.84em}
+table.audit td,table.audit th{padding:.2em .35em}table.audit td.num{white-space:nowrap}
+@media (max-width:760px){main{padding:.8em .7em 2em}table.audit{font-size:.74em}
+ table.audit td,table.audit th{padding:.15em .25em}}
 td.verdict{white-space:nowrap}.v-holds{background:#e3f3e3}.v-marginal{background:#fff1c9}
 .v-fails{background:#f8d4d4}
 figure{margin:1.2em 0 1.8em;break-inside:avoid}
@@ -91,19 +95,21 @@ def _key_figures(summary: dict) -> str:
     resp, cp, mech = summary.get("response", {}), summary.get("coupled", {}), \
         summary.get("mechanics", {})
 
-    def add(label, value, fmt, unit):
+    def add(key, value, fmt):
+        n = lookup(key)
         if value is not None:
-            items.append(f'<div class="key">{label}<b>{fmt.format(value)} {unit}</b></div>')
+            items.append(f'<div class="key">{html.escape(n.label)}<b>'
+                         f'{fmt.format(n.display(value))} {html.escape(n.unit)}</b></div>')
 
-    add("sensitivity at 1 kHz", resp.get("sensitivity_db_v_per_pa"), "{:.2f}", "dB re 1 V/Pa")
-    add("noise floor", resp.get("noise_dba_spl"), "{:.1f}", "dB(A) SPL")
-    add("SNR re 94 dB SPL", resp.get("snr_db"), "{:.1f}", "dB(A)")
-    add("resonance", (resp.get("resonance_hz") or 0) / 1e3 or None, "{:.4g}", "kHz")
-    add("pull-in voltage", cp.get("pull_in_voltage_v"), "{:.4g}", "V")
-    add("bias / pull-in", cp.get("bias_margin"), "{:.3g}", "")
+    add("response.sensitivity_db_v_per_pa", resp.get("sensitivity_db_v_per_pa"), "{:.2f}")
+    add("response.noise_dba_spl", resp.get("noise_dba_spl"), "{:.1f}")
+    add("response.snr_db", resp.get("snr_db"), "{:.1f}")
+    add("response.resonance_hz", resp.get("resonance_hz"), "{:.4g}")
+    add("coupled.pull_in_voltage_v", cp.get("pull_in_voltage_v"), "{:.4g}")
+    add("coupled.bias_margin", cp.get("bias_margin"), "{:.3g}")
     if not resp:
         f1 = (mech.get("natural_frequencies_hz") or [None])[0]
-        add("first natural frequency (vacuum)", f1 / 1e3 if f1 else None, "{:.4g}", "kHz")
+        add("mechanics.natural_frequencies_hz_1", f1, "{:.4g}")
     return '<div class="keys">' + "".join(items) + "</div>"
 
 
@@ -165,7 +171,8 @@ def report_html(result, plots, files: list[str] = ()) -> str:
         f"capacitor, small linear motion, continuum incompressible film, corner below the audio "
         f"band) compared with the finite-element result. Verdicts: {counts['holds']} holds, "
         f"{counts['marginal']} marginal, {counts['fails']} fails. Thresholds are engineering "
-        f"judgement (common practice) and apply to |deviation|.</p>",
+        f"judgement (common practice) and apply to |deviation|; each row states what its "
+        f"deviation is and in which unit.</p>",
         audit_table(rows) if rows else "<p>No audit rows were computed.</p>",
         '<h2 id="results">Results</h2>',
         "<p>Estimated relative errors are the discretisation errors of the finite-element "

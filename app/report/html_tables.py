@@ -11,28 +11,28 @@ from __future__ import annotations
 import html
 import math
 
-from diagap.table import ROWS
+from diagap.names import lookup
+from diagap.table import ROWS, absent_reason
 from diagap.table import UNCERTAINTY_ALIAS as _UNCERTAINTY_ALIAS
 
 __all__ = ["design_table", "results_tables", "audit_table", "audit_counts", "display_unit",
            "format_value"]
 
-# (section, key, label, scale, unit): results beyond the console table's rows
+# (section, key): results beyond the console table's rows; names from diagap.names
 EXTRA_ROWS = [
-    ("mechanics", "model", "plate model", 1.0, ""),
-    ("electrostatics", "rim_fringing_capacitance_f", "rim fringing capacitance", 1e12, "pF"),
-    ("electrostatics", "electrode_area_m2", "electrode area", 1e6, "mm^2"),
-    ("coupled", "pull_in_center_deflection_m", "centre deflection at pull-in", 1e9, "nm"),
-    ("coupled", "center_compliance_at_bias_m_per_pa", "centre compliance at bias", 1e9, "nm/Pa"),
-    ("coupled", "softening_factor", "electrostatic softening (compliance ratio)", 1.0, ""),
-    ("damping", "cutoff_frequency_hz", "film cut-off frequency", 1e-3, "kHz"),
-    ("damping", "gas_spring_stiffness_n_per_m", "gas-spring stiffness (sealed film)", 1.0, "N/m"),
-    ("damping", "knudsen_number", "Knudsen number (mean free path / gap)", 1.0, ""),
-    ("damping", "squeeze_number_at_resonance", "squeeze number at resonance", 1.0, ""),
-    ("response", "sensitivity_v_per_pa", "sensitivity at 1 kHz (linear)", 1e3, "mV/Pa"),
-    ("response", "lowfreq_minus3db_hz", "low-frequency −3 dB point", 1.0, "Hz"),
-    ("response", "peak_frequency_hz", "displacement peak", 1e-3, "kHz"),
+    ("mechanics", "model"),
+    ("electrostatics", "rim_fringing_capacitance_f"),
+    ("electrostatics", "electrode_area_m2"),
+    ("coupled", "pull_in_center_deflection_m"),
+    ("coupled", "center_compliance_at_bias_m_per_pa"),
+    ("coupled", "softening_factor"),
+    ("damping", "gas_spring_stiffness_n_per_m"),
+    ("damping", "knudsen_number"),
+    ("damping", "squeeze_number_at_resonance"),
+    ("response", "sensitivity_v_per_pa"),
+    ("response", "lowfreq_minus3db_hz"),
 ]
+_TEXT_LABELS = {"mechanics.model": "plate model"}
 SECTION_TITLES = {"mechanics": "Diaphragm mechanics (vacuum, no bias)",
                   "electrostatics": "Air-gap electrostatics (rest gap)",
                   "coupled": "Bias and pull-in", "damping": "Squeeze-film damping",
@@ -141,13 +141,22 @@ def results_tables(summary: dict) -> list[tuple[str, str]]:
         if not sec:
             continue
         rows = []
-        for s, key, label, scale, unit in ROWS + EXTRA_ROWS:
-            if s != section or key not in sec or sec[key] is None:
+        for s, key in ROWS + EXTRA_ROWS:
+            if s != section or key not in sec:
                 continue
+            reason = absent_reason(summary, section, key)
+            if sec[key] is None and not reason:
+                continue
+            name = lookup(f"{section}.{key}")
+            label = name.label if name else _TEXT_LABELS.get(f"{section}.{key}", key)
+            scale, unit = (name.scale, name.unit) if name else (1.0, "")
             cls = "text" if isinstance(sec[key], str) else "num"
+            value = format_value(sec[key], scale)
+            if reason:
+                value += f"<div class=small>{html.escape(reason)}</div>"
             rows.append(f"<tr><td>{html.escape(label)}</td>"
-                        f"<td class={cls}>{format_value(sec[key], scale)}</td>"
-                        f"<td>{display_unit(unit)}</td>"
+                        f"<td class={cls}>{value}</td>"
+                        f"<td>{html.escape(unit)}</td>"
                         f"<td class=num>{_uncertainty(unc, section, key)}</td></tr>")
         out.append((section, f'<h3 id="res-{section}">{html.escape(title)}</h3>\n' +
                     _table(("quantity", "value", "unit", "est. rel. error"), rows, "results")))
@@ -173,18 +182,22 @@ def audit_counts(rows) -> dict:
 
 
 def audit_table(rows) -> str:
-    """The assumption audit: closed form vs FE, deviation, verdict, threshold, note."""
+    """The assumption audit: deviation (one meaning per row), value, threshold, verdict, note.
+
+    The closed-form and FE values go under the assumption in small print; the table sits in a
+    scroll container so that a narrow window never cuts it.
+    """
     body = []
     for r in rows:
         body.append(
             f"<tr><td>{html.escape(r.assumption)}<div class=small>"
-            f"{html.escape(display_unit(r.quantity))}</div></td>"
-            f"<td class=num>{format_value(r.simple, digits=4)}</td>"
-            f"<td class=num>{format_value(r.fe, digits=4)}</td>"
-            f"<td class=num>{r.deviation:+.3g}<div class=small>{html.escape(r.measure)}</div></td>"
+            f"{html.escape(display_unit(r.quantity))}: simple model "
+            f"{format_value(r.simple, digits=4)}, FE {format_value(r.fe, digits=4)}</div></td>"
+            f"<td>{html.escape(r.kind)}</td>"
+            f"<td class=num>{html.escape(r.deviation_text())}</td>"
             f"{_verdict_cell(r.verdict)}"
-            f"<td class=small>holds if |dev.| ≤ {r.holds_below:g}; marginal if ≤ "
-            f"{r.marginal_below:g}; else fails</td>"
+            f"<td class=small>{html.escape(r.threshold_text())}</td>"
             f"<td class=small>{html.escape(r.note)}</td></tr>")
-    return _table(("assumption (quantity)", "simple model", "FE", "deviation", "verdict",
-                   "threshold", "note"), body, "audit")
+    return '<div class="wide">' + _table(
+        ("assumption (quantity: values)", "deviation: what it is, unit", "value", "verdict",
+         "threshold on |value| (else fails)", "note"), body, "audit") + "</div>"

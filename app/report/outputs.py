@@ -41,8 +41,12 @@ def _field_files(result, cell):
         yield "cell_potential.vtu", lambda p: write_cell_vtu(cell, p)
 
 
-def report_files(result):
-    """Yield (relative file name, function(path)) for every file this run can produce."""
+def report_files(result, report: bool = True):
+    """Yield (relative file name, function(path)) for every file this run can produce
+    (``report=False``: response.csv only, no plots, page, VTK or SPICE files)."""
+    if not report:
+        yield from (f for f in _lumped_files(result) if f[0] == "response.csv")
+        return
     from diagap.report.fields import cell_field
     from diagap.report.html import write_report_html
     from diagap.report.plots import RenderedPlots, report_plots

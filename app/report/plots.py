@@ -18,13 +18,18 @@ from dataclasses import dataclass
 from typing import Callable
 
 __all__ = ["Plot", "RenderedPlots", "report_plots", "new_figure", "png_bytes", "prefixed",
-           "LINES", "MARKERS", "GREYS", "SEQUENTIAL_MAP", "DPI"]
+           "print_style", "LINES", "MARKERS", "GREYS", "SEQUENTIAL_MAP", "DPI", "FONT_PT"]
 
 LINES = ("-", "--", ":", "-.", (0, (5, 1, 1, 1)), (0, (1, 3)))
 MARKERS = ("o", "s", "^", "D", "v", "x")
 GREYS = ("black", "0.35", "0.55", "0.2", "0.45", "0.65")
 SEQUENTIAL_MAP = "cividis"
-DPI = 100
+#: resolution of the PNG files (print quality: a 7.6 in wide figure is 1140 px)
+DPI = 150
+#: smallest font size of any text in a plot (legends, tick labels), in points
+FONT_PT = 9
+_STYLE = {"font.size": 10, "axes.titlesize": 10, "axes.labelsize": 10, "legend.fontsize": FONT_PT,
+          "xtick.labelsize": FONT_PT, "ytick.labelsize": FONT_PT, "figure.titlesize": 11}
 _PREFIXES = ((1e-15, "f"), (1e-12, "p"), (1e-9, "n"), (1e-6, "µ"), (1e-3, "m"), (1.0, ""),
              (1e3, "k"), (1e6, "M"), (1e9, "G"))
 
@@ -75,10 +80,22 @@ def new_figure(width_in: float = 7.6, height_in: float = 4.2, *, margins_in=(0.8
     return fig, fig.subplots(**subplots)
 
 
+def print_style():
+    """Context manager with the plots' font sizes (no text below :data:`FONT_PT` points).
+
+    Text takes its size from matplotlib's rc parameters when it is created, so the figure must be
+    drawn inside this context; the global parameters are restored on exit.
+    """
+    import matplotlib
+
+    return matplotlib.rc_context(_STYLE)
+
+
 def png_bytes(fig, dpi: int = DPI) -> bytes:
     """The figure as PNG bytes; the figure is cleared afterwards."""
     buf = io.BytesIO()
-    fig.savefig(buf, format="png", dpi=dpi)
+    # light compression: about a fifth faster than the default level for ~10 % larger files
+    fig.savefig(buf, format="png", dpi=dpi, pil_kwargs={"compress_level": 1})
     fig.clear()
     return buf.getvalue()
 
@@ -93,7 +110,8 @@ class RenderedPlots:
     def png(self, name: str) -> bytes:
         if name not in self._png:
             plot = next(p for p in self.plots if p.name == name)
-            self._png[name] = png_bytes(plot.draw())
+            with print_style():
+                self._png[name] = png_bytes(plot.draw())
         return self._png[name]
 
     def items(self):

@@ -14,9 +14,16 @@ from __future__ import annotations
 
 import numpy as np
 
+from diagap.names import display_text, lookup
 from diagap.report.plots import GREYS, LINES, SEQUENTIAL_MAP, Plot, new_figure, prefixed
 
 __all__ = ["electro_plots", "draw_cell_field", "draw_capacitance", "draw_bias_branch"]
+
+
+def _unit(key: str) -> tuple[float, str]:
+    """(factor, unit) of ``key`` in the names table, as the results tables show it."""
+    n = lookup(key)
+    return n.scale, n.unit
 
 
 def _backplate_patch(ax, cell, f):
@@ -28,7 +35,7 @@ def _backplate_patch(ax, cell, f):
                            hatch="///", lw=0.8))
     ax.text(0.5 * (cell.hole_radius_m + cell.cell_radius_m) * f,
             (cell.gap_m + 0.5 * cell.backplate_thickness_m) * f, "backplate (1 V)",
-            ha="center", va="center", fontsize=8, bbox={"fc": "white", "ec": "none", "pad": 1})
+            ha="center", va="center", fontsize=9, bbox={"fc": "white", "ec": "none", "pad": 1})
 
 
 def _field_ticks(lo: float, hi: float) -> list[float]:
@@ -56,7 +63,7 @@ def draw_cell_field(cell):
                             cmap=SEQUENTIAL_MAP)
     lines = a1.tricontour(tri, cell.potential_v, levels=np.linspace(0.1, 0.9, 9), colors="black",
                           linewidths=0.7)
-    a1.clabel(lines, levels=lines.levels[::2], fmt="%.1f", fontsize=7)
+    a1.clabel(lines, levels=lines.levels[::2], fmt="%.1f", fontsize=9)
     fig.colorbar(filled, ax=a1, location="bottom", label="potential u (V) at 1 V",
                  ticks=np.linspace(0, 1, 6), shrink=0.9, pad=0.12)
     e = cell.field_v_per_m
@@ -90,8 +97,9 @@ def draw_capacitance(device, bias_deflection_m: float | None = None):
     c = np.asarray(device(x), float)
     c0, slope = device.rest_capacitance_f, device.capacitance_slope_f_per_m
     lin = c0 + slope * x
-    fx, xl = prefixed(g, "m")
-    fc, cl = prefixed(c0, "F")
+    # the tables' units (diagap.names): gap in µm, capacitance in pF, dC/dx in pF/µm
+    fx, xl = _unit("electrostatics.rest_gap_m")
+    fc, cl = _unit("electrostatics.rest_capacitance_f")
     fig, (a1, a2) = new_figure(7.6, 5.0, nrows=2, sharex=True, height_ratios=[2.2, 1],
                                margins_in=(0.9, 0.25, 0.6, 0.2), hspace=0.08)
     a1.plot(x * fx, c * fc, color="black", lw=1.8, label="C(x), FE (cell table + rim)")
@@ -107,9 +115,10 @@ def draw_capacitance(device, bias_deflection_m: float | None = None):
         ax.grid(True, color="0.85")
     if bias_deflection_m is not None:
         a1.plot([], [], color="0.3", ls=":",
-                label=f"bias point x = {bias_deflection_m * fx:.3g} {xl}")
+                label="bias point x = "
+                f"{display_text('coupled.bias_center_deflection_m', bias_deflection_m)}")
     a1.set_ylabel(f"capacitance ({cl})")
-    a1.legend(fontsize=8, loc="upper left")
+    a1.legend(fontsize=9, loc="upper left")
     a2.set_ylabel("(linear − C)/C (%)")
     a2.set_xlabel(f"centre displacement x towards the backplate ({xl}); gap {g * fx:.3g} {xl}")
     return fig
@@ -120,7 +129,7 @@ def draw_bias_branch(coupled_data: dict, gap_m: float, bias_voltage_v: float):
     br = np.asarray(coupled_data["branch"], float)
     w, v = br[:, 0], br[:, 1]
     w_pi, v_pi = coupled_data["pull_in_center_deflection_m"], coupled_data["pull_in_voltage_v"]
-    fw, wl = prefixed(gap_m, "m")
+    fw, wl = _unit("coupled.pull_in_center_deflection_m")  # the tables' unit
     stable = w <= w_pi * (1 + 1e-9)
     fig, ax = new_figure(7.6, 4.6, margins_in=(0.8, 0.8, 1.15, 0.2))
     ax.plot(v[stable] * 1.0, w[stable] * fw, color="black", ls=LINES[0], marker="o", ms=4,
@@ -131,12 +140,12 @@ def draw_bias_branch(coupled_data: dict, gap_m: float, bias_voltage_v: float):
         ax.plot(vs, ws * fw, color=GREYS[1], ls=LINES[1], marker="x", ms=5,
                 label="unstable equilibria (beyond the fold)")
     ax.plot([v_pi], [w_pi * fw], ls="none", marker="D", ms=8, color="black",
-            label=f"pull-in: {v_pi:.4g} V at {w_pi * fw:.3g} {wl}")
+            label=f"pull-in: {v_pi:.4g} V at {w_pi * fw:.4g} {wl}")
     w_b = coupled_data.get("bias_center_deflection_m")
     ax.axvline(bias_voltage_v, color="0.3", ls=":", lw=1.3)
     if w_b is not None and not coupled_data.get("collapsed"):
         ax.plot([bias_voltage_v], [w_b * fw], ls="none", marker="s", ms=8, mfc="white",
-                color="black", label=f"bias: {bias_voltage_v:.4g} V, {w_b * fw:.3g} {wl}")
+                color="black", label=f"bias: {bias_voltage_v:.4g} V, {w_b * fw:.4g} {wl}")
     else:
         ax.plot([], [], color="0.3", ls=":",
                 label=f"bias {bias_voltage_v:.4g} V ≥ pull-in: the diaphragm collapses")
@@ -148,7 +157,7 @@ def draw_bias_branch(coupled_data: dict, gap_m: float, bias_voltage_v: float):
                                                    lambda r: r * gap_m * fw))
     right.set_ylabel("centre deflection / gap")
     ax.grid(True, color="0.85")
-    ax.legend(fontsize=8, loc="upper center", bbox_to_anchor=(0.5, -0.14), ncols=2)
+    ax.legend(fontsize=9, loc="upper center", bbox_to_anchor=(0.5, -0.14), ncols=2)
     return fig
 
 

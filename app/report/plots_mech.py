@@ -12,6 +12,7 @@ import math
 
 import numpy as np
 
+from diagap.names import display_text, lookup
 from diagap.report.plots import GREYS, LINES, MARKERS, SEQUENTIAL_MAP, Plot, new_figure, prefixed
 
 __all__ = ["mech_plots", "distinct_modes", "draw_deflection", "draw_mode_profiles",
@@ -28,6 +29,24 @@ def distinct_modes(mech, n: int = N_MODES_SHOWN) -> list[tuple[int, float]]:
         if not out or f > out[-1][1] * (1 + 1e-4):
             out.append((i, float(f)))
     return out[:n]
+
+
+def _degenerate(mech, i: int) -> bool:
+    """Whether FE mode ``i`` (1-based) has a partner of (nearly) the same frequency."""
+    f = mech.natural_frequencies_hz
+    return any(abs(f[j] - f[i - 1]) <= 1e-4 * f[i - 1] for j in range(len(f)) if j != i - 1)
+
+
+def mode_title(mech, k: int, i: int, f_hz: float) -> str:
+    """Title of the k-th distinct mode (1-based, numbered consecutively like the table's list of
+    distinct frequencies), FE mode ``i``: ``"mode 2 (pair): 89.87 kHz"``."""
+    pair = " (pair)" if _degenerate(mech, i) else ""
+    return f"mode {k}{pair}: {f_hz * 1e-3:.4g} kHz"
+
+
+def _axisymmetric(mech, i: int) -> bool:
+    """A non-degenerate mode of a circular diaphragm is axisymmetric (no orientation)."""
+    return mech.problem.shape == "circle" and not _degenerate(mech, i)
 
 
 def _half_extent_m(mech) -> float:
@@ -56,7 +75,8 @@ def draw_deflection(mech):
     """Static deflection per pascal along the x-axis."""
     s, w = _profile(mech, mech.static_deflection_m_per_pa, 0.0)
     fx, xl = prefixed(np.nanmax(np.abs(s)), "m")
-    fw, wl = prefixed(np.nanmax(np.abs(w)), "m")
+    n = lookup("mechanics.center_compliance_m_per_pa")  # the tables' unit
+    fw, wl = n.scale, n.unit.removesuffix("/Pa")
     fig, ax = new_figure(7.6, 3.6, margins_in=(0.9, 0.25, 0.6, 0.2))
     ax.plot(s * fx, w * fw, color="black", lw=1.8, label="FE, uniform pressure 1 Pa")
     ax.plot([0.0], [mech.center_compliance_m_per_pa * fw], ls="none", marker="o", mfc="white",
@@ -75,16 +95,18 @@ def draw_mode_profiles(mech):
     ext = _half_extent_m(mech)
     fx, xl = prefixed(ext, "m")
     for k, (i, f) in enumerate(distinct_modes(mech)):
-        angle = _max_angle(mech, i)
+        angle = 0.0 if _axisymmetric(mech, i) else _max_angle(mech, i)
         s, v = _profile(mech, lambda x, y, i=i: mech.mode_shape(i, x, y), angle)
-        fi, fl = prefixed(f, "Hz")
+        # an orientation means something only for a square; a circle's modes are axisymmetric
+        # or come in pairs of arbitrary orientation
+        where = "" if mech.problem.shape == "circle" else f" (at {math.degrees(angle):.0f}°)"
         ax.plot(s * fx, v, color=GREYS[k], ls=LINES[k], marker=MARKERS[k], markevery=20, ms=5,
-                label=f"mode {i}: {f * fi:.4g} {fl} (at {math.degrees(angle):.0f}°)")
+                label=mode_title(mech, k + 1, i, f) + where)
     ax.axhline(0.0, color="0.6", lw=0.8)
     ax.set_xlabel(f"position along a line through the centre ({xl})")
     ax.set_ylabel("mode shape φ")
     ax.grid(True, color="0.85")
-    ax.legend(fontsize=8, loc="upper center", bbox_to_anchor=(0.5, -0.16), ncols=2)
+    ax.legend(fontsize=9, loc="upper center", bbox_to_anchor=(0.5, -0.16), ncols=2)
     return fig
 
 
@@ -122,11 +144,10 @@ def draw_mode_maps(mech):
     vmax = max([1.0] + [float(np.max(np.abs(v))) for v in values.values()])
     levels = np.linspace(-vmax, vmax, 17)
     filled = None
-    for ax, (i, f) in zip(axes.flat, modes):
+    for k, (ax, (i, f)) in enumerate(zip(axes.flat, modes), start=1):
         filled = ax.tricontourf(tri, values[i], levels=levels, cmap=SEQUENTIAL_MAP)
         ax.tricontour(tri, values[i], levels=levels[2:-2:2], colors="black", linewidths=0.6)
-        fi, fl = prefixed(f, "Hz")
-        ax.set_title(f"mode {i}: {f * fi:.4g} {fl}", fontsize=10)
+        ax.set_title(mode_title(mech, k, i, f), fontsize=10)
         ax.set_aspect("equal")
         ax.set_xlabel(f"x ({xl})")
         ax.set_ylabel(f"y ({xl})")
@@ -140,17 +161,20 @@ def draw_mode_maps(mech):
 
 def mech_plots(mech) -> list[Plot]:
     """The diaphragm plots of a :class:`diagap.fem.plate.solver.PlateResult`."""
-    fw, wl = prefixed(mech.center_compliance_m_per_pa, "m")
+    compliance = display_text("mechanics.center_compliance_m_per_pa",
+                              mech.center_compliance_m_per_pa, 5)
     modes = distinct_modes(mech)
     return [
         Plot("deflection", "mechanics", "Static deflection",
-             f"Deflection under a uniform pressure of 1 Pa along the x-axis (no bias); centre "
-             f"compliance {mech.center_compliance_m_per_pa * fw:.4g} {wl}/Pa, {mech.model} model.",
+             f"Deflection under a uniform pressure of 1 Pa along the x-axis (vacuum, no bias); "
+             f"centre compliance {compliance}, {mech.model} model.",
              lambda: draw_deflection(mech)),
         Plot("mode_profiles", "mechanics", "Mode shapes: profiles",
-             f"First {len(modes)} distinct vacuum modes along the line through the centre and "
-             "each mode's largest deflection (degenerate pairs shown once; their orientation is "
-             "arbitrary). Mode 1 is normalised to φ(centre) = 1, the others to max |φ| = 1.",
+             f"First {len(modes)} distinct natural modes in vacuum (no bias), numbered as the "
+             "distinct natural frequencies of the results table; a pair of modes with equal "
+             "frequency (\"pair\") is shown once, along the line through its largest deflection "
+             "(its orientation is arbitrary). Mode 1 is normalised to φ(centre) = 1, the others "
+             "to max |φ| = 1.",
              lambda: draw_mode_profiles(mech)),
         Plot("mode_maps", "mechanics", "Mode shapes: maps",
              "The same modes over the diaphragm (FE shapes sampled on a fine grid); black contour "

@@ -18,6 +18,7 @@ import math
 import numpy as np
 
 from diagap.fem.constants import P_REF_PA
+from diagap.names import display_text, lookup
 from diagap.report.plots import GREYS, LINES, MARKERS, Plot, new_figure, prefixed
 
 __all__ = ["response_plots", "draw_squeeze", "draw_response", "draw_noise", "draw_thd"]
@@ -42,10 +43,23 @@ def draw_squeeze(sq, resonance_hz: float | None):
     b = np.asarray(sq.damping_spectrum_n_s_per_m, float)
     fig, (a1, a2) = new_figure(7.6, 4.8, nrows=2, sharex=True,
                                margins_in=(0.9, 0.25, 0.6, 0.2), hspace=0.08)
-    fb, bl = prefixed(float(np.max(b)), "N")
-    a1.semilogx(f, b * fb, color="black", marker="o", ms=3, lw=1.5)
-    a1.set_ylim(0.0, 1.1 * float(np.max(b)) * fb)
-    a1.set_ylabel(f"damping b ({bl}·s/m)")
+    name = lookup("damping.damping_n_s_per_m")  # the tables' unit
+    fb = name.scale
+    a1.semilogx(f, b * fb, color="black", marker="o", ms=3, lw=1.5,
+                label=f"damping b(f); b(0) = {display_text(name.key, sq.damping_n_s_per_m, 5)}")
+    lo, hi = float(np.min(b)) * fb, float(np.max(b)) * fb
+    spread = (hi - lo) / hi if hi > 0 else 0.0
+    if spread < 0.2:
+        # nearly constant (far below the cut-off): centre the line in a ±25 % window so that
+        # the panel shows the value, not a line along the top edge of a 0-based axis
+        mid = 0.5 * (hi + lo)
+        a1.set_ylim(0.75 * mid, 1.25 * mid)
+        a1.text(0.98, 0.94, f"b varies by {100 * spread:.2g} % over the plotted range",
+                transform=a1.transAxes, ha="right", va="top", fontsize=9,
+                bbox={"fc": "white", "ec": "none", "pad": 1})
+    else:
+        a1.set_ylim(0.0, 1.1 * hi)
+    a1.set_ylabel(f"damping b ({name.unit})")
     k = np.asarray(sq.film_stiffness_n_per_m, float)
     pos = k > 0
     a2.loglog(f[pos], k[pos], color="black", ls="--", marker="s", ms=3, lw=1.5)
@@ -53,13 +67,15 @@ def draw_squeeze(sq, resonance_hz: float | None):
     a2.set_xlabel("frequency (Hz)")
     fc = sq.cutoff_frequency_hz
     beyond = " (beyond the plotted range)" if fc > f[-1] else ""
-    for ax in (a1, a2):
-        _markers_line(ax, fc, "-.", f"film cut-off {_hz(fc)}{beyond}")
-        _markers_line(ax, resonance_hz, ":",
-                      f"resonance {_hz(resonance_hz)}" if resonance_hz else "")
+    for k, ax in enumerate((a1, a2)):
+        _markers_line(ax, fc, "-.", None if k else
+                      f"film cut-off {display_text('damping.cutoff_frequency_hz', fc)}{beyond}")
+        _markers_line(ax, resonance_hz, ":", None if k or not resonance_hz else
+                      f"resonance in air (lumped model) "
+                      f"{display_text('response.resonance_hz', resonance_hz)}")
         ax.grid(True, which="major", color="0.85")
     a1.set_xlim(f[0], f[-1])
-    a1.legend(fontsize=8, loc="lower left")
+    a1.legend(fontsize=9, loc="lower left")
     return fig
 
 
@@ -74,19 +90,21 @@ def draw_response(resp):
             color="black", label=f"1 kHz: {resp.sensitivity_db_v_per_pa:.2f} dB re 1 V/Pa")
     a2.semilogx(f, r.phase_deg, color="black", lw=1.5)
     for ax, lab in ((a1, True), (a2, False)):
-        _markers_line(ax, resp.highpass_corner_hz, "--",
-                      f"electrical high-pass {_hz(resp.highpass_corner_hz)}" if lab else None)
-        _markers_line(ax, resp.acoustic_corner_hz, "-.",
-                      f"acoustic (vent) corner {_hz(resp.acoustic_corner_hz)}" if lab else None)
+        hp, ac = resp.highpass_corner_hz, resp.acoustic_corner_hz
+        _markers_line(ax, hp, "--", f"electrical high-pass "
+                      f"{display_text('response.highpass_corner_hz', hp)}" if lab else None)
+        _markers_line(ax, ac, "-.", f"acoustic (vent) corner "
+                      f"{display_text('response.acoustic_corner_hz', ac)}" if lab else None)
         if resp.resonance_hz:
             q = f", Q = {resp.quality_factor:.3g}" if resp.quality_factor else ""
-            _markers_line(ax, resp.resonance_hz, ":",
-                          f"resonance {_hz(resp.resonance_hz)}{q}" if lab else None)
+            _markers_line(ax, resp.resonance_hz, ":", f"resonance in air (lumped model) "
+                          f"{display_text('response.resonance_hz', resp.resonance_hz)}{q}"
+                          if lab else None)
         ax.grid(True, which="major", color="0.85")
     top = float(np.max(r.magnitude_db_v_per_pa))
     a1.set_ylim(max(float(np.min(r.magnitude_db_v_per_pa)), top - 80.0) - 2.0, top + 6.0)
     a1.set_ylabel("sensitivity (dB re 1 V/Pa)")
-    a1.legend(fontsize=8, loc="lower center")
+    a1.legend(fontsize=9, loc="lower center")
     a2.set_ylabel("phase (°)")
     a2.set_xlabel("frequency (Hz)")
     a2.set_xlim(f[0], f[-1])
@@ -125,12 +143,15 @@ def draw_noise(resp_section):
                   label=f"{_NOISE_LABELS.get(name, name)}{extra}")
     ax.set_xlim(f[0], f[-1])
     floor = float(np.sqrt(np.min(total)))
-    ax.set_ylim(0.3 * floor, 1e3 * floor)
+    band = f >= 20.0
+    top = float(np.sqrt(np.max(total[band]))) if np.any(band) else 1e3 * floor
+    # the whole total over the audio band is visible (at least three decades)
+    ax.set_ylim(0.3 * floor, max(2.0 * top, 1e3 * floor))
     ax.set_xlabel("frequency (Hz)")
     ax.set_ylabel("input-referred noise (Pa/√Hz)")
     _db_axis(ax)
     ax.grid(True, which="major", color="0.85")
-    ax.legend(fontsize=8, loc="upper center", bbox_to_anchor=(0.5, -0.14), ncols=2)
+    ax.legend(fontsize=9, loc="upper center", bbox_to_anchor=(0.5, -0.14), ncols=2)
     return fig
 
 
@@ -152,7 +173,7 @@ def draw_thd(dist):
     ax.set_xlabel("sound pressure level (dB SPL re 20 µPa)")
     ax.set_ylabel("total harmonic distortion (%)")
     ax.grid(True, which="major", color="0.85")
-    ax.legend(fontsize=8, loc="upper left")
+    ax.legend(fontsize=9, loc="upper left")
     return fig
 
 
@@ -165,8 +186,10 @@ def response_plots(design, damp, resp) -> list[Plot]:
         out.append(Plot(
             "squeeze_film", "damping", "Squeeze-film damping and stiffness",
             f"Force per centre velocity (damping) and per centre displacement (stiffness) of the "
-            f"air film on the mode-1 shape; below the cut-off ({_hz(sq.cutoff_frequency_hz)}) the "
-            f"film acts as a damper, above it as a spring.",
+            f"air film on the mode-1 shape; below the cut-off "
+            f"({display_text('damping.cutoff_frequency_hz', sq.cutoff_frequency_hz)}) the "
+            f"film acts as a damper, above it as a spring. Low-frequency damping "
+            f"{display_text('damping.damping_n_s_per_m', sq.damping_n_s_per_m, 5)}.",
             lambda: draw_squeeze(sq, f_res)))
     if resp is None:
         return out

@@ -30,7 +30,9 @@ outputs (OUT, default diagap-sweep):
                  varied inputs in SI, wall_time_s, every output, uncertainty.* (estimated
                  relative discretisation error), error
   sweep.jsonl    the record of every finished point (the CSV is rebuilt from it)
-  points/*.json  the full summary of each point;  plots/*.png  each output against each input
+  points/*.json  the full summary of each point
+  plots/*.png    each key output against each varied input it changes along (none for a
+                 sweep of fewer than two finished points)
 
 resuming: run the same command again; points already finished in OUT (ok, failed or collapsed)
 are skipped, only the missing ones are computed (--retry-failed computes failed ones again).
@@ -84,6 +86,7 @@ def cmd_sweep(args) -> int:
     from diagap.design import DesignError, demo_design, load_design
     from diagap.sweep.run import run_sweep
     from diagap.sweep.spec import SweepError, parse_vary
+    from diagap.table import CAUTION_LINE
 
     try:
         design = load_design(args.design) if args.design else demo_design()
@@ -106,4 +109,10 @@ def cmd_sweep(args) -> int:
     print(f"results: {res.csv_path}")
     if res.plot_files:
         print(f"plots: {res.out_dir / 'plots'}/ ({len(res.plot_files)} files)")
+    elif not args.no_plots:
+        from diagap.sweep.plots import no_plots_reason
+
+        why = no_plots_reason(res.records) or "no output changes along a varied input"
+        print(f"plots: none ({why})")
+    print(CAUTION_LINE)
     return 0

@@ -1,15 +1,20 @@
-"""Summary plots of a sweep: each output of interest against each varied input.
+"""Summary plots of a sweep: each output of interest against each varied input it depends on.
 
-One PNG per (output, input) pair, ``OUT/plots/<output key>--<input path>.png``, drawn with
+One PNG per informative (output, input) pair, ``OUT/plots/<output key>--<input path>.png``: an
+output is plotted against an input only if it changes along that input (relative spread above
+:data:`MIN_SPREAD` among points that differ in that input alone); diagnostics (error estimates,
+mesh sizes) are never plotted, and a sweep with fewer than two finished points writes no plots
+(:func:`no_plots_reason` says why). Drawn with
 matplotlib's Agg canvas (no display, no global backend change). Black lines with distinct
 markers and dash patterns keep the plots readable in greyscale. When other inputs are varied
 too, each combination of their values is one line (up to six; beyond that all points are shown
 as grey dots). Error bars are the estimated discretisation error (relative uncertainty x value);
 collapsed points (bias at or above pull-in) are drawn with open markers; failed points are left out.
 
-Axis units come from the key names, which carry their SI unit the way summary.json keys do
-(``center_compliance_m_per_pa`` → m/Pa, ``sensitivity_db_v_per_pa`` → dB re 1 V/Pa); simple units
-get an SI prefix (µm, kHz, pF).
+Labels and display units come from the names table (:mod:`diagap.names`), the same as in the
+console table and report.html; a key missing there falls back to a label built from the key
+(which carries its SI unit the way summary.json keys do). Figures are 150 dpi with text of 9 pt
+or more.
 """
 from __future__ import annotations
 
@@ -20,9 +25,15 @@ import tempfile
 from pathlib import Path
 from typing import Sequence
 
+from diagap.names import KEY_OUTPUTS, input_name, lookup
 from diagap.sweep.spec import Variation
 
-__all__ = ["write_plots", "outputs_of_interest", "key_label", "KEYWORDS"]
+__all__ = ["write_plots", "outputs_of_interest", "key_label", "KEYWORDS", "no_plots_reason",
+           "varies_along", "MIN_SPREAD", "DPI"]
+
+#: smallest relative change of an output along an input that is worth a plot
+MIN_SPREAD = 1e-6
+DPI = 150
 
 # Outputs worth a plot, matched as substrings of the key's last part, in this order.
 KEYWORDS = ("sensitivity", "snr", "noise", "pull_in", "resonance", "natural_frequencies_hz_1",
@@ -91,7 +102,7 @@ def _scale(values: Sequence[float], unit: str) -> tuple[float, str]:
 
 
 def _axis_label(name: str, unit: str) -> str:
-    return f"{name} [{unit}]" if unit else name
+    return f"{name} ({unit})" if unit else name
 
 
 def _plottable(records, key) -> bool:
@@ -102,15 +113,42 @@ def _plottable(records, key) -> bool:
 
 
 def outputs_of_interest(records: Sequence[dict]) -> list[str]:
-    """The output keys to plot: numeric keys matching :data:`KEYWORDS`, in that order."""
+    """The output keys to plot: the key results of :data:`diagap.names.KEY_OUTPUTS`, then
+    numeric keys outside the names table matching :data:`KEYWORDS` (outputs of a custom
+    evaluate function), in that order."""
     keys: dict[str, None] = {}
     for r in records:
         keys.update(dict.fromkeys(r.get("outputs", {})))
-    chosen: list[str] = []
+    chosen = [k for k in KEY_OUTPUTS if k in keys and _plottable(records, k)]
     for word in KEYWORDS:
         chosen += [k for k in keys if word in k.rsplit(".", 1)[-1] and k not in chosen
-                   and not any(w in k for w in _NOT_PLOTTED) and _plottable(records, k)]
+                   and not any(w in k for w in _NOT_PLOTTED) and lookup(k) is None
+                   and _plottable(records, k)]
     return chosen
+
+
+def varies_along(records: Sequence[dict], key: str, var: Variation,
+                 others: Sequence[Variation]) -> bool:
+    """Whether ``key`` changes (relative spread > :data:`MIN_SPREAD`) between points that differ
+    in ``var`` alone."""
+    for recs in _groups(records, others).values():
+        vals = [float(r["outputs"][key]) for r in recs]
+        finite = [v for v in vals if math.isfinite(v)]
+        if len({r["overrides"].get(var.path) for r in recs}) < 2 or len(finite) < 2:
+            continue
+        scale = max(abs(v) for v in finite)
+        if max(finite) - min(finite) > MIN_SPREAD * scale:
+            return True
+    return False
+
+
+def no_plots_reason(records: Sequence[dict]) -> str:
+    """Why a sweep has no plots ("" if it has enough finished points to plot)."""
+    good = [r for r in records if r.get("status") in ("ok", "collapsed")]
+    if len(good) < 2:
+        return (f"{len(good)} finished point{'s' if len(good) != 1 else ''}: a plot needs at "
+                "least two")
+    return ""
 
 
 def _uncertainty(rec: dict, key: str):
@@ -166,29 +204,46 @@ def _draw(ax, var, key, records, others, xf, yf) -> None:
                     label="collapsed (bias >= pull-in)" if i == 0 else None)
 
 
+def _labels(var: Variation, key: str, records: list[dict]):
+    """((x factor, x label), (y factor, y label), title) from the names table."""
+    out = lookup(key)
+    if out is not None:
+        yf, ylabel, title = out.scale, _axis_label(out.label, out.unit), out.label
+    else:
+        name, yunit = key_label(key)
+        yf, yunit = _scale([r["outputs"][key] for r in records], yunit)
+        ylabel, title = _axis_label(name.split(": ", 1)[-1], yunit), name
+    inp = input_name(var.path)
+    if not var.numeric:
+        xf, xlabel = 1.0, inp.label if inp else var.path.replace(".", " ").replace("_", " ")
+    elif inp is not None:
+        xf, xlabel = inp.scale, _axis_label(inp.label, inp.unit)
+    else:
+        xf, xunit = _scale([float(v) for v in var.values], _pretty(var.unit))
+        xlabel = _axis_label(var.path.replace(".", " ").replace("_", " "), xunit)
+    return (xf, xlabel), (yf, ylabel), title
+
+
 def _figure(var: Variation, key: str, records: list[dict], others: Sequence[Variation]):
     from matplotlib.figure import Figure
 
-    fig = Figure(figsize=(6.0, 4.2), dpi=110, layout="constrained")
+    fig = Figure(figsize=(6.0, 4.2), dpi=DPI, layout="constrained")
     ax = fig.subplots()
-    name, yunit = key_label(key)
-    yf, yunit = _scale([r["outputs"][key] for r in records], yunit)
-    xunit = _pretty(var.unit)
-    xf, xunit = _scale([float(v) for v in var.values], xunit) if var.numeric else (1.0, "")
+    (xf, xlabel), (yf, ylabel), title = _labels(var, key, records)
     _draw(ax, var, key, records, others, xf, yf)
-    ax.set_xlabel(_axis_label(var.path.replace(".", " ").replace("_", " "), xunit))
-    ax.set_ylabel(_axis_label(name.split(": ", 1)[-1], yunit))
-    ax.set_title(name, fontsize=10)
+    ax.set_xlabel(xlabel)
+    ax.set_ylabel(ylabel)
+    ax.set_title(title, fontsize=10)
     if var.spacing == "log":
         ax.set_xscale("log")
     if not var.numeric:
         ax.set_xticks(range(len(var.values)), list(var.values))
         ax.set_xlim(-0.5, len(var.values) - 0.5)
-    if yf == 1.0 and yunit and not yunit.startswith("dB"):
+    if yf == 1.0 and abs(ax.get_ylim()[1]) > 1e4:
         ax.ticklabel_format(axis="y", style="sci", scilimits=(-3, 4), useMathText=True)
     ax.grid(True, color="0.85", lw=0.6)
     if ax.get_legend_handles_labels()[1]:
-        ax.legend(fontsize=8, frameon=False)
+        ax.legend(fontsize=9, frameon=False)
     return fig
 
 
@@ -196,7 +251,7 @@ def _save(fig, path: Path) -> None:
     fd, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.stem}.", suffix=".png")
     os.close(fd)
     try:
-        fig.savefig(tmp, format="png")
+        fig.savefig(tmp, format="png", dpi=DPI)
         os.replace(tmp, path)
     except BaseException:
         Path(tmp).unlink(missing_ok=True)
@@ -210,7 +265,11 @@ def write_plots(records: Sequence[dict], variations: Sequence[Variation], plot_d
     ``records`` are sweep records (see :mod:`diagap.sweep.point`); only ok and collapsed points
     are drawn. ``outputs`` defaults to :func:`outputs_of_interest`.
     """
+    from diagap.report.plots import print_style
+
     good = [r for r in records if r.get("status") in ("ok", "collapsed")]
+    if no_plots_reason(good):
+        return []
     keys = list(outputs) if outputs is not None else outputs_of_interest(good)
     written: list[Path] = []
     plot_dir = Path(plot_dir)
@@ -218,10 +277,12 @@ def write_plots(records: Sequence[dict], variations: Sequence[Variation], plot_d
         for var in variations:
             pts = [r for r in good if isinstance(r["outputs"].get(key), (int, float))
                    and not isinstance(r["outputs"].get(key), bool) and var.path in r["overrides"]]
-            if not pts:
+            others = [v for v in variations if v is not var]
+            if len(pts) < 2 or not varies_along(pts, key, var, others):
                 continue
             plot_dir.mkdir(parents=True, exist_ok=True)
             path = plot_dir / f"{key}--{var.path}.png"
-            _save(_figure(var, key, pts, [v for v in variations if v is not var]), path)
+            with print_style():
+                _save(_figure(var, key, pts, others), path)
             written.append(path)
     return written
