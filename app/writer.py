@@ -1,6 +1,6 @@
 """Writes a run's output files all at once: nothing is left half-written, nothing stale is kept.
 
-Files are first written into a hidden temporary folder beside OUT (``.<OUT name>.diagap-tmp-*``)
+Files are first written into a hidden temporary folder beside OUT (``.diagap-<OUT name>-*``)
 and then moved into OUT one by one (``os.replace`` is atomic per file); an error while producing
 them leaves OUT as it was. The temporary folder is removed on any exit of :func:`write_outputs`,
 including KeyboardInterrupt and the SystemExit that the CLI raises on SIGTERM; one left by a
@@ -57,17 +57,14 @@ def _producers(result):
 
 
 def _tmp_prefix(out: Path) -> str:
-    return f".{out.resolve().name or 'out'}.diagap-tmp-"
+    return f".diagap-{out.resolve().name or 'out'}-"
 
 
 def _remove_stale_temps(out: Path) -> None:
-    """Remove temporary folders of earlier runs into ``out`` older than :data:`STALE_TMP_S`
-    (and those of earlier diagap versions, named ``.diagap-*``, as old)."""
-    import itertools
-
+    """Remove temporary folders beside ``out`` older than :data:`STALE_TMP_S` (left by killed
+    runs; a run writes its outputs in seconds)."""
     now = time.time()
-    for tmp in itertools.chain(out.parent.glob(f"{_tmp_prefix(out)}*"),
-                               out.parent.glob(".diagap-*")):
+    for tmp in out.parent.glob(".diagap-*"):
         try:
             if tmp.is_dir() and not tmp.is_symlink() and now - tmp.stat().st_mtime > STALE_TMP_S:
                 shutil.rmtree(tmp, ignore_errors=True)

@@ -35,17 +35,17 @@ def _files(out: Path) -> set[str]:
 
 
 def _temps(parent: Path) -> list[Path]:
-    return [p for p in parent.iterdir() if p.name.startswith(".") and "diagap-tmp" in p.name]
+    return [p for p in parent.iterdir() if p.name.startswith(".diagap-")]
 
 
 def test_rerun_removes_the_earlier_runs_files_and_keeps_the_users(tmp_path, capsys):
     out = tmp_path / "out"
-    old_tmp = tmp_path / ".out.diagap-tmp-killed"  # left by a run killed hours ago
+    old_tmp = tmp_path / ".diagap-out-killed"  # left by a run killed hours ago
     old_tmp.mkdir()
     (old_tmp / "summary.json").write_text("{}")
     three_hours_ago = time.time() - 3 * 3600
     os.utime(old_tmp, (three_hours_ago, three_hours_ago))
-    young_tmp = tmp_path / ".out.diagap-tmp-running"  # another run writing right now
+    young_tmp = tmp_path / ".diagap-out-running"  # another run writing right now
     young_tmp.mkdir()
 
     healthy = _design(tmp_path, "10 V")
