@@ -7,9 +7,9 @@ including KeyboardInterrupt and the SystemExit that the CLI raises on SIGTERM; o
 killed process (SIGKILL) is removed by the next run into the same OUT once it is two hours old.
 
 A run owns its folder's diagap files: after the new files are in place, the files of an earlier
-run that this run did not write are removed (only diagap's own outputs:
-:func:`diagap.report.outputs.earlier_outputs`), and the hidden manifest ``.diagap-outputs.json``
-lists the files of this run.
+run that this run did not write are removed (only diagap's own outputs,
+:func:`diagap.report.outputs.earlier_outputs`); the hidden manifest ``.diagap-outputs.json``, one
+of the outputs, lists the files of this run.
 """
 from __future__ import annotations
 
@@ -72,11 +72,9 @@ def _remove_stale_temps(out: Path) -> None:
             pass
 
 
-def _remove_earlier(out: Path, names: list[str], tmp: Path) -> None:
-    """Remove the diagap files of an earlier run that this run did not write; write the manifest."""
-    from diagap.report.outputs import MANIFEST, earlier_outputs, manifest_text
-
-    for name in sorted(earlier_outputs(out) - set(names)):
+def _remove_earlier(out: Path, earlier: set[str], names: list[str]) -> None:
+    """Remove the diagap files ``earlier`` of an earlier run that this run did not write."""
+    for name in sorted(earlier - set(names)):
         path = out / name
         path.unlink(missing_ok=True)
         if path.parent != out:
@@ -84,8 +82,6 @@ def _remove_earlier(out: Path, names: list[str], tmp: Path) -> None:
                 path.parent.rmdir()  # only if now empty
             except OSError:
                 pass
-    (tmp / MANIFEST).write_text(manifest_text(names), encoding="utf-8")
-    os.replace(tmp / MANIFEST, out / MANIFEST)
 
 
 def write_outputs(result, out: Path) -> list[Path]:
@@ -96,6 +92,8 @@ def write_outputs(result, out: Path) -> list[Path]:
     Then the diagap files of an earlier run into ``out`` that this run did not produce are
     removed (other files are kept).
     """
+    from diagap.report.outputs import earlier_outputs
+
     out = Path(out)
     out.parent.mkdir(parents=True, exist_ok=True)
     _remove_stale_temps(out)
@@ -107,13 +105,14 @@ def write_outputs(result, out: Path) -> list[Path]:
             target.parent.mkdir(parents=True, exist_ok=True)
             func(target)
             names.append(fname)
+        earlier = earlier_outputs(out)
         written = []
         for fname in names:
             dest = out / fname
             dest.parent.mkdir(parents=True, exist_ok=True)
             os.replace(tmp / fname, dest)
             written.append(dest)
-        _remove_earlier(out, names, tmp)
+        _remove_earlier(out, earlier, names)
         return written
     finally:
         shutil.rmtree(tmp, ignore_errors=True)

@@ -9,11 +9,12 @@ plots/<name>.png          the report plots (:mod:`lumped.report.plots`)
 report.html               the self-contained report page (:mod:`lumped.report.html`)
 fields.vtu                diaphragm mesh, deflection and mode shapes (:mod:`lumped.report.vtu`)
 cell_potential.vtu        unit-cell potential and |E| (perforated backplate only)
+.diagap-outputs.json      hidden manifest: the names of the files of this run (see below)
 
 Each plot is drawn once; the PNG file and the image embedded in report.html are the same bytes.
 
 A run owns the diagap files of its folder: :func:`earlier_outputs` names the files an earlier run
-left there -- those listed in the hidden manifest ``.diagap-outputs.json`` that every run writes,
+left there -- those listed in the hidden manifest that every run writes,
 plus the fixed names above and the report plots (``plots/<stem>.png|svg``) for folders written
 before the manifest existed. :mod:`diagap.writer` removes those the new run does not write; any
 other file (a user's notes, their own plots) is never touched.
@@ -99,3 +100,5 @@ def report_files(result):
     listed = ["summary.json"] + [n for n, _ in others] + \
         [f"plots/{p.name}.png" for p in rendered.plots]
     yield "report.html", lambda p: write_report_html(result, rendered.items(), p, listed)
+    yield MANIFEST, lambda p: p.write_text(manifest_text([*listed, "report.html"]),
+                                           encoding="utf-8")
