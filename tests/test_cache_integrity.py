@@ -169,3 +169,20 @@ def test_unwritable_cache_is_not_an_error(tmp_path, monkeypatch):
     calls = []
     out = cache.cached_arrays("probe", {"g": 1e-6}, _counting_build(calls))
     assert len(calls) == 1 and out["n"][0] == 7
+
+
+def test_temporary_files_of_killed_writers_are_removed(tmp_path, monkeypatch):
+    import os
+    import time
+
+    monkeypatch.setenv("DIAGAP_CACHE_DIR", str(tmp_path))
+    monkeypatch.setattr(cache, "_STATE", {**cache._STATE, "enabled": True, "swept": False})
+    old = tmp_path / ".disk-0123.npz.abcd.tmp"  # a writer killed two hours ago
+    young = tmp_path / ".disk-4567.npz.efgh.tmp"  # another process writing right now
+    for p in (old, young):
+        p.write_bytes(b"partial")
+    two_hours_ago = time.time() - 7200
+    os.utime(old, (two_hours_ago, two_hours_ago))
+    cache.cached_arrays("probe", {"g": 1e-6}, _counting_build([]))
+    assert not old.exists() and young.exists()
+    assert [p.name for p in tmp_path.glob(".*.tmp")] == [young.name]

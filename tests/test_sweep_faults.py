@@ -267,3 +267,15 @@ def test_workers_die_with_their_parent_killed_by_sigkill(tmp_path):
         for pid in workers:  # never leave a stray process behind, even when the test fails
             if _alive(pid):
                 os.kill(pid, signal.SIGKILL)
+
+
+def test_temporary_files_of_a_killed_sweep_are_removed(tmp_path):
+    out = tmp_path / "s"
+    run_sweep(demo_design(), ["backplate.hole_radius=2um,4um"], out, workers=1, evaluate=healthy,
+              plots=False)
+    left = [out / ".sweep.csv.k1ll3d.tmp", out / "points" / ".0123456789ab.json.k1ll3d.tmp"]
+    for p in left:
+        p.write_text("partial")
+    run_sweep(demo_design(), ["backplate.hole_radius=2um,4um"], out, workers=1, evaluate=healthy,
+              plots=False)
+    assert not any(p.exists() for p in left)
