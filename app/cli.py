@@ -203,6 +203,7 @@ def main(argv: list[str] | None = None) -> int:
         set_enabled(False)
     from diagap.design import DesignError
 
+    previous = _exit_on_signals()
     try:
         return _COMMANDS[args.command](args)
     except DesignError as exc:
@@ -219,6 +220,33 @@ def main(argv: list[str] | None = None) -> int:
         return _internal(exc, args)
     except Exception as exc:  # noqa: BLE001 - the last line of defence of the CLI
         return _internal(exc, args)
+    finally:
+        _restore_signals(previous)
+
+
+def _exit_on_signals() -> dict:
+    """SIGTERM and SIGHUP raise SystemExit(128 + signal number), so that ``finally`` blocks run
+    (temporary folders are removed, sweep workers stopped); returns the previous handlers."""
+    import signal
+
+    def handler(signum, frame):
+        raise SystemExit(128 + signum)
+
+    previous = {}
+    for name in ("SIGTERM", "SIGHUP"):
+        sig = getattr(signal, name, None)
+        try:
+            previous[sig] = signal.signal(sig, handler)
+        except (TypeError, ValueError, OSError):  # no such signal, or not the main thread
+            pass
+    return previous
+
+
+def _restore_signals(previous: dict) -> None:
+    import signal
+
+    for sig, handler in previous.items():
+        signal.signal(sig, signal.SIG_DFL if handler is None else handler)
 
 
 def _internal(exc: Exception, args) -> int:

@@ -1,7 +1,15 @@
-"""Writes a run's output files all at once: nothing is left half-written.
+"""Writes a run's output files all at once: nothing is left half-written, nothing stale is kept.
 
-Files are first written into a temporary folder beside OUT and then moved into OUT one by one
-(``os.replace`` is atomic per file); an error while producing them leaves OUT as it was.
+Files are first written into a hidden temporary folder beside OUT (``.diagap-<OUT name>-*``)
+and then moved into OUT one by one (``os.replace`` is atomic per file); an error while producing
+them leaves OUT as it was. The temporary folder is removed on any exit of :func:`write_outputs`,
+including KeyboardInterrupt and the SystemExit that the CLI raises on SIGTERM; one left by a
+killed process (SIGKILL) is removed by the next run into the same OUT once it is two hours old.
+
+A run owns its folder's diagap files: after the new files are in place, the files of an earlier
+run that this run did not write are removed (only diagap's own outputs,
+:func:`diagap.report.outputs.earlier_outputs`); the hidden manifest ``.diagap-outputs.json``, one
+of the outputs, lists the files of this run.
 """
 from __future__ import annotations
 
@@ -10,9 +18,12 @@ import math
 import os
 import shutil
 import tempfile
+import time
 from pathlib import Path
 
-__all__ = ["write_outputs", "json_ready"]
+__all__ = ["write_outputs", "json_ready", "STALE_TMP_S"]
+
+STALE_TMP_S = 2 * 3600.0  # a temporary folder older than this belongs to a killed run
 
 
 def json_ready(obj):
@@ -46,6 +57,34 @@ def _producers(result, report: bool = True):
     yield from report_files(result, report=report)
 
 
+def _tmp_prefix(out: Path) -> str:
+    return f".diagap-{out.resolve().name or 'out'}-"
+
+
+def _remove_stale_temps(out: Path) -> None:
+    """Remove temporary folders beside ``out`` older than :data:`STALE_TMP_S` (left by killed
+    runs; a run writes its outputs in seconds)."""
+    now = time.time()
+    for tmp in out.parent.glob(".diagap-*"):
+        try:
+            if tmp.is_dir() and not tmp.is_symlink() and now - tmp.stat().st_mtime > STALE_TMP_S:
+                shutil.rmtree(tmp, ignore_errors=True)
+        except OSError:
+            pass
+
+
+def _remove_earlier(out: Path, earlier: set[str], names: list[str]) -> None:
+    """Remove the diagap files ``earlier`` of an earlier run that this run did not write."""
+    for name in sorted(earlier - set(names)):
+        path = out / name
+        path.unlink(missing_ok=True)
+        if path.parent != out:
+            try:
+                path.parent.rmdir()  # only if now empty
+            except OSError:
+                pass
+
+
 def write_outputs(result, out: Path, report: bool = True) -> list[Path]:
     """Write every output of ``result`` into ``out`` (created if needed).
 
@@ -63,11 +102,15 @@ def write_outputs(result, out: Path, report: bool = True) -> list[Path]:
     list of Path
         The files written. Everything is produced in a temporary folder beside ``out`` first;
         only when all producers have succeeded are the files moved in (names may contain
-        sub-folders, ``plots/response.png``).
+        sub-folders, ``plots/response.png``). Then the diagap files of an earlier run into
+        ``out`` that this run did not produce are removed (other files are kept).
     """
+    from diagap.report.outputs import earlier_outputs
+
     out = Path(out)
     out.parent.mkdir(parents=True, exist_ok=True)
-    tmp = Path(tempfile.mkdtemp(prefix=".diagap-", dir=out.parent))
+    _remove_stale_temps(out)
+    tmp = Path(tempfile.mkdtemp(prefix=_tmp_prefix(out), dir=out.parent))
     try:
         names = []
         for fname, func in _producers(result, report):
@@ -75,12 +118,14 @@ def write_outputs(result, out: Path, report: bool = True) -> list[Path]:
             target.parent.mkdir(parents=True, exist_ok=True)
             func(target)
             names.append(fname)
+        earlier = earlier_outputs(out)
         written = []
         for fname in names:
             dest = out / fname
             dest.parent.mkdir(parents=True, exist_ok=True)
             os.replace(tmp / fname, dest)
             written.append(dest)
+        _remove_earlier(out, earlier, names)
         return written
     finally:
         shutil.rmtree(tmp, ignore_errors=True)

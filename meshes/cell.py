@@ -16,7 +16,8 @@ Both meshes are graded towards the hole rim (the two circles r = a, z = 1 and z 
 the size law of :class:`MeshSizes` (linear growth with the distance d to the nearer rim, capped
 in the gap layer and overall), given to gmsh as a ``MathEval`` size field. The air is built from fragments (gap, hole, air above) so
 that the plane z = 1 is a mesh surface also inside the hole. Meshes are cached on disk
-(:mod:`diagap.meshes.cache`). This module knows nothing of physics: names refer to geometry only.
+(:mod:`diagap.meshes.cache`, keyed by the geometry and a hash of the mesh code). This module
+knows nothing of physics: names refer to geometry only.
 """
 from __future__ import annotations
 
@@ -36,8 +37,6 @@ __all__ = [
     "tagged_mesh_arrays",
     "to_skfem",
 ]
-
-_GENERATOR = 1  # bump when the output of this module changes (invalidates cached meshes)
 
 
 @dataclass(frozen=True)
@@ -247,7 +246,7 @@ def axisymmetric_cell_mesh(geo: CellGeometry, sizes: MeshSizes) -> MeshTri:
     """
     _check_geometry(geo, prism=False)
     sizes.check()
-    params = {**geo.as_dict(), **sizes.as_dict(), "gen": _GENERATOR}
+    params = {**geo.as_dict(), **sizes.as_dict()}
     arr = cached_arrays("cell-rz", params, lambda: _build_axisymmetric(geo, sizes))
     return to_skfem(arr)
 
@@ -323,6 +322,6 @@ def prism_cell_mesh(lattice: str, geo: CellGeometry, sizes: MeshSizes) -> MeshTe
         raise ValueError(f"hole radius {geo.hole_radius} must be below the half pitch "
                          f"{geo.cell_radius}")
     sizes.check()
-    params = {"lattice": lattice, **geo.as_dict(), **sizes.as_dict(), "gen": _GENERATOR}
+    params = {"lattice": lattice, **geo.as_dict(), **sizes.as_dict()}
     arr = cached_arrays("cell-prism", params, lambda: _build_prism(lattice, geo, sizes))
     return to_skfem(arr)

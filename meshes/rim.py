@@ -30,9 +30,6 @@ from diagap.meshes.cell import MeshSizes, _num, tagged_mesh_arrays, to_skfem
 
 __all__ = ["PairGeometry", "electrode_pair_mesh", "disk_pair_mesh"]
 
-_GENERATOR = 1  # bump when the output of this module changes
-
-
 @dataclass(frozen=True)
 class PairGeometry:
     """Two coaxial electrodes in units of the gap (see the module docstring)."""
@@ -45,7 +42,7 @@ class PairGeometry:
 
     def as_dict(self) -> dict:
         return {"rl": self.lower_radius, "ru": self.upper_radius, "t": self.thickness,
-                "R": self.outer_radius, "rb": self.ring_radius, "gen": _GENERATOR}
+                "R": self.outer_radius, "rb": self.ring_radius}
 
     def check(self) -> None:
         rl, ru, t, R = self.lower_radius, self.upper_radius, self.thickness, self.outer_radius

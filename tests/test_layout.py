@@ -22,6 +22,9 @@ ROOMS = {"meshes": "diagap.meshes", "fem": "diagap.fem", "lumped": "diagap.lumpe
          "app": "diagap"}
 ORDER = ["meshes", "fem", "lumped", "app"]  # a room may import only rooms to its left
 CLI_MODULES = {"app/cli.py", "app/sweep/cli.py"}
+#: process control that is not a user-facing exit: a sweep worker whose parent has died ends
+#: itself (no output, no exit code anybody reads)
+WORKER_EXITS = {("app/sweep/exec.py", "os._exit(")}
 
 
 def _modules():
@@ -168,7 +171,8 @@ def _talks(tree: ast.AST) -> list[tuple[int, str]]:
 def test_only_the_cli_prints_or_exits():
     bad = [f"{rel}:{line}: {what}"
            for rel in MODULES if rel not in CLI_MODULES
-           for line, what in _talks(ast.parse((REPO / rel).read_text(encoding="utf-8")))]
+           for line, what in _talks(ast.parse((REPO / rel).read_text(encoding="utf-8")))
+           if (rel, what) not in WORKER_EXITS]
     assert not bad, "\n".join(bad)
     # the check sees what it looks for
     assert _talks(ast.parse("import sys\nprint(1)\nsys.exit(2)\nraise SystemExit(3)\n")) == [

@@ -211,7 +211,8 @@ def test_run_json_keeps_stdout_json_and_cautions_on_stderr(cached_run, tmp_path,
 def test_no_report_writes_summary_and_csv_only(cached_run, tmp_path, capsys):
     out = tmp_path / "out"
     assert main(["run", "-o", str(out), "--no-report"]) == 0
-    assert sorted(p.name for p in out.iterdir()) == ["response.csv", "summary.json"]
+    visible = sorted(p.name for p in out.iterdir() if not p.name.startswith("."))
+    assert visible == ["response.csv", "summary.json"]
 
 
 def _fake_point(design):

@@ -9,12 +9,56 @@ plots/<name>.png          the report plots (:mod:`diagap.report.plots`)
 report.html               the self-contained report page (:mod:`diagap.report.html`)
 fields.vtu                diaphragm mesh, deflection and mode shapes (:mod:`diagap.report.vtu`)
 cell_potential.vtu        unit-cell potential and |E| (perforated backplate only)
+.diagap-outputs.json      hidden manifest: the names of the files of this run (see below)
 
 Each plot is drawn once; the PNG file and the image embedded in report.html are the same bytes.
+
+A run owns the diagap files of its folder: :func:`earlier_outputs` names the files an earlier run
+left there -- those listed in the hidden manifest that every run writes,
+plus the fixed names above and the report plots (``plots/<stem>.png|svg``) for folders written
+before the manifest existed. :mod:`diagap.writer` removes those the new run does not write; any
+other file (a user's notes, their own plots) is never touched.
 """
 from __future__ import annotations
 
-__all__ = ["report_files"]
+import json
+from pathlib import Path, PurePosixPath
+
+__all__ = ["report_files", "earlier_outputs", "manifest_text", "FIXED_OUTPUTS", "MANIFEST"]
+
+MANIFEST = ".diagap-outputs.json"
+FIXED_OUTPUTS = ("summary.json", "report.html", "response.csv", "model.cir", "fields.vtu",
+                 "cell_potential.vtu")
+_PLOT_STEMS = ("bias_branch", "capacitance", "cell_field", "deflection", "mode_maps",
+               "mode_profiles", "noise", "response", "squeeze_film", "thd")
+_PLOT_SUFFIXES = (".png", ".svg")
+
+
+def manifest_text(names) -> str:
+    """The manifest of a run's files (relative names, ``/`` separated)."""
+    return json.dumps({"format": "diagap-outputs/1", "files": sorted(names)}, indent=1) + "\n"
+
+
+def _safe(name) -> bool:
+    p = PurePosixPath(str(name))
+    return bool(name) and not p.is_absolute() and ".." not in p.parts and p.name != MANIFEST
+
+
+def _listed(out: Path) -> set[str]:
+    try:
+        files = json.loads((out / MANIFEST).read_text(encoding="utf-8")).get("files", [])
+    except (OSError, ValueError, AttributeError):
+        return set()
+    return {str(n) for n in files if isinstance(n, str) and _safe(n)} if isinstance(files, list) \
+        else set()
+
+
+def earlier_outputs(out: Path) -> set[str]:
+    """Relative names of the diagap output files present in ``out`` (see the module docstring)."""
+    out = Path(out)
+    names = _listed(out) | set(FIXED_OUTPUTS)
+    names |= {f"plots/{stem}{suffix}" for stem in _PLOT_STEMS for suffix in _PLOT_SUFFIXES}
+    return {n for n in names if (out / n).is_file() or (out / n).is_symlink()}
 
 
 def _lumped_files(result):
@@ -45,7 +89,10 @@ def report_files(result, report: bool = True):
     """Yield (relative file name, function(path)) for every file this run can produce
     (``report=False``: response.csv only, no plots, page, VTK or SPICE files)."""
     if not report:
-        yield from (f for f in _lumped_files(result) if f[0] == "response.csv")
+        csv = [f for f in _lumped_files(result) if f[0] == "response.csv"]
+        yield from csv
+        names = ["summary.json"] + [n for n, _ in csv]
+        yield MANIFEST, lambda p: p.write_text(manifest_text(names), encoding="utf-8")
         return
     from diagap.report.fields import cell_field
     from diagap.report.html import write_report_html
@@ -60,3 +107,5 @@ def report_files(result, report: bool = True):
     listed = ["summary.json"] + [n for n, _ in others] + \
         [f"plots/{p.name}.png" for p in rendered.plots]
     yield "report.html", lambda p: write_report_html(result, rendered.items(), p, listed)
+    yield MANIFEST, lambda p: p.write_text(manifest_text([*listed, "report.html"]),
+                                           encoding="utf-8")

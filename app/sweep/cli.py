@@ -35,13 +35,20 @@ outputs (OUT, default diagap-sweep):
                  sweep of fewer than two finished points)
 
 resuming: run the same command again; points already finished in OUT (ok, failed or collapsed)
-are skipped, only the missing ones are computed (--retry-failed computes failed ones again).
-A point that fails (e.g. an invalid combination) is recorded with its error; the sweep goes on.
+are skipped, only the missing ones are computed, and points that failed because of the
+environment (disk full or read-only, out of memory, a killed worker) are computed again
+(--retry-failed computes all failed ones again). A point that fails (e.g. an invalid
+combination) is recorded with its error and its cause (input, environment, error); the sweep
+goes on. A folder holding a sweep of another design or over other --vary keys is refused;
+--fresh removes that sweep's files (sweep.*, points/, its plots) and starts a clean one.
 
 exit codes:
-  0    the sweep is complete, whatever the status (ok, failed, collapsed) of single points
-  2    bad input: a --vary, design, folder or scheduler error, on one line; no files written
-  130  interrupted: the points finished so far are kept; run the same command to resume"""
+  0    the sweep is complete and at least one point succeeded (ok or collapsed)
+  1    every point failed, at least one because of the environment or an internal error
+  2    bad input: a --vary, design, folder or scheduler error, on one line, no files written;
+       or every point failed because of its input (e.g. an invalid combination)
+  130  interrupted (143 on SIGTERM): the points finished so far are kept; run the same command
+       to resume"""
 
 
 def add_parser(sub, add_common, epilog: str = "") -> argparse.ArgumentParser:
@@ -65,6 +72,8 @@ def add_parser(sub, add_common, epilog: str = "") -> argparse.ArgumentParser:
                    "needs the diagap[cluster] extra")
     p.add_argument("--retry-failed", action="store_true",
                    help="compute failed points of an earlier run again")
+    p.add_argument("--fresh", action="store_true",
+                   help="remove an earlier sweep's files from OUT and start a clean sweep")
     p.add_argument("--no-plots", action="store_true", help="do not write OUT/plots/*.png")
     p.add_argument("--no-progress", action="store_true", help="no progress bar on stderr")
     add_common(p)
@@ -94,7 +103,7 @@ def cmd_sweep(args) -> int:
         res = run_sweep(design, variations, Path(args.out), workers=args.workers,
                         scheduler=args.scheduler, accuracy=args.accuracy,
                         progress=not args.no_progress, retry_failed=args.retry_failed,
-                        plots=not args.no_plots)
+                        plots=not args.no_plots, fresh=args.fresh)
     except (SweepError, DesignError) as exc:
         print(f"diagap: error: {exc}", file=sys.stderr)
         return 2
@@ -102,6 +111,9 @@ def cmd_sweep(args) -> int:
         print(f"diagap: interrupted; finished points are kept in {args.out}/, run the same "
               f"command again to resume", file=sys.stderr)
         return 130
+    except SystemExit:  # SIGTERM or SIGHUP (diagap.cli): finished points are kept as well
+        print(f"diagap: terminated; finished points are kept in {args.out}/", file=sys.stderr)
+        raise
     c = res.counts()
     total = len(res.records)
     print(f"sweep: {total} points ({res.computed} computed, {res.reused} already finished): "
@@ -114,5 +126,10 @@ def cmd_sweep(args) -> int:
 
         why = no_plots_reason(res.records) or "no output changes along a varied input"
         print(f"plots: none ({why})")
+    status = res.exit_status()
+    if status:
+        kind = "because of their input" if status == 2 else "(see the cause and error columns)"
+        print(f"diagap: error: every point of the sweep failed {kind}; see {res.csv_path}",
+              file=sys.stderr)
     print(CAUTION_LINE)
-    return 0
+    return status

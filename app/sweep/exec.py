@@ -5,10 +5,13 @@ writes files. Ordinary exceptions of a point are already records (:func:`run_poi
 ``KeyboardInterrupt`` and ``SystemExit`` stop the sweep, and the runners stop their workers.
 
 Local pool: worker processes are started with ``spawn`` (safe with the threads of BLAS and gmsh),
-ignore SIGINT (the parent stops them) and pin BLAS to one thread each. At most one point per
-worker is in flight. When a worker process dies (a crash in native code, the out-of-memory
-killer), the points it may have been running are retried one at a time; a point whose worker
-dies again alone is recorded as failed.
+ignore SIGINT (the parent stops them) and pin BLAS to one thread each. They die with their parent,
+even when it is killed with SIGKILL: on Linux the kernel sends them SIGKILL when the parent ends
+(``prctl(PR_SET_PDEATHSIG)``); elsewhere a watchdog thread ends a worker whose parent process id
+changes. At most one point per worker is in flight. When a worker process dies (a crash in native
+code, the out-of-memory killer), the points it may have been running are retried one at a time; a
+point whose worker dies again alone is recorded as failed, with the cause ``environment`` (it is
+computed again when the sweep is resumed, :mod:`diagap.sweep.faults`).
 
 Dask: ``dask`` and ``distributed`` are the optional extra ``diagap[cluster]``, imported only
 here. Workers need diagap installed; start them with one thread each (``--nthreads 1``) for
@@ -19,10 +22,12 @@ from __future__ import annotations
 
 import logging
 import os
+import time
 import uuid
 from collections import deque
 from typing import Callable, Iterable
 
+from diagap.sweep.faults import ENVIRONMENT
 from diagap.sweep.point import PointTask, failed_record, run_point
 from diagap.sweep.spec import SweepError
 
@@ -32,6 +37,8 @@ log = logging.getLogger(__name__)
 Emit = Callable[[dict], None]
 _CRASH = ("the worker process ended unexpectedly while computing this point (it was retried "
           "alone and ended again)")
+_PR_SET_PDEATHSIG = 1  # linux/prctl.h
+_WATCH_S = 0.5
 
 
 def available_cores() -> int:
@@ -48,9 +55,39 @@ def run_serial(tasks: Iterable[PointTask], emit: Emit) -> None:
         emit(run_point(task))
 
 
-def _init_worker() -> None:
+def _die_with_parent(parent_pid: int | None) -> None:
+    """End this worker process when the process ``parent_pid`` that started it ends."""
+    import signal
+    import sys
+
+    if parent_pid is None:
+        return
+    armed = False
+    if sys.platform.startswith("linux"):
+        try:
+            import ctypes
+
+            libc = ctypes.CDLL(None, use_errno=True)
+            armed = libc.prctl(_PR_SET_PDEATHSIG, int(signal.SIGKILL), 0, 0, 0) == 0
+        except (OSError, AttributeError):  # pragma: no cover - no prctl in this libc
+            armed = False
+    if os.getppid() != parent_pid:  # the parent ended before the signal was armed
+        os._exit(1)
+    if not armed:
+        import threading
+
+        def watch():
+            while os.getppid() == parent_pid:
+                time.sleep(_WATCH_S)
+            os._exit(1)
+
+        threading.Thread(target=watch, name="diagap-parent-watchdog", daemon=True).start()
+
+
+def _init_worker(parent_pid: int | None = None) -> None:
     import signal
 
+    _die_with_parent(parent_pid)
     signal.signal(signal.SIGINT, signal.SIG_IGN)
     for var in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS"):
         os.environ.setdefault(var, "1")
@@ -99,7 +136,7 @@ class _PoolRun:
     def _crashed(self, task: PointTask) -> None:
         self.crashes[task.point_id] = self.crashes.get(task.point_id, 0) + 1
         if self.crashes[task.point_id] >= 2:
-            self.emit(failed_record(task, _CRASH))
+            self.emit(failed_record(task, _CRASH, cause=ENVIRONMENT))
         else:
             self.queue.appendleft(task)
 
@@ -129,7 +166,7 @@ class _PoolRun:
         from concurrent.futures.process import BrokenProcessPool
 
         pool = ProcessPoolExecutor(self.workers, mp_context=multiprocessing.get_context("spawn"),
-                                   initializer=_init_worker)
+                                   initializer=_init_worker, initargs=(os.getpid(),))
         running: dict = {}
         try:
             while self.queue or running:
@@ -204,7 +241,7 @@ def run_dask(tasks: Iterable[PointTask], client, emit: Emit) -> None:
                 record = fut.result()
             except distributed.KilledWorker as exc:
                 record = failed_record(task, f"a Dask worker died while computing this point "
-                                             f"({_line(exc)})")
+                                             f"({_line(exc)})", cause=ENVIRONMENT)
             except Exception as exc:  # noqa: BLE001 - the cluster, not the point, failed
                 raise SweepError(f"a Dask worker could not run a point: {_line(exc)} (is diagap "
                                  f"installed on the workers?)") from None

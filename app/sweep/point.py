@@ -13,6 +13,8 @@ A record is a plain dict::
     status        "ok" | "failed" | "collapsed" (bias at or above pull-in; outputs that do not
                   depend on the bias point are present)
     error         one line, "" unless failed
+    cause         failed points only: "input" | "environment" | "error" (:mod:`diagap.sweep.faults`;
+                  environment failures are computed again when the sweep is resumed)
     wall_time_s   time spent on the point in the worker
     outputs       {flattened summary key: number, bool or None}
     uncertainty   {flattened summary key: estimated relative discretisation error}
@@ -139,10 +141,10 @@ def _base_record(task: PointTask) -> dict:
 
 
 def failed_record(task: PointTask, error: str, wall_time_s: float | None = None,
-                  trace: str = "") -> dict:
-    """A record of a point that could not be computed."""
+                  trace: str = "", cause: str = "error") -> dict:
+    """A record of a point that could not be computed (``cause``: :mod:`diagap.sweep.faults`)."""
     rec = _base_record(task)
-    rec.update(error=" ".join(str(error).split()) or "failed",
+    rec.update(error=" ".join(str(error).split()) or "failed", cause=cause,
                wall_time_s=None if wall_time_s is None else round(wall_time_s, 6))
     if trace:
         rec["traceback"] = trace[-4000:]
@@ -173,10 +175,12 @@ def run_point(task: PointTask) -> dict:
         summary = json_ready(out.summary)
         outputs, uncertainty = flatten_summary(summary)
     except DesignError as exc:
-        return failed_record(task, _error_line(exc), time.perf_counter() - t0)
+        return failed_record(task, _error_line(exc), time.perf_counter() - t0, cause="input")
     except Exception as exc:  # noqa: BLE001 - any failure of one point is recorded, not raised
+        from diagap.sweep.faults import exception_cause
+
         return failed_record(task, _error_line(exc), time.perf_counter() - t0,
-                             traceback.format_exc())
+                             traceback.format_exc(), exception_cause(exc))
     rec = _base_record(task)
     rec.update(status="collapsed" if out.collapsed else "ok",
                wall_time_s=round(time.perf_counter() - t0, 6),

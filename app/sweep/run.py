@@ -8,13 +8,18 @@ point, fsync'ed line by line) and ``OUT/sweep.csv`` (one row per point), summary
 
 Resuming: a point's id is a hash of its overrides (the varied values in SI and the accuracy
 level), so running the same sweep again into the same folder computes only the points without a
-record -- finished points (ok, failed or collapsed) are skipped, failed ones are computed again
-with ``retry_failed=True``. Extending a variation reuses the points already computed. A folder
-holding a sweep of another base design is refused.
+record -- finished points (ok, failed or collapsed) are skipped, except points that failed
+because of the environment (a full disk, a killed worker, memory; :mod:`diagap.sweep.faults`),
+which are computed again; all failed ones are computed again with ``retry_failed=True``.
+Extending a variation reuses the points already computed. A folder holding a sweep of another
+base design, or over other varied keys, is refused; ``fresh=True`` removes the earlier sweep's
+files and starts a clean sweep instead. Plots of an earlier run that this run does not write are
+removed.
 
 Failures: an exception of one point (an invalid combination such as hole radius >= half the
-pitch, a solver error) is recorded with its message and the sweep goes on. ``KeyboardInterrupt``
-stops the sweep; every point finished until then stays recorded.
+pitch, a solver error) is recorded with its message and cause, and the sweep goes on.
+``KeyboardInterrupt`` and ``SystemExit`` stop the sweep; every point finished until then stays
+recorded.
 
 Example
 -------
@@ -34,6 +39,7 @@ from typing import Any, Callable, Sequence
 
 from diagap.design import Design, with_override
 from diagap.sweep.exec import available_cores, connect, run_dask, run_pool, run_serial
+from diagap.sweep.faults import ENVIRONMENT, record_cause, retry_on_resume
 from diagap.sweep.point import PointOutput, PointTask, pipeline_point
 from diagap.sweep.progress import make_progress
 from diagap.sweep.spec import SweepError, Variation, check_path, grid, parse_vary, point_id
@@ -85,6 +91,12 @@ class SweepResult:
         for r in self.records:
             out[r["status"]] = out.get(r["status"], 0) + 1
         return out
+
+    def exit_status(self) -> int:
+        """0 unless every point failed: 2 if all failures are input errors, else 1."""
+        from diagap.sweep.faults import sweep_exit_status
+
+        return sweep_exit_status(self.records)
 
     def values(self, key: str) -> list:
         """The output ``key`` of every point in grid order (None where absent or failed)."""
@@ -158,7 +170,7 @@ def _mesh_cache_state() -> bool:
 def run_sweep(design: Design, variations, out_dir: str | Path = "diagap-sweep", *,
               workers: int | None = None, scheduler: Any = None, accuracy: str | None = None,
               evaluate: Callable[[Design], Any] | None = None, progress=False,
-              retry_failed: bool = False, plots: bool = True) -> SweepResult:
+              retry_failed: bool = False, plots: bool = True, fresh: bool = False) -> SweepResult:
     """Run (or resume) a sweep of ``design`` over the cartesian product of ``variations``.
 
     Parameters
@@ -184,15 +196,19 @@ def run_sweep(design: Design, variations, out_dir: str | Path = "diagap-sweep", 
     progress : bool or callable
         True draws a progress bar on stderr; a callable is called as ``f(done, total, record)``.
     retry_failed : bool
-        Compute failed points again instead of skipping them.
+        Compute all failed points again (points that failed because of the environment are
+        computed again in any case).
     plots : bool
         Write the summary plots into ``out_dir/plots`` at the end.
+    fresh : bool
+        Remove the files of an earlier sweep in ``out_dir`` and start a clean sweep (otherwise
+        a folder holding a sweep of another base design or other varied keys is refused).
 
     Raises
     ------
     SweepError
-        Bad variations or workers, an unusable folder, no Dask or no connection to the
-        scheduler; raised before any file is written.
+        Bad variations or workers, an unusable folder (or one holding another sweep), no Dask
+        or no connection to the scheduler; raised before any file is written.
     DesignError
         An invalid ``accuracy``.
     """
@@ -203,25 +219,30 @@ def run_sweep(design: Design, variations, out_dir: str | Path = "diagap-sweep", 
     evaluate = evaluate if evaluate is not None else pipeline_point
     n_workers = _workers(workers)
     folder = SweepFolder(out_dir)
-    folder.check(design_hash(base))
+    folder.check(design_hash(base), [v.path for v in variations], fresh)
     if scheduler is None and n_workers > 1:
         _check_picklable(evaluate)
     client, owned = connect(scheduler) if scheduler is not None else (None, False)
     try:
         with folder:
             return _run(folder, base, variations, acc, points, evaluate,
-                        _runner(scheduler, n_workers, client), progress, retry_failed, plots)
+                        _runner(scheduler, n_workers, client), progress, retry_failed, plots,
+                        fresh)
     finally:
         if owned:
             client.close()
 
 
 def _run(folder, base, variations, acc, points, evaluate, runner, progress, retry_failed,
-         plots) -> SweepResult:
-    done = folder.open(_manifest(base, variations, acc, len(points)))
+         plots, fresh) -> SweepResult:
+    done = folder.open(_manifest(base, variations, acc, len(points)), fresh)
     index_of = {pid: i for i, _, pid in points}
-    keep = {pid: r for pid, r in done.items() if pid in index_of
-            and not (retry_failed and r.get("status") == "failed")}
+    mine = {pid: r for pid, r in done.items() if pid in index_of}
+    keep = {pid: r for pid, r in mine.items() if not retry_on_resume(r, retry_failed)}
+    retried = sum(record_cause(r) == ENVIRONMENT for pid, r in mine.items() if pid not in keep)
+    if retried:
+        log.info("sweep: computing again %d points that failed because of the environment",
+                 retried)
     cache = _mesh_cache_state()
     tasks = [PointTask(pid, base, over, evaluate, cache) for _, over, pid in points
              if pid not in keep]
@@ -250,4 +271,5 @@ def _run(folder, base, variations, acc, points, evaluate, runner, progress, retr
         from diagap.sweep.plots import write_plots
 
         plot_files = tuple(write_plots(records, variations, folder.plots))
+    folder.finish(plot_files)
     return SweepResult(folder.root, variations, records, len(tasks), len(keep), plot_files)

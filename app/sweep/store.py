@@ -9,15 +9,22 @@ Layout of ``OUT``::
     sweep.csv        one row per point of the current sweep, appended as each point finishes;
                      rewritten atomically (temporary file, then rename) when a point brings a new
                      output key, and at the end in grid order
-    sweep.json       manifest: the hash of the base design and the latest variations; a folder
-                     holding a sweep of another base design is refused
+    sweep.json       manifest: the hash of the base design, the latest variations and the plot
+                     files written; a folder holding a sweep of another base design or over other
+                     varied keys is refused (unless ``fresh``: the earlier sweep's files are
+                     removed first)
     points/ID.json   full summary of each ok or collapsed point (curves, audit, ...)
-    plots/*.png      summary plots, written at the end
+    plots/*.png      summary plots, written at the end; plots of an earlier run of the sweep that
+                     this run did not write are removed (other files in plots/ are kept)
+
+Hidden temporary files (``.*.tmp``) are left only by a killed process; the next sweep into the
+folder, holding its lock, removes them.
 
 CSV columns: ``point`` (index in the grid, from 0), ``point_id``, ``status``, one column per
 varied input in SI (its unit in the name, ``backplate.hole_radius_m``), ``analysis.accuracy``
 (unless varied), ``wall_time_s``, then every output key in the order first seen, then
-``uncertainty.<key>`` columns (estimated relative discretisation error), and ``error`` last.
+``uncertainty.<key>`` columns (estimated relative discretisation error), ``cause`` (why a point
+failed: input, environment or error, :mod:`diagap.sweep.faults`) and ``error`` last.
 A point without some key leaves that cell empty.
 """
 from __future__ import annotations
@@ -32,6 +39,7 @@ import tempfile
 from pathlib import Path
 from typing import Iterable, Sequence
 
+from diagap.sweep.faults import record_cause
 from diagap.sweep.spec import SweepError, Variation
 
 __all__ = ["SweepFolder", "CsvTable", "design_hash", "FORMAT"]
@@ -73,31 +81,104 @@ class SweepFolder:
         self.plots = self.root / "plots"
         self._fh = None
         self._lock = None
+        self._manifest: dict = {}
+        self._plot_names: list[str] = []
 
-    def check(self, base_hash: str) -> None:
-        """Refuse a folder that is a file or holds a sweep of another base design (no writes)."""
-        if self.root.exists() and not self.root.is_dir():
-            raise SweepError(f"{self.root}: exists and is not a folder (choose another -o)")
+    def _old_manifest(self) -> dict:
         if not self.manifest.exists():
-            return
+            return {}
         try:
             old = json.loads(self.manifest.read_text(encoding="utf-8"))
+            if not isinstance(old, dict):
+                raise ValueError
+            return old
         except (OSError, ValueError):
-            raise SweepError(f"{self.manifest}: unreadable sweep manifest; remove the folder or "
-                             f"choose another -o") from None
-        if old.get("design_hash") != base_hash:
-            raise SweepError(f"{self.root}: holds a sweep of a different base design "
-                             f"({old.get('design_name', '?')!r}); choose another -o or remove it")
+            raise SweepError(f"{self.manifest}: unreadable sweep manifest; choose another -o, or "
+                             f"--fresh to replace the earlier sweep") from None
 
-    def open(self, manifest: dict) -> dict[str, dict]:
-        """Create and lock the folder, repair the log, write the manifest; return the records."""
-        self.check(manifest["design_hash"])
+    def check(self, base_hash: str, paths: Iterable[str] | None = None,
+              fresh: bool = False) -> None:
+        """Refuse a folder that is a file, or (unless ``fresh``) holds a sweep of another base
+        design or over other varied keys ``paths``. Writes nothing."""
+        if self.root.exists() and not self.root.is_dir():
+            raise SweepError(f"{self.root}: exists and is not a folder (choose another -o)")
+        if fresh:
+            return
+        old = self._old_manifest()
+        if old and old.get("design_hash") != base_hash:
+            raise SweepError(f"{self.root}: holds a sweep of a different base design "
+                             f"({old.get('design_name', '?')!r}); choose another -o, or --fresh "
+                             f"to replace the earlier sweep")
+        before = [v.get("path") for v in old.get("variations") or [] if isinstance(v, dict)]
+        if old and paths is not None and before and set(before) != set(paths):
+            raise SweepError(f"{self.root}: holds a sweep varying {', '.join(before)}, not "
+                             f"{', '.join(paths)}; choose another -o, or --fresh to replace the "
+                             f"earlier sweep")
+
+    def open(self, manifest: dict, fresh: bool = False) -> dict[str, dict]:
+        """Create and lock the folder (``fresh``: remove the earlier sweep's files), repair the
+        log, write the manifest; return the records."""
+        self.check(manifest["design_hash"], [v["path"] for v in manifest.get("variations", [])],
+                   fresh)
         self.root.mkdir(parents=True, exist_ok=True)
         self._take_lock()
+        self._remove_temporaries()
+        if fresh:
+            self._clear()
+        old = self._old_manifest() if not fresh else {}
+        self._plot_names = sorted(self._earlier_plots(old))
         records = self._read_log()
-        _atomic_write(self.manifest, json.dumps(manifest, indent=2) + "\n")
+        self._write_manifest({**manifest, "plot_files": self._plot_names})
         self._fh = open(self.jsonl, "ab")
         return records
+
+    def _write_manifest(self, manifest: dict) -> None:
+        self._manifest = manifest
+        _atomic_write(self.manifest, json.dumps(manifest, indent=2) + "\n")
+
+    def _remove_temporaries(self) -> None:
+        """Hidden temporary files of a killed sweep (this process holds the folder's lock)."""
+        for folder in (self.root, self.points):
+            for tmp in folder.glob(".*.tmp") if folder.is_dir() else ():
+                tmp.unlink(missing_ok=True)
+
+    def _earlier_plots(self, old: dict) -> set[str]:
+        """Names of the sweep plots in plots/ written by earlier runs of this folder."""
+        listed = {n for n in old.get("plot_files") or [] if isinstance(n, str) and "/" not in n
+                  and "\\" not in n and not n.startswith(".")}
+        if self.plots.is_dir():  # folders written before the manifest listed them
+            listed |= {p.name for p in self.plots.iterdir() if "--" in p.name
+                       and p.suffix in (".png", ".svg")}
+        return {n for n in listed if (self.plots / n).is_file()}
+
+    def _clear(self) -> None:
+        """Remove the files of the earlier sweep in this folder (``fresh``); other files stay."""
+        for name in self._earlier_plots(self._old_manifest_or_empty()):
+            (self.plots / name).unlink(missing_ok=True)
+        if self.points.is_dir():
+            for p in self.points.glob("*.json"):
+                p.unlink(missing_ok=True)
+        for path in (self.jsonl, self.csv, self.manifest):
+            path.unlink(missing_ok=True)
+        for folder in (self.plots, self.points):
+            try:
+                folder.rmdir()  # only if now empty
+            except OSError:
+                pass
+
+    def _old_manifest_or_empty(self) -> dict:
+        try:
+            return self._old_manifest()
+        except SweepError:
+            return {}
+
+    def finish(self, plot_files: Sequence[Path]) -> None:
+        """Remove the earlier plots that this run did not write; record the plots written."""
+        names = {Path(p).name for p in plot_files}
+        for name in set(self._plot_names) - names:
+            (self.plots / name).unlink(missing_ok=True)
+        self._plot_names = sorted(names)
+        self._write_manifest({**self._manifest, "plot_files": self._plot_names})
 
     def close(self) -> None:
         if self._fh is not None:
@@ -188,13 +269,14 @@ class CsvTable:
         for rec in records:
             outputs.update(dict.fromkeys(rec.get("outputs", {})))
             unc.update(dict.fromkeys(f"uncertainty.{k}" for k in rec.get("uncertainty", {})))
-        return [*self._head(), *outputs, *unc, "error"]
+        return [*self._head(), *outputs, *unc, "cause", "error"]
 
     def _row(self, rec: dict) -> dict:
         over = rec.get("overrides", {})
         row = {"point": self.index_of.get(rec["point_id"], ""), "point_id": rec["point_id"],
                "status": rec.get("status"), "wall_time_s": rec.get("wall_time_s"),
-               "error": rec.get("error", ""), "analysis.accuracy": over.get("analysis.accuracy")}
+               "error": rec.get("error", ""), "analysis.accuracy": over.get("analysis.accuracy"),
+               "cause": record_cause(rec) or ""}
         row.update({v.column: over.get(v.path) for v in self.variations})
         row.update(rec.get("outputs", {}))
         row.update({f"uncertainty.{k}": x for k, x in rec.get("uncertainty", {}).items()})

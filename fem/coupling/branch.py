@@ -106,6 +106,11 @@ class Branch:
         return np.array([p.center_deflection_m for p in self.points])
 
 
+def _start_vector(n: int) -> np.ndarray:
+    """A fixed generic start vector for ARPACK (reproducible results, no symmetry imposed)."""
+    return np.random.default_rng(0).standard_normal(n)
+
+
 class _Solver:
     """Newton for K u = λ f(u) with either w0 (displacement control) or λ prescribed."""
 
@@ -156,7 +161,8 @@ class _Solver:
         if self.n <= 8:
             dense = np.column_stack([op.matvec(e) for e in np.eye(self.n)])
             return float(1.0 - lam * np.max(np.linalg.eigvals(dense).real))
-        vals = spla.eigs(op, k=1, which="LM", return_eigenvectors=False, tol=1e-8, maxiter=2000)
+        vals = spla.eigs(op, k=1, which="LM", return_eigenvectors=False, tol=1e-8, maxiter=2000,
+                        v0=_start_vector(self.n))
         return float(1.0 - lam * np.max(vals.real))
 
     def displacement_control(self, w0, u, lam, tol=1e-10, maxit=40, exact_slope=False):
@@ -313,7 +319,7 @@ def softened_modes(system: CouplingSystem, load: ElectrostaticLoad, gap_m: float
         vals = eigh(J.toarray(), system.M.toarray(), eigvals_only=True)[:n_modes]
     else:
         vals = spla.eigsh(J, k=n_modes, M=sp.csc_matrix(system.M), sigma=0.0, which="LM",
-                          return_eigenvectors=False)
+                          return_eigenvectors=False, v0=_start_vector(J.shape[0]))
     vals = np.sort(vals.real)
     return np.sqrt(np.maximum(vals, 0.0)) / (2 * np.pi)
 

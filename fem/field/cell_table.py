@@ -136,8 +136,9 @@ def _chebyshev_gaps(g0: float, g1: float, n: int) -> np.ndarray:
 
 
 def _samples(gaps, hole_radius_m, pitch_m, lattice, t_m, accuracy, air_height_m):
-    """Cell capacitance densities and their error estimates at ``gaps``, cached on disk (the
-    solutions are reused across the points of a sweep that keeps the hole pattern)."""
+    """Cell capacitance densities and their error estimates at ``gaps``, cached on disk (keyed
+    by the inputs and a hash of the solver source; the solutions are reused across the points
+    of a sweep that keeps the hole pattern)."""
     from diagap.meshes.cache import cached_arrays
 
     def build():
@@ -148,8 +149,7 @@ def _samples(gaps, hole_radius_m, pitch_m, lattice, t_m, accuracy, air_height_m)
                 "open": np.array([cells[0].open_area_fraction])}
 
     params = {"gaps": [float(g) for g in gaps], "r": hole_radius_m, "p": pitch_m,
-              "lattice": lattice, "t": t_m, "acc": accuracy, "H": air_height_m,
-              "solver": 1}  # bump when the cell solve changes
+              "lattice": lattice, "t": t_m, "acc": accuracy, "H": air_height_m}
     arr = cached_arrays("cell-table-solution", params, build)
     return arr["c"], arr["err"], float(arr["open"][0])
 

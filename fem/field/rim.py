@@ -66,12 +66,12 @@ def pair_capacitance(geo: PairGeometry, s: float, axisymmetric: bool = True,
     """Scaled capacitance (energy at 1 V) of an electrode pair at mesh scale s, and the DOFs.
 
     Axisymmetric: C = ε0·g·Ĉ; plane: C' = ε0·Ĉ per unit length (full pair: 2Ĉ). Solutions are
-    cached on disk (meshes.cache) so that sweeps reuse them.
+    cached on disk (:mod:`diagap.meshes.cache`, keyed by the inputs and a hash of the
+    solver source) so that sweeps reuse them.
     """
     from diagap.meshes.cache import cached_arrays
 
-    params = {"geo": geo.as_dict(), "s": s, "axi": axisymmetric, "eps": ring_permittivity,
-              "solver": 1}  # bump when the solve changes
+    params = {"geo": geo.as_dict(), "s": s, "axi": axisymmetric, "eps": ring_permittivity}
     arr = cached_arrays("electrode-pair-solution", params, lambda: dict(zip(
         ("e", "n"), map(np.atleast_1d, _pair_capacitance(geo, s, axisymmetric,
                                                         ring_permittivity)))))
