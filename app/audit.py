@@ -3,8 +3,8 @@
 For every assumption of the textbook capsule model (a rigid parallel-plate piston on a spring, an
 ideal capacitor, small linear motion, an incompressible continuum film, closed-form hole flow, an
 electrical high-pass far below the audio band) the audit puts the closed-form value
-(:mod:`diagap.lumped.analytic`) beside the
-finite-element value and gives a verdict with its stated threshold:
+(:mod:`diagap.lumped.analytic`) beside the finite-element value and gives a verdict with its
+stated threshold:
 
     holds     |deviation| <= the "holds" threshold
     marginal  |deviation| <= the "marginal" threshold

@@ -102,8 +102,8 @@ def check_cell_inputs(gap_m, hole_radius_m, pitch_m, lattice, backplate_thicknes
     _check.positive("hole_radius_m", hole_radius_m)
     _check.positive("pitch_m", pitch_m)
     _check.require(hole_radius_m < 0.5 * pitch_m,
-             f"hole_radius_m = {hole_radius_m!r} must be below pitch_m/2 = {0.5 * pitch_m!r} "
-             f"(larger holes touch their neighbours)")
+                   f"hole_radius_m = {hole_radius_m!r} must be below pitch_m/2 = "
+                   f"{0.5 * pitch_m!r} (larger holes touch their neighbours)")
 
 
 def solve_potential(mesh, element, potentials: dict, weight: str = "axisymmetric",
@@ -317,7 +317,8 @@ def cell_capacitance(gap_m: float, hole_radius_m: float, pitch_m: float, lattice
     rel = relative_error(levels[0][1], pf, CORNER_ORDER)
     _log.debug("cell %s %s g=%.3g m: levels %s", model, lattice, gap_m, levels)
     return CellResult(
-        capacitance_density_f_per_m2=EPSILON_0_F_PER_M / gap_m * pf, rel_error=rel, perforation_factor=pf,
+        capacitance_density_f_per_m2=EPSILON_0_F_PER_M / gap_m * pf, rel_error=rel,
+        perforation_factor=pf,
         open_area_fraction=open_area_fraction(hole_radius_m, pitch_m, lattice),
         dofs=levels[-1][0], gap_m=gap_m,
         cell_area_m2=float("nan") if lattice == "none" else cell_area_m2(pitch_m, lattice),

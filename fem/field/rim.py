@@ -190,14 +190,14 @@ def _check_inputs(re, rd, g, t, shape, rb, eps_r, accuracy, span) -> None:
     for name, value in (("electrode_radius_m", re), ("diaphragm_radius_m", rd), ("gap_m", g),
                         ("backplate_relative_permittivity", eps_r)):
         _check.positive(name, value)
-    _check.require(t >= 0 and math.isfinite(t),
-             f"backplate_thickness_m = {t!r} must be a finite number >= 0")
+    _check.positive("backplate_thickness_m", t, allow_zero=True)
     _check.require(rb >= re, f"backplate_radius_m = {rb!r} must be >= electrode_radius_m = {re!r}")
     _check.require(rb == re or t > 0, "backplate_radius_m beyond the electrode needs a backplate "
-             "thickness > 0")
+                   "thickness > 0")
     _check.require(0 < span < 0.9, f"gap_span = {span!r} must lie in (0, 0.9)")
-    _check.require(min(re, rd) > 2 * g, f"electrode_radius_m = {re!r} and diaphragm_radius_m = {rd!r}"
-             f" must exceed twice the gap ({2 * g!r} m) for a rim model")
+    _check.require(min(re, rd) > 2 * g,
+                   f"electrode_radius_m = {re!r} and diaphragm_radius_m = {rd!r} must exceed "
+                   f"twice the gap ({2 * g!r} m) for a rim model")
 
 
 #: largest electrode size / gap modelled directly; larger pairs are modelled at this ratio and
