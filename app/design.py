@@ -28,50 +28,69 @@ __all__ = [
 ]
 
 
-def _length(**kw):
-    return Field("m", low=0.0, **kw)
+def _length(low: float, high: float, **kw) -> Field:
+    return Field("m", low=low, high=high, low_open=False, high_open=False, **kw)
 
 
+def _range(unit: str, low: float, high: float, **kw) -> Field:
+    return Field(unit, low=low, high=high, low_open=False, high_open=False, **kw)
+
+
+#: The allowed range of every design value (SI), checked before any computation: physically
+#: plausible capsules (nanometre films to centimetre plates, air at usual conditions) whose
+#: meshes stay within reach. Cross-field limits (slenderness, Knudsen number, gap / size, the
+#: holes against the pitch and the electrode) are checked in the section parsers below.
 SCHEMA: dict[str, dict[str, Field]] = {
     "diaphragm": {
         "shape": Field(choices=("circle", "square"), default="circle"),
-        "radius": _length(),
-        "side": _length(),
-        "thickness": _length(required=True),
+        "radius": _length(10e-6, 50e-3),
+        "side": _length(20e-6, 100e-3),
+        "thickness": _length(10e-9, 1e-3, required=True),
         "material": Field(choices=tuple(MATERIALS)),
-        "youngs_modulus": Field("Pa", low=0.0),
+        "youngs_modulus": _range("Pa", 1e5, 2e12, example="160 GPa"),
         "poisson_ratio": Field("", low=-1.0, high=0.5),
-        "density": Field("kg/m^3", low=0.0),
-        "residual_stress": Field("Pa", default=0.0),
+        "density": _range("kg/m^3", 100.0, 30000.0),
+        "residual_stress": _range("Pa", -10e9, 10e9, default=0.0),
         "edge": Field(choices=("clamped", "simply-supported"), default="clamped"),
     },
     "backplate": {
-        "gap": _length(required=True),
-        "thickness": _length(required=True),
-        "electrode_radius": _length(),
-        "electrode_side": _length(),
+        "gap": _length(0.1e-6, 1e-3, required=True),
+        "thickness": _length(0.1e-6, 10e-3, required=True),
+        "electrode_radius": _length(1e-6, 50e-3),
+        "electrode_side": _length(2e-6, 100e-3),
         "hole_lattice": Field(choices=("hex", "square", "none"), default="none"),
-        "hole_radius": _length(),
-        "hole_pitch": _length(),
+        "hole_radius": _length(0.1e-6, 5e-3),
+        "hole_pitch": _length(0.5e-6, 20e-3),
     },
     "acoustics": {
-        "back_volume": Field("m^3", low=0.0, required=True),
-        "vent_resistance": Field("Pa*s/m^3", low=0.0, required=True),
+        "back_volume": _range("m^3", 1e-12, 1e-3, required=True),
+        "vent_resistance": _range("Pa*s/m^3", 1e3, 1e20, required=True),
         "temperature": Field("K", low=173.15, high=473.15, low_open=False, high_open=False,
                              default=293.15),
         "static_pressure": Field("Pa", low=1e3, high=1e6, low_open=False, high_open=False,
                                  default=101325.0),
     },
     "electrical": {
-        "bias_voltage": Field("V", low=0.0, required=True),
-        "bias_resistance": Field("ohm", low=0.0, required=True),
-        "parasitic_capacitance": Field("F", low=0.0, low_open=False, default=0.0),
-        "preamp_input_capacitance": Field("F", low=0.0, low_open=False, default=0.0),
+        "bias_voltage": Field("V", low=0.0, high=1000.0, high_open=False, required=True),
+        "bias_resistance": _range("ohm", 1e3, 1e15, required=True),
+        "parasitic_capacitance": _range("F", 0.0, 1e-6, default=0.0),
+        "preamp_input_capacitance": _range("F", 0.0, 1e-6, default=0.0),
     },
     "analysis": {
         "accuracy": Field(choices=("draft", "normal", "fine"), default="normal"),
+        "max_memory": _range("B", 50e6, 1e12, example="4 GB"),
     },
 }
+#: sections a design may leave out; the analyses that need them are skipped
+OPTIONAL_SECTIONS = ("acoustics", "electrical")
+#: the air of the squeeze film when a design has no [acoustics]: 20 degC, 101.325 kPa
+DEFAULT_AIR = (293.15, 101325.0)
+#: least diaphragm size / thickness (Kirchhoff thin plate; common practice: a/h >= ~10)
+MIN_SLENDERNESS = 10.0
+#: largest Knudsen number mean free path / hole radius (slip-flow corrections stay meaningful)
+MAX_HOLE_KNUDSEN = 0.5
+#: design files larger than this are refused unread
+MAX_FILE_BYTES = 1_000_000
 _TOP = {"name": Field(default="unnamed design"), "description": Field(default="")}
 
 
@@ -134,6 +153,7 @@ class Electrical:
 @dataclass(frozen=True)
 class Analysis:
     accuracy: str
+    max_memory_b: float | None = None  # the design's own memory limit (None: the default)
 
 
 @dataclass(frozen=True)
@@ -142,8 +162,8 @@ class Design:
     description: str
     diaphragm: Diaphragm
     backplate: Backplate
-    acoustics: Acoustics
-    electrical: Electrical
+    acoustics: Acoustics | None  # None: no [acoustics]; the lumped model is skipped
+    electrical: Electrical | None  # None: no [electrical]; bias-point results are skipped
     analysis: Analysis
     raw: tuple = ()  # the parsed TOML as nested (key, value) pairs, for overrides in sweeps
 
@@ -153,6 +173,18 @@ class Design:
         d.pop("raw", None)
         return d
 
+    @property
+    def air_conditions(self) -> tuple[float, float]:
+        """(temperature K, static pressure Pa) of the air in the gap: the design's [acoustics],
+        else :data:`DEFAULT_AIR` (20 degC, 101.325 kPa)."""
+        if self.acoustics is None:
+            return DEFAULT_AIR
+        return self.acoustics.temperature_k, self.acoustics.static_pressure_pa
+
+    def missing_sections(self) -> tuple[str, ...]:
+        """The optional sections this design leaves out."""
+        return tuple(s for s in OPTIONAL_SECTIONS if getattr(self, s) is None)
+
     def raw_dict(self) -> dict:
         return _thaw(self.raw)
 
@@ -161,7 +193,7 @@ class Design:
         level = _choice("analysis.accuracy", accuracy, SCHEMA["analysis"]["accuracy"])
         raw = self.raw_dict()
         raw.setdefault("analysis", {})["accuracy"] = level
-        return replace(self, analysis=Analysis(level), raw=_freeze(raw))
+        return replace(self, analysis=replace(self.analysis, accuracy=level), raw=_freeze(raw))
 
 
 def _freeze(d):
@@ -237,9 +269,10 @@ def _diaphragm(raw: dict) -> Diaphragm:
             f = SCHEMA["diaphragm"][key]
             raise DesignError(f"diaphragm.{key}: missing (give it{' in ' + f.unit if f.unit else ''}"
                               f" or a diaphragm.material preset: {', '.join(MATERIALS)})")
-    if v["thickness"] >= size:
-        raise DesignError(f"diaphragm.thickness = {v['thickness']:g} m: must be smaller than the "
-                          f"diaphragm {size_key} ({size:g} m) for a thin plate")
+    if v["thickness"] * MIN_SLENDERNESS > size:
+        raise DesignError(f"diaphragm.thickness = {v['thickness']:g} m: must be at most 1/"
+                          f"{MIN_SLENDERNESS:g} of the diaphragm {size_key} ({size:g} m), "
+                          f"i.e. <= {size / MIN_SLENDERNESS:g} m, for a thin plate")
     d = Diaphragm(v["shape"], size, v["thickness"], props["youngs_modulus_pa"],
                   props["poisson_ratio"], props["density_kg_m3"], v["residual_stress"], v["edge"],
                   v["material"])
@@ -260,7 +293,18 @@ def _check_buckling(d: Diaphragm) -> None:
             f"{d.edge} {d.shape})")
 
 
-def _backplate(raw: dict, d: Diaphragm) -> Backplate:
+def _check_holes(r_h: float, air: tuple[float, float]) -> None:
+    """Refuse holes so narrow that the air is no longer a slip-flow continuum in them."""
+    from diagap.fem.air import air_properties
+
+    lam = air_properties(*air).mean_free_path_m
+    if r_h * MAX_HOLE_KNUDSEN < lam:
+        raise DesignError(f"backplate.hole_radius = {r_h:g} m: must be >= {lam / MAX_HOLE_KNUDSEN:g}"
+                          f" m, {1 / MAX_HOLE_KNUDSEN:g} mean free paths of the air "
+                          f"({lam:.3g} m; Knudsen number <= {MAX_HOLE_KNUDSEN:g})")
+
+
+def _backplate(raw: dict, d: Diaphragm, air: tuple[float, float] = DEFAULT_AIR) -> Backplate:
     v = _section(raw, "backplate")
     circle = d.shape == "circle"
     el_key, other = ("electrode_radius", "electrode_side") if circle else ("electrode_side",
@@ -287,6 +331,7 @@ def _backplate(raw: dict, d: Diaphragm) -> Backplate:
         if pitch >= el:
             raise DesignError(f"backplate.hole_pitch = {pitch:g} m: must be smaller than the "
                               f"electrode ({el_key} = {el:g} m)")
+        _check_holes(r_h, air)
     elif v["hole_radius"] is not None or v["hole_pitch"] is not None:
         raise DesignError("backplate.hole_lattice = 'none': hole_radius/hole_pitch given without a "
                           "lattice; set hole_lattice to hex or square, or remove them")
@@ -306,20 +351,24 @@ def parse_design(raw: dict, source: str = "<design>") -> Design:
         if key in raw and not isinstance(raw[key], str):
             raise DesignError(f"{key} = {_fmt(raw[key])}: must be a string")
     d = _diaphragm(raw)
-    b = _backplate(raw, d)
-    a = _section(raw, "acoustics")
-    e = _section(raw, "electrical")
+    a = _section(raw, "acoustics") if "acoustics" in raw else None
+    acoustics = None if a is None else Acoustics(a["back_volume"], a["vent_resistance"],
+                                                 a["temperature"], a["static_pressure"])
+    air = DEFAULT_AIR if a is None else (a["temperature"], a["static_pressure"])
+    b = _backplate(raw, d, air)
+    e = _section(raw, "electrical") if "electrical" in raw else None
+    electrical = None if e is None else Electrical(e["bias_voltage"], e["bias_resistance"],
+                                                   e["parasitic_capacitance"],
+                                                   e["preamp_input_capacitance"])
     n = _section(raw, "analysis")
     return Design(
         name=raw.get("name", _TOP["name"].default),
         description=raw.get("description", ""),
         diaphragm=d,
         backplate=b,
-        acoustics=Acoustics(a["back_volume"], a["vent_resistance"], a["temperature"],
-                            a["static_pressure"]),
-        electrical=Electrical(e["bias_voltage"], e["bias_resistance"], e["parasitic_capacitance"],
-                              e["preamp_input_capacitance"]),
-        analysis=Analysis(n["accuracy"]),
+        acoustics=acoustics,
+        electrical=electrical,
+        analysis=Analysis(n["accuracy"], n["max_memory"]),
         raw=_freeze(raw),
     )
 
@@ -332,14 +381,22 @@ def _loads(text: str, source: str) -> dict:
 
 
 def load_design(path: str | Path) -> Design:
-    """Read and validate a design file."""
+    """Read and validate a design file (at most :data:`MAX_FILE_BYTES` are read)."""
     p = Path(path)
     try:
-        text = p.read_text(encoding="utf-8")
+        with open(p, "rb") as fh:
+            data = fh.read(MAX_FILE_BYTES + 1)
     except FileNotFoundError:
         raise DesignError(f"{p}: design file not found") from None
-    except (OSError, UnicodeDecodeError) as exc:
+    except OSError as exc:
         raise DesignError(f"{p}: cannot read design file ({exc.__class__.__name__})") from None
+    if len(data) > MAX_FILE_BYTES:
+        raise DesignError(f"{p}: design file larger than {MAX_FILE_BYTES // 1000} kB; a design "
+                          f"is a short TOML text")
+    try:
+        text = data.decode("utf-8")
+    except UnicodeDecodeError:
+        raise DesignError(f"{p}: cannot read design file (not UTF-8 text)") from None
     return parse_design(_loads(text, str(p)), str(p))
 
 

@@ -14,15 +14,17 @@ VARY_HELP = """values:
   --vary PATH=START:STOP:N       N values spaced linearly from START to STOP (both included)
   --vary PATH=START:STOP:N:log   N values spaced geometrically (START, STOP > 0)
   --vary PATH=V1,V2,...          the listed values
-  PATH is a design key section.key, e.g. backplate.hole_radius. A value is a number in SI units
-  or a number with a unit, with or without a space (quote it for the shell): 2um, "2 um",
-  1e12Pa*s/m^3, 20degC. Keys with named choices take names: backplate.hole_lattice=hex,square.
+  PATH is a design key section.key, e.g. backplate.hole_radius. A value is one number with a
+  unit, with or without a space (quote it for the shell): 2um, "2 um", 1e12Pa*s/m^3, 20degC;
+  a bare number only for a key without a unit (diaphragm.poisson_ratio=0.2,0.3). Values outside
+  the key's allowed range are refused. Keys with named choices take names:
+  backplate.hole_lattice=hex,square.
   Several --vary give the cartesian product of their values.
 
 examples:
   diagap sweep my.toml --vary backplate.hole_radius=2um:8um:7
   diagap sweep my.toml --vary "backplate.gap=2 um:6 um:5" --vary electrical.bias_voltage=5,10,20
-  diagap sweep my.toml --vary acoustics.vent_resistance=1e10:1e14:5:log --workers 2
+  diagap sweep my.toml --vary "acoustics.vent_resistance=1e10 Pa*s/m^3:1e14 Pa*s/m^3:5:log"
   diagap sweep my.toml --vary backplate.hole_pitch=15um,20um --scheduler tcp://10.0.0.5:8786
 
 outputs (OUT, default diagap-sweep):
