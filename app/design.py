@@ -196,6 +196,16 @@ class Design:
         return replace(self, analysis=replace(self.analysis, accuracy=level), raw=_freeze(raw))
 
 
+    def with_max_memory(self, max_memory_b: float | None) -> "Design":
+        """A copy with ``analysis.max_memory`` set (bytes; None: unchanged)."""
+        if max_memory_b is None:
+            return self
+        raw = self.raw_dict()
+        raw.setdefault("analysis", {})["max_memory"] = f"{max_memory_b:.6g} B"
+        return replace(self, analysis=replace(self.analysis, max_memory_b=float(max_memory_b)),
+                       raw=_freeze(raw))
+
+
 def _freeze(d):
     if isinstance(d, dict):
         return tuple((k, _freeze(v)) for k, v in d.items())

@@ -67,6 +67,9 @@ def add_parser(sub, add_common, epilog: str = "") -> argparse.ArgumentParser:
                    help="compute failed points of an earlier run again")
     p.add_argument("--no-plots", action="store_true", help="do not write OUT/plots/*.png")
     p.add_argument("--no-progress", action="store_true", help="no progress bar on stderr")
+    from diagap.cli import add_max_memory
+
+    add_max_memory(p)
     add_common(p)
     return p
 
@@ -83,17 +86,23 @@ def _positive_int(text: str) -> int:
 
 def cmd_sweep(args) -> int:
     """Run ``diagap sweep``; returns the exit code (2: bad input, one line on stderr)."""
+    from diagap.cli import check_output_folder, max_memory_option, output_error
     from diagap.design import DesignError, demo_design, load_design
     from diagap.sweep.run import run_sweep
     from diagap.sweep.spec import SweepError, parse_vary
 
     try:
         design = load_design(args.design) if args.design else demo_design()
+        design = design.with_max_memory(max_memory_option(args))
         variations = [parse_vary(text) for text in args.vary]
-        res = run_sweep(design, variations, Path(args.out), workers=args.workers,
-                        scheduler=args.scheduler, accuracy=args.accuracy,
-                        progress=not args.no_progress, retry_failed=args.retry_failed,
-                        plots=not args.no_plots)
+        check_output_folder(Path(args.out))
+        try:
+            res = run_sweep(design, variations, Path(args.out), workers=args.workers,
+                            scheduler=args.scheduler, accuracy=args.accuracy,
+                            progress=not args.no_progress, retry_failed=args.retry_failed,
+                            plots=not args.no_plots)
+        except OSError as exc:
+            raise output_error(Path(args.out), exc) from None
     except (SweepError, DesignError) as exc:
         print(f"diagap: error: {exc}", file=sys.stderr)
         return 2
