@@ -217,7 +217,7 @@ def test_progress_bar_lines_without_terminal(tmp_path):
 
 def test_serial_sweep_writes_records_csv_and_plots(tmp_path):
     seen = []
-    res = run_sweep(demo_design(), [RADII, "electrical.bias_voltage=5,10"], tmp_path / "s",
+    res = run_sweep(demo_design(), [RADII, "electrical.bias_voltage=5V,10V"], tmp_path / "s",
                     workers=1, evaluate=fake_point, accuracy="draft",
                     progress=lambda done, total, rec: seen.append((done, total)))
     assert res.counts() == {"ok": 8, "failed": 0, "collapsed": 0}
@@ -269,7 +269,7 @@ def test_point_exception_and_collapse_statuses(tmp_path):
     assert res.records[1]["error"] == "RuntimeError: solver did not converge"
     log = [json.loads(x) for x in res.jsonl_path.read_text().splitlines()]
     assert "raising_point" in next(r for r in log if r["status"] == "failed")["traceback"]
-    res = run_sweep(demo_design(), ["electrical.bias_voltage=10,20,30"], tmp_path / "b", workers=1,
+    res = run_sweep(demo_design(), ["electrical.bias_voltage=10V,20V,30V"], tmp_path / "b", workers=1,
                     evaluate=collapsing_point)
     assert [r["status"] for r in res.records] == ["ok", "collapsed", "collapsed"]
     assert res.values("response.sensitivity_db_v_per_pa") == [-39.0, -38.0, -37.0]
@@ -450,9 +450,9 @@ def test_cli_help_documents_the_syntax(capsys):
 # ---- parallel backends -----------------------------------------------------------------------
 
 def test_local_pool_matches_serial(tmp_path):
-    serial = run_sweep(demo_design(), [RADII, "electrical.bias_voltage=5,10"], tmp_path / "a",
+    serial = run_sweep(demo_design(), [RADII, "electrical.bias_voltage=5V,10V"], tmp_path / "a",
                        workers=1, evaluate=fake_point, plots=False)
-    pooled = run_sweep(demo_design(), [RADII, "electrical.bias_voltage=5,10"], tmp_path / "b",
+    pooled = run_sweep(demo_design(), [RADII, "electrical.bias_voltage=5V,10V"], tmp_path / "b",
                        workers=2, evaluate=fake_point, plots=False)
     assert _outputs(pooled) == _outputs(serial)
     assert len({r["pid"] for r in map(json.loads, pooled.jsonl_path.read_text().splitlines())}) == 2
