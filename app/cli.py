@@ -242,13 +242,22 @@ _COMMANDS = {"verify": _cmd_verify, "run": _cmd_run, "init": _cmd_init, "sweep":
 
 
 def main(argv: list[str] | None = None) -> int:
+    import os
     import warnings
 
-    with warnings.catch_warnings():
-        # numerical warnings are not for the user: results carry their own error estimates and
-        # inputs that would make solvers misbehave are refused by the design checks
-        warnings.simplefilter("ignore")
-        return _main(argv)
+    # numerical warnings are not for the user: results carry their own error estimates and
+    # inputs that would make solvers misbehave are refused by the design checks. The variable
+    # carries the filter into sweep worker processes (started fresh, not forked).
+    saved = os.environ.get("PYTHONWARNINGS")
+    if saved is None:
+        os.environ["PYTHONWARNINGS"] = "ignore"
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            return _main(argv)
+    finally:
+        if saved is None:
+            os.environ.pop("PYTHONWARNINGS", None)
 
 
 def _main(argv: list[str] | None = None) -> int:

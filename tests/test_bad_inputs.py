@@ -249,6 +249,48 @@ def test_file_cases(tmp_path, capsys):
     assert sorted(p.name for p in tmp_path.iterdir()) == ["a-file", "big.toml", "bin.toml"]
 
 
+def test_full_disk_while_writing_is_an_input_error(tmp_path, capsys, monkeypatch):
+    """An OSError on the output folder (full or read-only disk) gives exit 2 naming the path."""
+    import errno
+
+    import diagap.pipeline
+    import diagap.sweep.run
+    import diagap.writer
+
+    out = tmp_path / "out"
+
+    class _Result:
+        collapsed = False
+
+        def summary(self):
+            return {}
+
+    def full_disk(*args, **kw):
+        raise OSError(errno.ENOSPC, "No space left on device", str(out / "summary.json"))
+
+    monkeypatch.setattr(diagap.pipeline, "run_design", lambda design, **kw: _Result())
+    monkeypatch.setattr(diagap.writer, "write_outputs", full_disk)
+    monkeypatch.setattr(diagap.sweep.run, "run_sweep", full_disk)
+    for args in (["run", "-o", str(out)], ["sweep", "--vary", "backplate.gap=4um", "-o", str(out)]):
+        code, err, wall = _run_main(args, capsys)
+        _assert_refused(code, err, wall, str(out / "summary.json"), out)
+        assert "No space left on device" in err
+
+
+@pytest.mark.skipif(os.geteuid() == 0, reason="permission bits do not bind the superuser")
+def test_read_only_folder(tmp_path, capsys):
+    ro = tmp_path / "ro"
+    ro.mkdir()
+    ro.chmod(0o555)
+    try:
+        for args in (["run", "-o", str(ro / "out")],
+                     ["sweep", "--vary", "backplate.gap=4um", "-o", str(ro / "out")]):
+            code, err, wall = _run_main(args, capsys)
+            _assert_refused(code, err, wall, str(ro / "out"), ro / "out")
+    finally:
+        ro.chmod(0o755)
+
+
 SUBPROCESS_CASES = [
     (["run", "D", "-o", "OUT"], dict(backplate__gap="4,5 um"), "backplate.gap"),
     (["run", "D", "-o", "OUT"], dict(diaphragm__radius="10**10**10 m"), "diaphragm.radius"),
@@ -300,6 +342,6 @@ def test_refused_oversize_design_stays_small(tmp_path):
 
 
 def test_case_count():
-    """The table holds at least 60 bad inputs."""
-    n = len(DESIGN_CASES) + len(OPTION_CASES) + 9 + len(SUBPROCESS_CASES) + 3
+    """The table holds at least 60 bad inputs (the file cases: 9, full disk: 2, oversize: 3)."""
+    n = len(DESIGN_CASES) + len(OPTION_CASES) + 9 + 2 + len(SUBPROCESS_CASES) + 3
     assert n >= 60
