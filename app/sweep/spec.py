@@ -26,6 +26,7 @@ import hashlib
 import itertools
 import json
 import math
+import re
 from dataclasses import dataclass
 from typing import Any, Iterable, Sequence
 
@@ -197,7 +198,14 @@ def parse_vary(text: str) -> Variation:
     else:
         unit = f.unit or ""
         if "," in spec or ":" not in spec:
-            values, spacing = tuple(_to_si(text, v, f, path) for v in spec.split(",")), "list"
+            try:
+                values = tuple(_to_si(text, v, f, path) for v in spec.split(","))
+            except SweepError as exc:
+                if re.search(r"\d,\d", spec):
+                    raise SweepError(f"{exc} (',' separates values here; a decimal number "
+                                     f"takes a point: 4.5um)") from None
+                raise
+            spacing = "list"
         else:
             values, spacing = _range(text, spec.split(":"), f, path)
     dup = [v for v, c in _counted(values) if c > 1]
