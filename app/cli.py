@@ -122,9 +122,7 @@ def build_parser() -> argparse.ArgumentParser:
 
 
 def _cmd_init(args) -> int:
-    from diagap.design import demo_text, starter_text
-
-    from diagap.design import DesignError
+    from diagap.design import DesignError, demo_text, starter_text
 
     path = Path(args.file)
     if path.exists() and not args.force:
@@ -164,9 +162,6 @@ def check_output_folder(out: Path) -> None:
     except OSError as exc:
         raise DesignError(f"-o {out}: cannot create a folder in {parent} "
                           f"({exc.strerror or type(exc).__name__})") from None
-
-
-_check_output_folder = check_output_folder
 
 
 def output_error(out: Path, exc: OSError):
