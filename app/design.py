@@ -2,7 +2,9 @@
 
 A quantity is a plain number in SI units or a string with units (``"0.5 mm"``, ``"10 MPa"``,
 ``"20 degC"``). Every check raises :class:`DesignError` with one line naming the field, the value
-found and what is allowed. See :data:`SCHEMA` for the keys.
+found and what is allowed. See :data:`diagap.schema.SCHEMA` for the keys and their allowed
+ranges; [acoustics] and [electrical] may be left out (``OPTIONAL_SECTIONS``). Files larger than
+``MAX_FILE_BYTES`` are refused unread.
 """
 from __future__ import annotations
 
