@@ -201,7 +201,7 @@ def audit_design(design, s: dict) -> Audit:
             rows.append(_row("negligible bias deflection", "centre deflection at bias / gap", 0.0,
                              ratio, ratio, "bias deflection / gap", 0.02, 0.10,
                              label="bias deflection / gap"))
-        if "pull_in_voltage_v" in cp:
+        if "pull_in_voltage_v" in cp and e is not None:
             v_pi = analytic.piston_pull_in_voltage(mech["effective_stiffness_n_per_m"], b.gap_m,
                                                    mech["effective_area_m2"])
             margin = e.bias_voltage_v / cp["pull_in_voltage_v"]

@@ -43,6 +43,24 @@ class _Parser(argparse.ArgumentParser):
                   if " " in self.prog else f"diagap: error: {message} (see 'diagap --help')\n")
 
 
+def add_max_memory(p: argparse.ArgumentParser) -> None:
+    """Add ``--max-memory``: the limit of a run's estimated peak memory (a size with a unit)."""
+    p.add_argument("--max-memory", metavar="SIZE",
+                   help='refuse a run whose estimated peak memory is above SIZE, e.g. "8 GB" '
+                   "(default: the design's analysis.max_memory, else 2 GB)")
+
+
+def max_memory_option(args):
+    """The ``--max-memory`` value in bytes (None if not given)."""
+    text = getattr(args, "max_memory", None)
+    if text is None:
+        return None
+    from diagap.design import SCHEMA
+    from diagap.quantities import option_quantity
+
+    return option_quantity("--max-memory", text, SCHEMA["analysis"]["max_memory"])
+
+
 def _add_common(p: argparse.ArgumentParser) -> None:
     p.add_argument("--accuracy", choices=("draft", "normal", "fine"),
                    help="override the design's analysis.accuracy")
@@ -69,6 +87,7 @@ def build_parser() -> argparse.ArgumentParser:
     run.add_argument("--no-report", action="store_true",
                      help="write only summary.json and response.csv (no plots, report.html, "
                      "VTK or SPICE files): faster, for scripts")
+    add_max_memory(run)
     _add_common(run)
 
     from diagap.sweep.cli import add_parser as add_sweep_parser
@@ -106,30 +125,54 @@ def build_parser() -> argparse.ArgumentParser:
 
 
 def _cmd_init(args) -> int:
-    from diagap.design import demo_text, starter_text
+    from diagap.design import DesignError, demo_text, starter_text
 
     path = Path(args.file)
     if path.exists() and not args.force:
         print(f"diagap: error: {path} exists (use --force to overwrite)", file=sys.stderr)
         return EXIT_INPUT
-    path.write_text(demo_text() if args.demo else starter_text(), encoding="utf-8")
+    if not path.parent.is_dir():
+        raise DesignError(f"{path}: the folder {path.parent} does not exist (create it first)")
+    try:
+        path.write_text(demo_text() if args.demo else starter_text(), encoding="utf-8")
+    except OSError as exc:
+        raise DesignError(f"{path}: cannot write ({exc.strerror or type(exc).__name__})") from None
     print(f"wrote {path}")
     return EXIT_OK
 
 
-def _check_output_folder(out: Path) -> None:
-    """Refuse, before any computation, an output path that cannot become a writable folder."""
+def check_output_folder(out: Path) -> None:
+    """Refuse, before any computation, an output path that cannot become a writable folder:
+    a folder is made and removed in the nearest existing folder (this also catches read-only
+    file systems and pseudo file systems such as /proc, where permission bits do not tell);
+    nothing is left behind."""
     import os
+    import tempfile
 
     from diagap.design import DesignError
 
     if out.exists() and not out.is_dir():
         raise DesignError(f"-o {out}: exists and is not a folder")
     parent = out
-    while not parent.exists():
+    while not parent.exists() and parent != parent.parent:
         parent = parent.parent
+    if not parent.is_dir():
+        raise DesignError(f"-o {out}: {parent} is not a folder")
     if not os.access(parent, os.W_OK | os.X_OK):
         raise DesignError(f"-o {out}: cannot write in {parent}")
+    try:
+        os.rmdir(tempfile.mkdtemp(prefix=".diagap-probe-", dir=parent))
+    except OSError as exc:
+        raise DesignError(f"-o {out}: cannot create a folder in {parent} "
+                          f"({exc.strerror or type(exc).__name__})") from None
+
+
+def output_error(out: Path, exc: OSError):
+    """The one-line input error for an output folder that fails while being written."""
+    from diagap.design import DesignError
+
+    where = exc.filename or out
+    return DesignError(f"-o {out}: cannot write {where} ({exc.strerror or type(exc).__name__})")
 
 
 def _cmd_run(args) -> int:
@@ -139,16 +182,27 @@ def _cmd_run(args) -> int:
     from diagap.writer import write_outputs
 
     design = load_design(args.design) if args.design else demo_design()
-    _check_output_folder(Path(args.out))
+    max_memory = max_memory_option(args)
     if args.accuracy:
         design = design.with_accuracy(args.accuracy)
-    result = run_design(design)
+    from diagap.budget import check_run_size
+
+    check_run_size(design, max_memory)
+    check_output_folder(Path(args.out))
+    result = run_design(design, max_memory_b=max_memory)
     summary = result.summary()
-    write_outputs(result, Path(args.out), report=not args.no_report)
+    try:
+        write_outputs(result, Path(args.out), report=not args.no_report)
+    except OSError as exc:
+        raise output_error(Path(args.out), exc) from None
     if args.json:
         print(json.dumps(summary, indent=2))
     else:
         print(summary_table(summary))
+        for section, why in summary.get("skipped", {}).items():
+            print(f"skipped {section}: {why}")
+        if design.acoustics is None:
+            print("assumed: air at 20 degC and 101.325 kPa for the damping (no [acoustics])")
         print(f"\noutputs written to {Path(args.out)}/")
     code = EXIT_OK
     if result.collapsed:
@@ -189,6 +243,25 @@ _COMMANDS = {"verify": _cmd_verify, "run": _cmd_run, "init": _cmd_init, "sweep":
 
 
 def main(argv: list[str] | None = None) -> int:
+    import os
+    import warnings
+
+    # numerical warnings are not for the user: results carry their own error estimates and
+    # inputs that would make solvers misbehave are refused by the design checks. The variable
+    # carries the filter into sweep worker processes (started fresh, not forked).
+    saved = os.environ.get("PYTHONWARNINGS")
+    if saved is None:
+        os.environ["PYTHONWARNINGS"] = "ignore"
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            return _main(argv)
+    finally:
+        if saved is None:
+            os.environ.pop("PYTHONWARNINGS", None)
+
+
+def _main(argv: list[str] | None = None) -> int:
     parser = build_parser()
     args = parser.parse_args(argv)
     if args.command is None:
@@ -214,7 +287,7 @@ def main(argv: list[str] | None = None) -> int:
         return 130
     except ValueError as exc:
         # an input that passed the design checks but that a solver cannot accept
-        if type(exc).__module__.split(".")[0] in ("fem", "lumped", "meshes"):
+        if type(exc).__module__.startswith(("diagap.fem", "diagap.lumped", "diagap.meshes")):
             print(f"diagap: error: {exc}", file=sys.stderr)
             return EXIT_INPUT
         return _internal(exc, args)

@@ -2,7 +2,9 @@
 
 A quantity is a plain number in SI units or a string with units (``"0.5 mm"``, ``"10 MPa"``,
 ``"20 degC"``). Every check raises :class:`DesignError` with one line naming the field, the value
-found and what is allowed. See :data:`SCHEMA` for the keys.
+found and what is allowed. See :data:`diagap.schema.SCHEMA` for the keys and their allowed
+ranges; [acoustics] and [electrical] may be left out (``OPTIONAL_SECTIONS``). Files larger than
+``MAX_FILE_BYTES`` are refused unread.
 """
 from __future__ import annotations
 
@@ -17,63 +19,18 @@ try:  # Python >= 3.11
 except ModuleNotFoundError:  # pragma: no cover
     import tomli as tomllib
 
-from diagap.fem.constants import ROOM_TEMPERATURE_K, STANDARD_PRESSURE_PA
 from diagap.lumped.buckling import critical_tension_n_per_m
 from diagap.materials import MATERIALS
-from diagap.quantities import DesignError, Field, _choice, _fmt, _quantity
+from diagap.quantities import DesignError, Field, _choice, _fmt, _quantity  # noqa: F401
+from diagap.schema import (  # noqa: F401  (re-exported: the schema belongs to designs)
+    _TOP, DEFAULT_AIR, MAX_FILE_BYTES, MAX_HOLE_KNUDSEN, MIN_SLENDERNESS, OPTIONAL_SECTIONS,
+    SCHEMA)
 
 __all__ = [
     "DesignError", "Design", "Diaphragm", "Backplate", "Acoustics", "Electrical", "Analysis",
     "load_design", "parse_design", "demo_design", "demo_text", "starter_text", "with_override",
-    "with_overrides",
+    "with_overrides", "SCHEMA",
 ]
-
-
-def _length(**kw):
-    return Field("m", low=0.0, **kw)
-
-
-SCHEMA: dict[str, dict[str, Field]] = {
-    "diaphragm": {
-        "shape": Field(choices=("circle", "square"), default="circle"),
-        "radius": _length(),
-        "side": _length(),
-        "thickness": _length(required=True),
-        "material": Field(choices=tuple(MATERIALS)),
-        "youngs_modulus": Field("Pa", low=0.0),
-        "poisson_ratio": Field("", low=-1.0, high=0.5),
-        "density": Field("kg/m^3", low=0.0),
-        "residual_stress": Field("Pa", default=0.0),
-        "edge": Field(choices=("clamped", "simply-supported"), default="clamped"),
-    },
-    "backplate": {
-        "gap": _length(required=True),
-        "thickness": _length(required=True),
-        "electrode_radius": _length(),
-        "electrode_side": _length(),
-        "hole_lattice": Field(choices=("hex", "square", "none"), default="none"),
-        "hole_radius": _length(),
-        "hole_pitch": _length(),
-    },
-    "acoustics": {
-        "back_volume": Field("m^3", low=0.0, required=True),
-        "vent_resistance": Field("Pa*s/m^3", low=0.0, required=True),
-        "temperature": Field("K", low=173.15, high=473.15, low_open=False, high_open=False,
-                             default=ROOM_TEMPERATURE_K),
-        "static_pressure": Field("Pa", low=1e3, high=1e6, low_open=False, high_open=False,
-                                 default=STANDARD_PRESSURE_PA),
-    },
-    "electrical": {
-        "bias_voltage": Field("V", low=0.0, required=True),
-        "bias_resistance": Field("ohm", low=0.0, required=True),
-        "parasitic_capacitance": Field("F", low=0.0, low_open=False, default=0.0),
-        "preamp_input_capacitance": Field("F", low=0.0, low_open=False, default=0.0),
-    },
-    "analysis": {
-        "accuracy": Field(choices=("draft", "normal", "fine"), default="normal"),
-    },
-}
-_TOP = {"name": Field(default="unnamed design"), "description": Field(default="")}
 
 
 @dataclass(frozen=True)
@@ -135,6 +92,7 @@ class Electrical:
 @dataclass(frozen=True)
 class Analysis:
     accuracy: str
+    max_memory_b: float | None = None  # the design's own memory limit (None: the default)
 
 
 @dataclass(frozen=True)
@@ -143,8 +101,8 @@ class Design:
     description: str
     diaphragm: Diaphragm
     backplate: Backplate
-    acoustics: Acoustics
-    electrical: Electrical
+    acoustics: Acoustics | None  # None: no [acoustics]; the lumped model is skipped
+    electrical: Electrical | None  # None: no [electrical]; bias-point results are skipped
     analysis: Analysis
     raw: tuple = ()  # the parsed TOML as nested (key, value) pairs, for overrides in sweeps
 
@@ -160,6 +118,18 @@ class Design:
                           for k, v in d["backplate"].items()}
         return d
 
+    @property
+    def air_conditions(self) -> tuple[float, float]:
+        """(temperature K, static pressure Pa) of the air in the gap: the design's [acoustics],
+        else :data:`DEFAULT_AIR` (20 degC, 101.325 kPa)."""
+        if self.acoustics is None:
+            return DEFAULT_AIR
+        return self.acoustics.temperature_k, self.acoustics.static_pressure_pa
+
+    def missing_sections(self) -> tuple[str, ...]:
+        """The optional sections this design leaves out."""
+        return tuple(s for s in OPTIONAL_SECTIONS if getattr(self, s) is None)
+
     def raw_dict(self) -> dict:
         return _thaw(self.raw)
 
@@ -168,7 +138,17 @@ class Design:
         level = _choice("analysis.accuracy", accuracy, SCHEMA["analysis"]["accuracy"])
         raw = self.raw_dict()
         raw.setdefault("analysis", {})["accuracy"] = level
-        return replace(self, analysis=Analysis(level), raw=_freeze(raw))
+        return replace(self, analysis=replace(self.analysis, accuracy=level), raw=_freeze(raw))
+
+
+    def with_max_memory(self, max_memory_b: float | None) -> "Design":
+        """A copy with ``analysis.max_memory`` set (bytes; None: unchanged)."""
+        if max_memory_b is None:
+            return self
+        raw = self.raw_dict()
+        raw.setdefault("analysis", {})["max_memory"] = f"{max_memory_b:.6g} B"
+        return replace(self, analysis=replace(self.analysis, max_memory_b=float(max_memory_b)),
+                       raw=_freeze(raw))
 
 
 def _freeze(d):
@@ -244,9 +224,10 @@ def _diaphragm(raw: dict) -> Diaphragm:
             f = SCHEMA["diaphragm"][key]
             raise DesignError(f"diaphragm.{key}: missing (give it{' in ' + f.unit if f.unit else ''}"
                               f" or a diaphragm.material preset: {', '.join(MATERIALS)})")
-    if v["thickness"] >= size:
-        raise DesignError(f"diaphragm.thickness = {v['thickness']:g} m: must be smaller than the "
-                          f"diaphragm {size_key} ({size:g} m) for a thin plate")
+    if v["thickness"] * MIN_SLENDERNESS > size:
+        raise DesignError(f"diaphragm.thickness = {v['thickness']:g} m: must be at most 1/"
+                          f"{MIN_SLENDERNESS:g} of the diaphragm {size_key} ({size:g} m), "
+                          f"i.e. <= {size / MIN_SLENDERNESS:g} m, for a thin plate")
     d = Diaphragm(v["shape"], size, v["thickness"], props["youngs_modulus_pa"],
                   props["poisson_ratio"], props["density_kg_m3"], v["residual_stress"], v["edge"],
                   v["material"])
@@ -267,7 +248,18 @@ def _check_buckling(d: Diaphragm) -> None:
             f"{d.edge} {d.shape})")
 
 
-def _backplate(raw: dict, d: Diaphragm) -> Backplate:
+def _check_holes(r_h: float, air: tuple[float, float]) -> None:
+    """Refuse holes so narrow that the air is no longer a slip-flow continuum in them."""
+    from diagap.fem.air import air_properties
+
+    lam = air_properties(*air).mean_free_path_m
+    if r_h * MAX_HOLE_KNUDSEN < lam:
+        raise DesignError(f"backplate.hole_radius = {r_h:g} m: must be >= {lam / MAX_HOLE_KNUDSEN:g}"
+                          f" m, {1 / MAX_HOLE_KNUDSEN:g} mean free paths of the air "
+                          f"({lam:.3g} m; Knudsen number <= {MAX_HOLE_KNUDSEN:g})")
+
+
+def _backplate(raw: dict, d: Diaphragm, air: tuple[float, float] = DEFAULT_AIR) -> Backplate:
     v = _section(raw, "backplate")
     circle = d.shape == "circle"
     el_key, other = ("electrode_radius", "electrode_side") if circle else ("electrode_side",
@@ -294,6 +286,7 @@ def _backplate(raw: dict, d: Diaphragm) -> Backplate:
         if pitch >= el:
             raise DesignError(f"backplate.hole_pitch = {pitch:g} m: must be smaller than the "
                               f"electrode ({el_key} = {el:g} m)")
+        _check_holes(r_h, air)
     elif v["hole_radius"] is not None or v["hole_pitch"] is not None:
         raise DesignError("backplate.hole_lattice = 'none': hole_radius/hole_pitch given without a "
                           "lattice; set hole_lattice to hex or square, or remove them")
@@ -332,20 +325,24 @@ def parse_design(raw: dict, source: str = "<design>") -> Design:
         if key in raw and not isinstance(raw[key], str):
             raise DesignError(f"{key} = {_fmt(raw[key])}: must be a string")
     d = _diaphragm(raw)
-    b = _backplate(raw, d)
-    a = _section(raw, "acoustics")
-    e = _section(raw, "electrical")
+    a = _section(raw, "acoustics") if "acoustics" in raw else None
+    acoustics = None if a is None else Acoustics(a["back_volume"], a["vent_resistance"],
+                                                 a["temperature"], a["static_pressure"])
+    air = DEFAULT_AIR if a is None else (a["temperature"], a["static_pressure"])
+    b = _backplate(raw, d, air)
+    e = _section(raw, "electrical") if "electrical" in raw else None
+    electrical = None if e is None else Electrical(e["bias_voltage"], e["bias_resistance"],
+                                                   e["parasitic_capacitance"],
+                                                   e["preamp_input_capacitance"])
     n = _section(raw, "analysis")
     return Design(
         name=raw.get("name", _TOP["name"].default),
         description=raw.get("description", ""),
         diaphragm=d,
         backplate=b,
-        acoustics=Acoustics(a["back_volume"], a["vent_resistance"], a["temperature"],
-                            a["static_pressure"]),
-        electrical=Electrical(e["bias_voltage"], e["bias_resistance"], e["parasitic_capacitance"],
-                              e["preamp_input_capacitance"]),
-        analysis=Analysis(n["accuracy"]),
+        acoustics=acoustics,
+        electrical=electrical,
+        analysis=Analysis(n["accuracy"], n["max_memory"]),
         raw=_freeze(raw),
     )
 
@@ -360,6 +357,8 @@ def _loads(text: str, source: str) -> dict:
 def load_design(path: str | Path) -> Design:
     """Read and validate a design file (TOML; see :func:`parse_design`).
 
+    At most :data:`MAX_FILE_BYTES` are read: a design is a short text.
+
     Parameters
     ----------
     path : str or Path
@@ -372,15 +371,23 @@ def load_design(path: str | Path) -> Design:
     Raises
     ------
     DesignError
-        Missing or unreadable file, invalid TOML or an invalid value (one line).
+        Missing, oversized or unreadable file, invalid TOML or an invalid value (one line).
     """
     p = Path(path)
     try:
-        text = p.read_text(encoding="utf-8")
+        with open(p, "rb") as fh:
+            data = fh.read(MAX_FILE_BYTES + 1)
     except FileNotFoundError:
         raise DesignError(f"{p}: design file not found") from None
-    except (OSError, UnicodeDecodeError) as exc:
+    except OSError as exc:
         raise DesignError(f"{p}: cannot read design file ({exc.__class__.__name__})") from None
+    if len(data) > MAX_FILE_BYTES:
+        raise DesignError(f"{p}: design file larger than {MAX_FILE_BYTES // 1000} kB; a design "
+                          f"is a short TOML text")
+    try:
+        text = data.decode("utf-8")
+    except UnicodeDecodeError:
+        raise DesignError(f"{p}: cannot read design file (not UTF-8 text)") from None
     return parse_design(_loads(text, str(p)), str(p))
 
 

@@ -8,10 +8,21 @@ damping.
 """
 from __future__ import annotations
 
-from diagap.fem.constants import ROOM_TEMPERATURE_K, STANDARD_PRESSURE_PA
-from diagap.quantities import DesignError, Field, parse_quantity as _quantity
+from diagap.quantities import DesignError, Field, parse_quantity
 
 __all__ = ["evaluate_holes", "holes_table"]
+
+#: the options and the design keys whose allowed ranges they share
+_OPTIONS = {"--gap": "gap", "--radius": "hole_radius", "--pitch": "hole_pitch",
+            "--thickness": "thickness"}
+
+
+def _option(option: str, value) -> float:
+    """An option's value in SI: a string needs a unit (``"4 um"``); a number is SI (Python API)."""
+    from diagap.design import SCHEMA
+
+    f: Field = SCHEMA["backplate"][_OPTIONS[option]]
+    return parse_quantity(option, value, f)
 
 
 def evaluate_holes(gap, radius, pitch, thickness, lattice: str = "hex",
@@ -41,24 +52,21 @@ def evaluate_holes(gap, radius, pitch, thickness, lattice: str = "hex",
     DesignError
         A value that is not a positive length, or holes that touch (one line).
     """
+    from diagap.design import DEFAULT_AIR, _check_holes
     from diagap.fem.air import air_properties
     from diagap.fem.field.cell import cell_capacitance, lattice_summary
     from diagap.fem.film.perforation import perforation
     from diagap.lumped.analytic import open_area_perforation_factor
 
-    def q(name, v):
-        if isinstance(v, str):
-            try:
-                v = float(v)
-            except ValueError:
-                pass
-        return _quantity(name, v, Field("m", low=0.0))
-
-    g, r, p, t = (q("--gap", gap), q("--radius", radius), q("--pitch", pitch),
-                  q("--thickness", thickness))
+    g, r, p, t = (_option("--gap", gap), _option("--radius", radius), _option("--pitch", pitch),
+                  _option("--thickness", thickness))
     if r >= 0.5 * p:
         raise DesignError(f"--radius = {r:g} m: must be less than half the pitch ({0.5 * p:g} m), "
                           f"otherwise the holes touch")
+    try:
+        _check_holes(r, DEFAULT_AIR)
+    except DesignError as exc:
+        raise DesignError(str(exc).replace("backplate.hole_radius", "--radius")) from None
     out = lattice_summary(g, r, p, lattice, t, accuracy)
     if model == "3d":
         cell = cell_capacitance(g, r, p, lattice, t, accuracy, model="3d")
@@ -67,7 +75,7 @@ def evaluate_holes(gap, radius, pitch, thickness, lattice: str = "hex",
                    capacitance_loss_fraction=1.0 - cell.perforation_factor,
                    rel_error=cell.rel_error, runtime_s=out["runtime_s"] + cell.runtime_s,
                    dofs=cell.dofs)
-    air = air_properties(ROOM_TEMPERATURE_K, STANDARD_PRESSURE_PA)
+    air = air_properties(*DEFAULT_AIR)
     perf = perforation(lattice, r, p, t, g, air.viscosity_pa_s, air.mean_free_path_m)
     out["open_area_rule_factor"] = open_area_perforation_factor(out["open_area_fraction"])
     out["hole_flow_resistance_pa_s_per_m3"] = perf.resistance_pa_s_per_m3

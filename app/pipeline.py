@@ -4,7 +4,12 @@ design ─► mechanics (fem.plate) ─► electrostatics (fem.field) ─► cou
        ─► damping (fem.film) ─► lumped model, response, noise, distortion ─► audit
 
 Each stage returns a frozen result object that knows its summary section. A section that is not
-computed is absent from the summary, never filled with placeholders.
+computed is absent from the summary, never filled with placeholders; the summary's ``skipped``
+entry says which were left out and why (a design without [acoustics] or [electrical], a collapsed
+bias point).
+
+Before any mesh is made the size of the run is estimated (:mod:`diagap.budget`) and a run above
+the memory limit is refused with a :class:`~diagap.design.DesignError`.
 """
 from __future__ import annotations
 
@@ -54,11 +59,14 @@ class RunResult:
     sections: dict[str, Any] = field(default_factory=dict)  # name -> result with to_summary()
     timings_s: dict[str, float] = field(default_factory=dict)
     collapsed: bool = False
+    skipped: dict[str, str] = field(default_factory=dict)  # section -> why it was not computed
 
     def summary(self) -> dict:
         """The summary.json dictionary: schema version, design, every section, uncertainties
         (``"section.key"`` → relative error) and timings (s)."""
         out: dict[str, Any] = {"schema_version": SCHEMA_VERSION, "design": self.design.to_dict()}
+        if self.skipped:
+            out["skipped"] = dict(self.skipped)
         uncertainty: dict[str, float] = {}
         for name, res in self.sections.items():
             out[name] = res.to_summary()
@@ -131,7 +139,28 @@ def _stage(result: RunResult, name: str, func, *args, **kw):
     return value
 
 
-def run_design(design: Design) -> RunResult:
+#: why a section is left out, by cause
+SKIP_REASONS = {
+    "no_acoustics": "no [acoustics] section (back volume, vent): the lumped model needs it",
+    "no_electrical": "no [electrical] section (bias voltage, bias resistor): needs a bias point",
+    "collapsed": "the bias is at or above pull-in: there is no stable bias point",
+}
+
+
+def _skipped(design: Design, collapsed: bool) -> dict[str, str]:
+    out = {}
+    if design.electrical is None:
+        out["coupled.bias_point"] = SKIP_REASONS["no_electrical"]
+    if design.acoustics is None:
+        out["response"] = SKIP_REASONS["no_acoustics"]
+    elif design.electrical is None:
+        out["response"] = SKIP_REASONS["no_electrical"]
+    elif collapsed:
+        out["response"] = SKIP_REASONS["collapsed"]
+    return out
+
+
+def run_design(design: Design, max_memory_b: float | None = None) -> RunResult:
     """Run every stage of the analysis for ``design``.
 
     Parameters
@@ -157,24 +186,32 @@ def run_design(design: Design) -> RunResult:
     A bias at or above pull-in marks the run ``collapsed``: the sections that do not depend on the
     bias point (mechanics, electrostatics, damping) are kept, the coupled section reports the
     pull-in voltage with ``collapsed = true``, and the lumped response and audit rows that need a
-    bias point are left out.
+    bias point are left out. A design without [electrical] gets the pull-in voltage but no bias
+    point; without [acoustics] the damping uses air at 20 degC and 101.325 kPa and the lumped
+    response is left out. ``max_memory_b`` (default: the design's ``analysis.max_memory``, else
+    :data:`diagap.budget.DEFAULT_MAX_MEMORY_B`) bounds the estimated peak memory.
     """
     from diagap.fem.plate.solver import solve_plate
 
     from diagap.audit import audit_design
+    from diagap.budget import check_run_size
     from diagap.stages import (coupled_stage, damping_stage, electrostatics_stage, lumped_model,
-                         response_stage)
+                               response_stage)
 
+    check_run_size(design, max_memory_b)
     result = RunResult(design)
     acc = design.analysis.accuracy
     problem = plate_problem(design)
     mech = _stage(result, "mechanics", solve_plate, problem, accuracy=acc)
     es = _stage(result, "electrostatics", electrostatics_stage, design, mech)
     cp = _stage(result, "coupled", coupled_stage, design, problem, es, mech)
-    result.collapsed = bool(cp.objects["coupled"].collapsed)
-    f_res = cp.objects["coupled"].resonance_at_bias_hz or mech.natural_frequencies_hz[0]
+    coupled = cp.objects["coupled"]
+    result.collapsed = design.electrical is not None and bool(coupled.collapsed)
+    f_res = (coupled.resonance_at_bias_hz if design.electrical is not None else None) or \
+        mech.natural_frequencies_hz[0]
     damp = _stage(result, "damping", damping_stage, design, mech, f_res)
-    if not result.collapsed:
+    result.skipped = _skipped(design, result.collapsed)
+    if "response" not in result.skipped:
         model = lumped_model(design, mech, es, cp, damp)
         _stage(result, "response", response_stage, model, result.summary()["uncertainty"])
     sections = {k: v.to_summary() for k, v in result.sections.items()}

@@ -24,6 +24,8 @@ GAP_TABLE = (0.25, 1.45)
 NONLINEAR_TRAVEL = 0.7
 #: the rim-fringing model covers local rim gaps g(1 ± RIM_SPAN)
 RIM_SPAN = 0.5
+#: how the damping section states the air it assumed for a design without [acoustics]
+AIR_DEFAULT_NOTE = "assumed 20 degC and 101.325 kPa (the design has no [acoustics] section)"
 
 
 @dataclass(frozen=True)
@@ -111,10 +113,16 @@ def coupled_stage(design: Design, problem, es: Section, mech) -> Section:
     from diagap.fem.coupling.plate import solve_coupled
 
     b = design.backplate
-    res = solve_coupled(problem, design.analysis.accuracy, b.electrode_size_m, b.gap_m,
-                        design.electrical.bias_voltage_v, es.objects["density"])
+    bias = design.electrical.bias_voltage_v if design.electrical is not None else 0.0
+    res = solve_coupled(problem, design.analysis.accuracy, b.electrode_size_m, b.gap_m, bias,
+                        es.objects["density"])
     data = res.to_summary()
     unc = dict(res.uncertainty)
+    if design.electrical is None:  # pull-in only: no bias point without a bias voltage
+        data = {k: data[k] for k in ("pull_in_voltage_v", "pull_in_center_deflection_m",
+                                     "branch")}
+        unc = {k: v for k, v in unc.items() if k.startswith("pull_in")}
+        return Section(data, unc, {"coupled": res, "no_bias": True})
     if not res.collapsed:
         k = mech.effective_stiffness_n_per_m
         soft = k * (res.resonance_at_bias_hz / res.resonance_no_bias_hz) ** 2
@@ -132,17 +140,20 @@ def damping_stage(design: Design, mech, resonance_hz: float) -> Section:
 
     from diagap.lumped.noise import mechanical_thermal_noise
 
-    d, b, a = design.diaphragm, design.backplate, design.acoustics
-    air = air_properties(a.temperature_k, a.static_pressure_pa)
+    d, b = design.diaphragm, design.backplate
+    temperature_k, pressure_pa = design.air_conditions
+    air = air_properties(temperature_k, pressure_pa)
     freqs = np.logspace(0, 5, 51)
     res = squeeze_film(d.shape, b.electrode_size_m, b.gap_m, b.hole_radius_m, b.hole_pitch_m,
                        b.hole_lattice, b.thickness_m, air, lambda x, y: mech.mode_shape(1, x, y),
                        freqs, design.analysis.accuracy)
     data = res.to_summary(resonance_hz=resonance_hz)
     thermal = mechanical_thermal_noise(res.frequencies_hz, res.damping_spectrum_n_s_per_m,
-                                       a.temperature_k, mech.effective_area_m2)
+                                       temperature_k, mech.effective_area_m2)
     data["mechanical_noise_dba_spl"] = thermal.a_weighted_spl_db()
     data["force_noise_n_per_rthz"] = float(np.sqrt(thermal.force_psd_n2_per_hz[0]))
+    if design.acoustics is None:
+        data["air_conditions"] = AIR_DEFAULT_NOTE
     unc = {"damping_n_s_per_m": res.damping_relative_uncertainty,
            "cutoff_frequency_hz": data["cutoff_relative_uncertainty"]}
     if res.perforation is not None:  # per-hole resistance used (Stokes cell) and closed forms

@@ -55,7 +55,7 @@ def cached_run(monkeypatch, demo):
     """``diagap run`` without the pipeline: run_design returns the module's demo result."""
     import diagap.pipeline
 
-    monkeypatch.setattr(diagap.pipeline, "run_design", lambda design: demo)
+    monkeypatch.setattr(diagap.pipeline, "run_design", lambda design, **kw: demo)
 
 
 # ---- the names table ---------------------------------------------------------------------------
@@ -228,7 +228,7 @@ def test_sweep_ends_with_the_caution_line_and_a_one_point_sweep_draws_nothing(
 
     monkeypatch.setattr(diagap.sweep.run, "pipeline_point", _fake_point)
     out = tmp_path / "s"
-    assert main(["sweep", "--vary", "electrical.bias_voltage=5", "-o", str(out), "--workers",
+    assert main(["sweep", "--vary", "electrical.bias_voltage=5V", "-o", str(out), "--workers",
                  "1", "--no-progress"]) == 0
     lines = capsys.readouterr().out.rstrip().splitlines()
     assert lines[-1] == CAUTION_LINE
@@ -239,7 +239,7 @@ def test_sweep_ends_with_the_caution_line_and_a_one_point_sweep_draws_nothing(
 def test_sweep_plots_only_what_changes(tmp_path):
     from diagap.sweep.run import run_sweep
 
-    res = run_sweep(demo_design(), ["electrical.bias_voltage=5,10,15"], tmp_path / "s",
+    res = run_sweep(demo_design(), ["electrical.bias_voltage=5V,10V,15V"], tmp_path / "s",
                     workers=1, evaluate=_fake_point)
     names = sorted(p.name for p in res.plot_files)
     # compliance, frequency and SNR do not change with the bias here: no plot of them

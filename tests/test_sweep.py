@@ -92,11 +92,12 @@ def _outputs(res):
     ("backplate.hole_radius=2um:6um:5", np.linspace(2e-6, 6e-6, 5), "linear"),
     ("backplate.hole_radius=2 um:6 um:5", np.linspace(2e-6, 6e-6, 5), "linear"),
     ('backplate.hole_radius="2 um":"6 um":5', np.linspace(2e-6, 6e-6, 5), "linear"),
-    ("backplate.hole_radius=2e-6:0.006mm:3", [2e-6, 4e-6, 6e-6], "linear"),
-    ("backplate.hole_radius=2e-6,4e-6", [2e-6, 4e-6], "list"),
+    ("backplate.hole_radius=2e-6 m:0.006mm:3", [2e-6, 4e-6, 6e-6], "linear"),
+    ("backplate.hole_radius=2e-6m,4e-6 m", [2e-6, 4e-6], "list"),
     ("backplate.gap=3um, 0.004 mm ,'5 um'", [3e-6, 4e-6, 5e-6], "list"),
-    ("electrical.bias_voltage=10", [10.0], "list"),
-    ("acoustics.vent_resistance=1e10:1e14:5:log", np.geomspace(1e10, 1e14, 5), "log"),
+    ("electrical.bias_voltage=10V", [10.0], "list"),
+    ("acoustics.vent_resistance=1e10 Pa*s/m^3:1e14 Pa*s/m^3:5:log", np.geomspace(1e10, 1e14, 5),
+     "log"),
     ("electrical.bias_resistance=1Gohm:100Gohm:3:LOG", [1e9, 1e10, 1e11], "log"),
     ("acoustics.temperature=20degC:40degC:3", [293.15, 303.15, 313.15], "linear"),
     ("diaphragm.poisson_ratio=0.2,0.3", [0.2, 0.3], "list"),
@@ -113,7 +114,7 @@ def test_parse_names_and_columns():
     v = parse_vary("backplate.hole_lattice=hex,square")
     assert v.values == ("hex", "square") and not v.numeric and v.column == "backplate.hole_lattice"
     assert parse_vary(RADII).column == "backplate.hole_radius_m"
-    assert parse_vary("acoustics.vent_resistance=1,2").column == \
+    assert parse_vary("acoustics.vent_resistance=1e10 Pa*s/m^3").column == \
         "acoustics.vent_resistance_pa_s_per_m3"
     assert parse_vary("diaphragm.poisson_ratio=0.2").column == "diaphragm.poisson_ratio"
 
@@ -125,18 +126,18 @@ def test_parse_names_and_columns():
     ("hole_radius=2um", r"unknown design key 'hole_radius'"),
     ("name=a,b", r"unknown design key 'name'"),
     ("backplate.hole_radius=", r"no values after '='"),
-    ("backplate.hole_radius=2kg:6um:5", r"'2kg' has dimension \[mass\], expected \[length\]"),
-    ("backplate.hole_radius=banana", r"'banana' is not a number or a quantity"),
+    ("backplate.hole_radius=2kg:6um:5", r"'2kg': wrong dimension \[mass\], expected \[length\]"),
+    ("backplate.hole_radius=banana", r"'banana': not a quantity; write one number and a unit"),
     ("backplate.hole_radius=2um,,3um", r"empty value"),
-    ("backplate.hole_radius=inf", r"not a finite number"),
+    ("backplate.hole_radius=inf m", r"not a quantity"),
     ("backplate.hole_radius=2um:6um", r"a range is START:STOP:N or START:STOP:N:log"),
     ("backplate.hole_radius=2um:6um:3:lin", r"a range is START:STOP:N"),
     ("backplate.hole_radius=2um:6um:x", r"N = 'x' must be a whole number"),
     ("backplate.hole_radius=2um:6um:2.5", r"N = '2.5' must be a whole number"),
     ("backplate.hole_radius=2um:6um:1", r"N = 1 must be in \[2, "),
-    ("backplate.hole_radius=2um:2e-6:3", r"START and STOP are equal"),
-    ("backplate.hole_radius=0:6um:3:log", r"a log range needs START and STOP > 0"),
-    ("backplate.hole_radius=2um,2e-6", r"value 2e-06 is listed more than once"),
+    ("backplate.hole_radius=2um:2e-6m:3", r"START and STOP are equal"),
+    ("diaphragm.residual_stress=0MPa:6MPa:3:log", r"a log range needs START and STOP > 0"),
+    ("backplate.hole_radius=2um,2e-6 m", r"value 2e-06 is listed more than once"),
     ("backplate.hole_lattice=hexx",
      r"'hexx' is not one of hex, square, none \(did you mean 'hex'\?\)"),
     ("backplate.hole_lattice=hex:square:2", r"takes names \(hex, square, none\)"),
@@ -216,7 +217,7 @@ def test_progress_bar_lines_without_terminal(tmp_path):
 
 def test_serial_sweep_writes_records_csv_and_plots(tmp_path):
     seen = []
-    res = run_sweep(demo_design(), [RADII, "electrical.bias_voltage=5,10"], tmp_path / "s",
+    res = run_sweep(demo_design(), [RADII, "electrical.bias_voltage=5V,10V"], tmp_path / "s",
                     workers=1, evaluate=fake_point, accuracy="draft",
                     progress=lambda done, total, rec: seen.append((done, total)))
     assert res.counts() == {"ok": 8, "failed": 0, "collapsed": 0}
@@ -268,7 +269,7 @@ def test_point_exception_and_collapse_statuses(tmp_path):
     assert res.records[1]["error"] == "RuntimeError: solver did not converge"
     log = [json.loads(x) for x in res.jsonl_path.read_text().splitlines()]
     assert "raising_point" in next(r for r in log if r["status"] == "failed")["traceback"]
-    res = run_sweep(demo_design(), ["electrical.bias_voltage=10,20,30"], tmp_path / "b", workers=1,
+    res = run_sweep(demo_design(), ["electrical.bias_voltage=10V,20V,30V"], tmp_path / "b", workers=1,
                     evaluate=collapsing_point)
     assert [r["status"] for r in res.records] == ["ok", "collapsed", "collapsed"]
     assert res.values("response.sensitivity_db_v_per_pa") == [-39.0, -38.0, -37.0]
@@ -449,9 +450,9 @@ def test_cli_help_documents_the_syntax(capsys):
 # ---- parallel backends -----------------------------------------------------------------------
 
 def test_local_pool_matches_serial(tmp_path):
-    serial = run_sweep(demo_design(), [RADII, "electrical.bias_voltage=5,10"], tmp_path / "a",
+    serial = run_sweep(demo_design(), [RADII, "electrical.bias_voltage=5V,10V"], tmp_path / "a",
                        workers=1, evaluate=fake_point, plots=False)
-    pooled = run_sweep(demo_design(), [RADII, "electrical.bias_voltage=5,10"], tmp_path / "b",
+    pooled = run_sweep(demo_design(), [RADII, "electrical.bias_voltage=5V,10V"], tmp_path / "b",
                        workers=2, evaluate=fake_point, plots=False)
     assert _outputs(pooled) == _outputs(serial)
     assert len({r["pid"] for r in map(json.loads, pooled.jsonl_path.read_text().splitlines())}) == 2

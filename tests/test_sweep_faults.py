@@ -164,7 +164,7 @@ def test_folder_of_a_sweep_over_other_keys_is_refused_or_replaced_with_fresh(tmp
     (out / "notes.txt").write_text("mine\n")
     (out / "plots" / "own.png").write_bytes(b"mine")
     before = {p: (out / p).read_bytes() for p in _files(out)}
-    other = "electrical.bias_voltage=5,10"
+    other = "electrical.bias_voltage=5V,10V"
     with pytest.raises(SweepError, match="holds a sweep varying backplate.hole_radius, not "
                                          "electrical.bias_voltage.*--fresh"):
         run_sweep(demo_design(), [other], out, workers=1, evaluate=healthy)

@@ -116,15 +116,22 @@ def _key_figures(summary: dict) -> str:
 def _omitted(result) -> str:
     notes = []
     if "response" not in result.sections:
-        notes.append("frequency response, noise spectrum and THD against SPL: not computed "
-                     "(no stable bias point)")
+        why = getattr(result, "skipped", {}).get("response", "no stable bias point")
+        notes.append(f"frequency response, noise spectrum and THD against SPL: not computed "
+                     f"({why})")
+    if "coupled.bias_point" in getattr(result, "skipped", {}):
+        notes.append(f"bias point (deflection, softening, resonance at bias): not computed "
+                     f"({result.skipped['coupled.bias_point']}); the pull-in voltage is")
+    if result.design.acoustics is None:
+        notes.append("squeeze-film damping: air at 20 °C and 101.325 kPa assumed (the design "
+                     "has no [acoustics] section)")
     if not result.design.backplate.perforated:
         notes.append("unit-cell field around a hole: the backplate is unperforated, the gap field "
                      "is the uniform V/g")
     if not notes:
         return ""
     items = "".join(f"<li>{html.escape(n)}</li>" for n in notes)
-    return f'<div class="omitted"><b>Plots not shown:</b><ul>{items}</ul></div>'
+    return f'<div class="omitted"><b>Not computed or assumed:</b><ul>{items}</ul></div>'
 
 
 def _files_list(files: list[str]) -> str:

@@ -95,16 +95,28 @@ def _design_rows(design) -> list[tuple[str, str, str]]:
     if b.perforated:
         rows += [("backplate", "hole radius", b.hole_radius_m * 1e6, "µm"),
                  ("backplate", "hole pitch", b.hole_pitch_m * 1e6, "µm")]
+    if a is None:
+        rows += [("acoustics", "(no [acoustics] section)",
+                  "air at 20 °C, 101.325 kPa assumed for the damping", "")]
+    else:
+        rows += [
+            ("acoustics", "back volume", a.back_volume_m3 * 1e9, "mm³"),
+            ("acoustics", "vent resistance", a.vent_resistance_pa_s_per_m3, "Pa·s/m³"),
+            ("acoustics", "temperature",
+             f"{a.temperature_k:.5g} K ({a.temperature_k - 273.15:.4g} °C)", ""),
+            ("acoustics", "static pressure", a.static_pressure_pa * 1e-3, "kPa"),
+        ]
+    if e is None:
+        rows += [("electrical", "(no [electrical] section)", "no bias point computed", "")]
+    else:
+        rows += [
+            ("electrical", "bias voltage", e.bias_voltage_v, "V"),
+            ("electrical", "bias resistance", e.bias_resistance_ohm * 1e-9, "GΩ"),
+            ("electrical", "parasitic capacitance", e.parasitic_capacitance_f * 1e12, "pF"),
+            ("electrical", "preamp input capacitance", e.preamp_input_capacitance_f * 1e12,
+             "pF"),
+        ]
     rows += [
-        ("acoustics", "back volume", a.back_volume_m3 * 1e9, "mm³"),
-        ("acoustics", "vent resistance", a.vent_resistance_pa_s_per_m3, "Pa·s/m³"),
-        ("acoustics", "temperature",
-         f"{a.temperature_k:.5g} K ({a.temperature_k - 273.15:.4g} °C)", ""),
-        ("acoustics", "static pressure", a.static_pressure_pa * 1e-3, "kPa"),
-        ("electrical", "bias voltage", e.bias_voltage_v, "V"),
-        ("electrical", "bias resistance", e.bias_resistance_ohm * 1e-9, "GΩ"),
-        ("electrical", "parasitic capacitance", e.parasitic_capacitance_f * 1e12, "pF"),
-        ("electrical", "preamp input capacitance", e.preamp_input_capacitance_f * 1e12, "pF"),
         ("analysis", "accuracy", design.analysis.accuracy, ""),
     ]
     return rows

@@ -124,7 +124,7 @@ def draw_capacitance(device, bias_deflection_m: float | None = None):
     return fig
 
 
-def draw_bias_branch(coupled_data: dict, gap_m: float, bias_voltage_v: float):
+def draw_bias_branch(coupled_data: dict, gap_m: float, bias_voltage_v: float | None):
     """Centre deflection against voltage along the equilibrium branch."""
     br = np.asarray(coupled_data["branch"], float)
     w, v = br[:, 0], br[:, 1]
@@ -142,14 +142,15 @@ def draw_bias_branch(coupled_data: dict, gap_m: float, bias_voltage_v: float):
     ax.plot([v_pi], [w_pi * fw], ls="none", marker="D", ms=8, color="black",
             label=f"pull-in: {v_pi:.4g} V at {w_pi * fw:.4g} {wl}")
     w_b = coupled_data.get("bias_center_deflection_m")
-    ax.axvline(bias_voltage_v, color="0.3", ls=":", lw=1.3)
-    if w_b is not None and not coupled_data.get("collapsed"):
-        ax.plot([bias_voltage_v], [w_b * fw], ls="none", marker="s", ms=8, mfc="white",
-                color="black", label=f"bias: {bias_voltage_v:.4g} V, {w_b * fw:.4g} {wl}")
-    else:
-        ax.plot([], [], color="0.3", ls=":",
-                label=f"bias {bias_voltage_v:.4g} V ≥ pull-in: the diaphragm collapses")
-    ax.set_xlim(0.0, 1.08 * max(v_pi, bias_voltage_v))
+    if bias_voltage_v is not None:  # None: a design without [electrical]
+        ax.axvline(bias_voltage_v, color="0.3", ls=":", lw=1.3)
+        if w_b is not None and not coupled_data.get("collapsed"):
+            ax.plot([bias_voltage_v], [w_b * fw], ls="none", marker="s", ms=8, mfc="white",
+                    color="black", label=f"bias: {bias_voltage_v:.4g} V, {w_b * fw:.4g} {wl}")
+        else:
+            ax.plot([], [], color="0.3", ls=":",
+                    label=f"bias {bias_voltage_v:.4g} V ≥ pull-in: the diaphragm collapses")
+    ax.set_xlim(0.0, 1.08 * max(v_pi, bias_voltage_v or 0.0))
     ax.set_ylim(0.0, 1.1 * float(np.max(w)) * fw)
     ax.set_xlabel("bias voltage (V)")
     ax.set_ylabel(f"centre deflection ({wl})")
@@ -190,5 +191,6 @@ def electro_plots(design, es, cp, cell) -> list[Plot]:
             "of the bias voltage (no sound pressure). The voltage peaks at pull-in; beyond it "
             "the equilibria are unstable.",
             lambda: draw_bias_branch(cp.data, design.backplate.gap_m,
-                                     design.electrical.bias_voltage_v)))
+                                     design.electrical.bias_voltage_v
+                                     if design.electrical is not None else None)))
     return out

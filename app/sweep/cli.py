@@ -14,15 +14,17 @@ VARY_HELP = """values:
   --vary PATH=START:STOP:N       N values spaced linearly from START to STOP (both included)
   --vary PATH=START:STOP:N:log   N values spaced geometrically (START, STOP > 0)
   --vary PATH=V1,V2,...          the listed values
-  PATH is a design key section.key, e.g. backplate.hole_radius. A value is a number in SI units
-  or a number with a unit, with or without a space (quote it for the shell): 2um, "2 um",
-  1e12Pa*s/m^3, 20degC. Keys with named choices take names: backplate.hole_lattice=hex,square.
+  PATH is a design key section.key, e.g. backplate.hole_radius. A value is one number with a
+  unit, with or without a space (quote it for the shell): 2um, "2 um", 1e12Pa*s/m^3, 20degC;
+  a bare number only for a key without a unit (diaphragm.poisson_ratio=0.2,0.3). Values outside
+  the key's allowed range are refused. Keys with named choices take names:
+  backplate.hole_lattice=hex,square.
   Several --vary give the cartesian product of their values.
 
 examples:
   diagap sweep my.toml --vary backplate.hole_radius=2um:8um:7
   diagap sweep my.toml --vary "backplate.gap=2 um:6 um:5" --vary electrical.bias_voltage=5,10,20
-  diagap sweep my.toml --vary acoustics.vent_resistance=1e10:1e14:5:log --workers 2
+  diagap sweep my.toml --vary "acoustics.vent_resistance=1e10 Pa*s/m^3:1e14 Pa*s/m^3:5:log"
   diagap sweep my.toml --vary backplate.hole_pitch=15um,20um --scheduler tcp://10.0.0.5:8786
 
 outputs (OUT, default diagap-sweep):
@@ -76,6 +78,9 @@ def add_parser(sub, add_common, epilog: str = "") -> argparse.ArgumentParser:
                    help="remove an earlier sweep's files from OUT and start a clean sweep")
     p.add_argument("--no-plots", action="store_true", help="do not write OUT/plots/*.png")
     p.add_argument("--no-progress", action="store_true", help="no progress bar on stderr")
+    from diagap.cli import add_max_memory
+
+    add_max_memory(p)
     add_common(p)
     return p
 
@@ -92,6 +97,7 @@ def _positive_int(text: str) -> int:
 
 def cmd_sweep(args) -> int:
     """Run ``diagap sweep``; returns the exit code (2: bad input, one line on stderr)."""
+    from diagap.cli import check_output_folder, max_memory_option, output_error
     from diagap.design import DesignError, demo_design, load_design
     from diagap.sweep.run import run_sweep
     from diagap.sweep.spec import SweepError, parse_vary
@@ -99,11 +105,16 @@ def cmd_sweep(args) -> int:
 
     try:
         design = load_design(args.design) if args.design else demo_design()
+        design = design.with_max_memory(max_memory_option(args))
         variations = [parse_vary(text) for text in args.vary]
-        res = run_sweep(design, variations, Path(args.out), workers=args.workers,
-                        scheduler=args.scheduler, accuracy=args.accuracy,
-                        progress=not args.no_progress, retry_failed=args.retry_failed,
-                        plots=not args.no_plots, fresh=args.fresh)
+        check_output_folder(Path(args.out))
+        try:
+            res = run_sweep(design, variations, Path(args.out), workers=args.workers,
+                            scheduler=args.scheduler, accuracy=args.accuracy,
+                            progress=not args.no_progress, retry_failed=args.retry_failed,
+                            plots=not args.no_plots, fresh=args.fresh)
+        except OSError as exc:
+            raise output_error(Path(args.out), exc) from None
     except (SweepError, DesignError) as exc:
         print(f"diagap: error: {exc}", file=sys.stderr)
         return 2

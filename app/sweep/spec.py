@@ -6,9 +6,12 @@ One variation names a design key and the values it takes::
     PATH=START:STOP:N:log    N values spaced geometrically (START, STOP > 0 in SI)
     PATH=V1,V2,...           the listed values (one value is allowed)
 
-``PATH`` is a design key ``section.key`` (``backplate.hole_radius``). A value is a plain number,
-read in SI units (metres, pascals, volts, kelvin, ...), or a number with a unit, with or without a
-space and optionally quoted: ``2um``, ``2 um``, ``"2 um"``, ``1e12 Pa*s/m^3``, ``20degC``.
+``PATH`` is a design key ``section.key`` (``backplate.hole_radius``). A value is a number with a
+unit, with or without a space and optionally quoted: ``2um``, ``2 um``, ``"2 um"``,
+``1e12 Pa*s/m^3``, ``20degC`` (the grammar of :mod:`diagap.quantities`; a bare number is refused
+for a key with a unit, so that ``4`` is never silently read as 4 m), or a plain number for a
+dimensionless key (``diaphragm.poisson_ratio=0.2,0.3``). Every value must lie in the key's range
+(:data:`diagap.design.SCHEMA`).
 START and STOP are converted to SI before spacing, so ``20degC:40degC:3`` gives 293.15, 303.15
 and 313.15 K. Keys with named choices take names: ``backplate.hole_lattice=hex,square``.
 
@@ -23,6 +26,7 @@ import hashlib
 import itertools
 import json
 import math
+import re
 from dataclasses import dataclass
 from typing import Any, Iterable, Sequence
 
@@ -86,12 +90,6 @@ def si_round(x: float) -> float:
     return float(f"{float(x):.12g}")
 
 
-def _ureg():
-    from diagap.quantities import unit_registry
-
-    return unit_registry()
-
-
 def _keys() -> list[str]:
     return [f"{s}.{k}" for s, fields in SCHEMA.items() for k in fields]
 
@@ -118,35 +116,19 @@ def _unquote(s: str) -> str:
     return s
 
 
-def _to_si(text: str, value: str, f: Field) -> float:
-    """A number (SI) or a quantity with units, converted to the SI unit of field ``f``."""
+def _to_si(text: str, value: str, f: Field, path: str = "") -> float:
+    """A quantity with units (a plain number for a dimensionless key), converted to the SI unit
+    of field ``f`` with the design parser's grammar and checked against the key's range."""
+    from diagap.quantities import DesignError, parse_quantity
+
     value = _unquote(value)
     if not value:
         raise SweepError(f"--vary {text!r}: empty value")
     try:
-        x = float(value)
-    except ValueError:
-        x = _quantity_to_si(text, value, f.unit)
-    if not math.isfinite(x):
-        raise SweepError(f"--vary {text!r}: {value!r} is not a finite number")
+        x = parse_quantity(path or "value", value, f)
+    except DesignError as exc:
+        raise SweepError(f"--vary {text!r}: {exc}") from None
     return si_round(x)
-
-
-def _quantity_to_si(text: str, value: str, unit: str) -> float:
-    import pint
-
-    ureg = _ureg()
-    try:
-        q = ureg.Quantity(value)
-    except (pint.errors.PintError, ValueError, TypeError, AttributeError, SyntaxError):
-        raise SweepError(f"--vary {text!r}: {value!r} is not a number or a quantity with units "
-                         f"(e.g. 2um, \"2 um\", 1e-6)") from None
-    target = ureg.Quantity(1, unit or "dimensionless")
-    if not isinstance(q, ureg.Quantity) or q.dimensionality != target.dimensionality:
-        dim = getattr(q, "dimensionality", "a name")
-        raise SweepError(f"--vary {text!r}: {value!r} has dimension {dim}, expected "
-                         f"{target.dimensionality} (in {unit or 'a plain number'})")
-    return float(q.to(unit or "dimensionless").magnitude)
 
 
 def _choice(text: str, value: str, f: Field) -> str:
@@ -170,13 +152,14 @@ def _count(text: str, n: str) -> int:
     return count
 
 
-def _range(text: str, parts: list[str], f: Field) -> tuple[tuple[float, ...], str]:
+def _range(text: str, parts: list[str], f: Field,
+           path: str = "") -> tuple[tuple[float, ...], str]:
     import numpy as np
 
     log = len(parts) == 4
     if len(parts) not in (3, 4) or (log and parts[3].strip().lower() != "log"):
         raise SweepError(f"--vary {text!r}: a range is START:STOP:N or START:STOP:N:log")
-    start, stop = _to_si(text, parts[0], f), _to_si(text, parts[1], f)
+    start, stop = _to_si(text, parts[0], f, path), _to_si(text, parts[1], f, path)
     n = _count(text, parts[2])
     if start == stop:
         raise SweepError(f"--vary {text!r}: START and STOP are equal ({start:g})")
@@ -215,9 +198,16 @@ def parse_vary(text: str) -> Variation:
     else:
         unit = f.unit or ""
         if "," in spec or ":" not in spec:
-            values, spacing = tuple(_to_si(text, v, f) for v in spec.split(",")), "list"
+            try:
+                values = tuple(_to_si(text, v, f, path) for v in spec.split(","))
+            except SweepError as exc:
+                if re.search(r"\d,\d", spec):
+                    raise SweepError(f"{exc} (',' separates values here; a decimal number "
+                                     f"takes a point: 4.5um)") from None
+                raise
+            spacing = "list"
         else:
-            values, spacing = _range(text, spec.split(":"), f)
+            values, spacing = _range(text, spec.split(":"), f, path)
     dup = [v for v, c in _counted(values) if c > 1]
     if dup:
         raise SweepError(f"--vary {text!r}: value {dup[0]!r} is listed more than once")

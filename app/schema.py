@@ -1,0 +1,80 @@
+"""The design-file schema: every key of every section with its SI unit, its allowed range, its
+choices or default, and the cross-field limits -- one table, checked before any computation.
+
+Ranges describe physically plausible capsules (nanometre films to centimetre plates, air at usual
+conditions) whose meshes stay within reach; :mod:`diagap.budget` bounds the run size on top.
+"""
+from __future__ import annotations
+
+from diagap.fem.constants import ROOM_TEMPERATURE_K, STANDARD_PRESSURE_PA
+from diagap.materials import MATERIALS
+from diagap.quantities import Field
+
+__all__ = ["SCHEMA", "OPTIONAL_SECTIONS", "DEFAULT_AIR", "MIN_SLENDERNESS", "MAX_HOLE_KNUDSEN",
+           "MAX_FILE_BYTES"]
+
+
+def _length(low: float, high: float, **kw) -> Field:
+    return Field("m", low=low, high=high, low_open=False, high_open=False, **kw)
+
+
+def _range(unit: str, low: float, high: float, **kw) -> Field:
+    return Field(unit, low=low, high=high, low_open=False, high_open=False, **kw)
+
+
+#: The allowed range of every design value (SI), checked before any computation: physically
+#: plausible capsules (nanometre films to centimetre plates, air at usual conditions) whose
+#: meshes stay within reach. Cross-field limits (slenderness, Knudsen number, gap / size, the
+#: holes against the pitch and the electrode) are checked in the section parsers below.
+SCHEMA: dict[str, dict[str, Field]] = {
+    "diaphragm": {
+        "shape": Field(choices=("circle", "square"), default="circle"),
+        "radius": _length(10e-6, 50e-3),
+        "side": _length(20e-6, 100e-3),
+        "thickness": _length(10e-9, 1e-3, required=True),
+        "material": Field(choices=tuple(MATERIALS)),
+        "youngs_modulus": _range("Pa", 1e5, 2e12, example="160 GPa"),
+        "poisson_ratio": Field("", low=-1.0, high=0.5),
+        "density": _range("kg/m^3", 100.0, 30000.0),
+        "residual_stress": _range("Pa", -10e9, 10e9, default=0.0),
+        "edge": Field(choices=("clamped", "simply-supported"), default="clamped"),
+    },
+    "backplate": {
+        "gap": _length(0.1e-6, 1e-3, required=True),
+        "thickness": _length(0.1e-6, 10e-3, required=True),
+        "electrode_radius": _length(1e-6, 50e-3),
+        "electrode_side": _length(2e-6, 100e-3),
+        "hole_lattice": Field(choices=("hex", "square", "none"), default="none"),
+        "hole_radius": _length(0.1e-6, 5e-3),
+        "hole_pitch": _length(0.5e-6, 20e-3),
+    },
+    "acoustics": {
+        "back_volume": _range("m^3", 1e-12, 1e-3, required=True),
+        "vent_resistance": _range("Pa*s/m^3", 1e3, 1e20, required=True),
+        "temperature": Field("K", low=173.15, high=473.15, low_open=False, high_open=False,
+                             default=ROOM_TEMPERATURE_K),
+        "static_pressure": Field("Pa", low=1e3, high=1e6, low_open=False, high_open=False,
+                                 default=STANDARD_PRESSURE_PA),
+    },
+    "electrical": {
+        "bias_voltage": Field("V", low=0.0, high=1000.0, high_open=False, required=True),
+        "bias_resistance": _range("ohm", 1e3, 1e15, required=True),
+        "parasitic_capacitance": _range("F", 0.0, 1e-6, default=0.0),
+        "preamp_input_capacitance": _range("F", 0.0, 1e-6, default=0.0),
+    },
+    "analysis": {
+        "accuracy": Field(choices=("draft", "normal", "fine"), default="normal"),
+        "max_memory": _range("B", 50e6, 1e12, example="4 GB"),
+    },
+}
+#: sections a design may leave out; the analyses that need them are skipped
+OPTIONAL_SECTIONS = ("acoustics", "electrical")
+#: the air of the squeeze film when a design has no [acoustics]: 20 degC, 101.325 kPa
+DEFAULT_AIR = (ROOM_TEMPERATURE_K, STANDARD_PRESSURE_PA)
+#: least diaphragm size / thickness (Kirchhoff thin plate; common practice: a/h >= ~10)
+MIN_SLENDERNESS = 10.0
+#: largest Knudsen number mean free path / hole radius (slip-flow corrections stay meaningful)
+MAX_HOLE_KNUDSEN = 0.5
+#: design files larger than this are refused unread
+MAX_FILE_BYTES = 1_000_000
+_TOP = {"name": Field(default="unnamed design"), "description": Field(default="")}
