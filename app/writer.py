@@ -17,7 +17,7 @@ import json
 import math
 import os
 import shutil
-import tempfile
+import secrets
 import time
 from pathlib import Path
 
@@ -110,8 +110,11 @@ def write_outputs(result, out: Path, report: bool = True) -> list[Path]:
     out = Path(out)
     out.parent.mkdir(parents=True, exist_ok=True)
     _remove_stale_temps(out)
-    tmp = Path(tempfile.mkdtemp(prefix=_tmp_prefix(out), dir=out.parent))
+    # the name is fixed before the folder exists, so that a signal arriving at any moment after
+    # mkdir still finds the folder in the ``finally`` below (pid + random: no other run's name)
+    tmp = out.parent / f"{_tmp_prefix(out)}{os.getpid()}-{secrets.token_hex(6)}"
     try:
+        tmp.mkdir(mode=0o700)
         names = []
         for fname, func in _producers(result, report):
             target = tmp / fname

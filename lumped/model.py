@@ -33,7 +33,7 @@ import numpy as np
 from scipy.interpolate import CubicSpline
 from scipy.optimize import brentq
 
-from diagap.fem.constants import EPSILON_0_F_PER_M, STANDARD_PRESSURE_PA
+from diagap.fem.constants import EPSILON_0_F_PER_M, ROOM_TEMPERATURE_K, STANDARD_PRESSURE_PA
 
 __all__ = [
     "LumpedModelError",
@@ -202,7 +202,7 @@ class LumpedModel:
     sound_speed_m_s: float = 343.2
     static_pressure_pa: float = STANDARD_PRESSURE_PA
     gamma: float = 1.4
-    temperature_k: float = 293.15
+    temperature_k: float = ROOM_TEMPERATURE_K
 
     def __post_init__(self):
         pos = ("stiffness_n_per_m", "mass_kg", "area_m2", "back_volume_m3",

@@ -105,6 +105,12 @@ def test_perforated_device_curve(demo_table, demo_rim):
     # the holes lower C below the solid-plate value; the rim adds to it
     assert dev.perforation_factor < 1 and dev.rim_fringing_capacitance_f > 0
     assert 0 < dev.rel_error < 1e-3 and 0 < dev.slope_rel_error < 1e-2
+    # the estimate of C0 bounds the errors of its parts added without cancellation: the c(g)
+    # table's (FE estimate + fit error, relative, on the area part) and the rim model's (absolute)
+    area_part = dev.rest_capacitance_f - demo_rim(G)
+    bound = ((demo_table.rel_error + demo_table.fit_error) * area_part
+             + demo_rim.abs_error_f) / dev.rest_capacitance_f
+    assert dev.rel_error == pytest.approx(bound, rel=1e-9, abs=0)
 
 
 def test_summary_block(demo_table, demo_rim):
