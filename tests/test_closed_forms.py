@@ -19,7 +19,7 @@ def test_capacitor_forms():
     # elementary electrostatics: C = ε0A/g; open-area rule C = ε0A(1 − φ)/g (common practice)
     area = math.pi * A**2
     rel_close(an.parallel_plate_capacitance(area, G), 8.8541878128e-12 * area / G, rel=1e-9)
-    rel_close(an.open_area_capacitance(area, G, 0.145), epsilon_0 * area * 0.855 / G, rel=1e-12)
+    rel_close(an.open_area_perforation_factor(0.145), 0.855, rel=1e-12)
 
 
 def test_piston_pull_in():
@@ -30,13 +30,6 @@ def test_piston_pull_in():
     # at V_PI the balance kx = ε0AV²/(2(g − x)²) has its fold at x = g/3
     x = G / 3
     rel_close(k * x, epsilon_0 * area * v**2 / (2 * (G - x) ** 2), rel=1e-12)
-
-
-def test_membrane_pull_in():
-    # Pelesko & Bernstein 2002, ch. 7 [value from memory]: λ* = ε0V²a²/(2Tg³) = 0.789
-    t = 10e6 * H
-    v = an.membrane_pull_in_voltage(A, t, G)
-    rel_close(epsilon_0 * v**2 * A**2 / (2 * t * G**3), 0.789, rel=1e-12)
 
 
 @pytest.mark.parametrize("edge,factor", [("clamped", 1.0),
@@ -70,17 +63,10 @@ def test_membrane_compliance():
     rel_close(value * t / 1e-6, 0.0737, rel=2e-3, what="0.0737 a²/T")
 
 
-def test_rc_corner_sensitivity_damping_resonance():
-    # first-order high-pass f = 1/(2πRC); piston sensitivity (V/g)·x/p·C0/(C0 + Cp) (common
-    # practice); Griffin et al. 1966 [from memory] b = 3πμa⁴/(2g³); f = √(k/m)/(2π)
-    rel_close(an.rc_highpass_corner_hz(1e10, 1.5e-12), 1 / (2 * math.pi * 1e10 * 1.5e-12),
-              rel=1e-12)
-    rel_close(an.piston_sensitivity_v_per_pa(10.0, G, 2e-9, 1.7e-12, 0.3e-12),
-              10.0 / G * 2e-9 * 1.7 / 2.0, rel=1e-12)
+def test_griffin_damping():
+    # Griffin et al. 1966 [from memory]: b = 3πμa⁴/(2g³)
     rel_close(an.griffin_damping(1.8e-5, 0.45e-3, G), 3 * math.pi * 1.8e-5 * 0.45e-3**4
               / (2 * G**3), rel=1e-12)
-    rel_close(an.piston_resonance_hz(50.0, 2e-9), math.sqrt(50.0 / 2e-9) / (2 * math.pi),
-              rel=1e-12)
 
 
 def test_buckling_tensions():
