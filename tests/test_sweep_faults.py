@@ -89,15 +89,35 @@ def test_environment_failures_are_computed_again_on_resume_input_failures_not(tm
     assert len(lines) == 6  # 4 first records, then the 2 recomputed ones; the last one wins
 
 
+_KILLED_WORKER_SCRIPT = """
+import json, sys
+sys.path.insert(0, sys.argv[2])
+from test_sweep_faults import RADII, Counting, killing
+from diagap.design import demo_design
+from diagap.sweep.faults import record_cause
+from diagap.sweep.run import run_sweep
+out = sys.argv[1]
+res = run_sweep(demo_design(), [RADII], out, workers=2, evaluate=killing, plots=False,
+                progress=False)
+first = [[r["status"], record_cause(r), r.get("error") or ""] for r in res.records]
+again = Counting()
+run_sweep(demo_design(), [RADII], out, workers=1, evaluate=again, plots=False, progress=False)
+print(json.dumps({"first": first, "again": again.calls}))
+"""
+
+
 def test_killed_worker_is_an_environment_failure_computed_again(tmp_path):
-    out = tmp_path / "s"
-    res = run_sweep(demo_design(), [RADII], out, workers=2, evaluate=killing, plots=False)
-    assert [r["status"] for r in res.records] == ["ok", "failed", "ok", "failed"]
-    assert record_cause(res.records[1]) == "environment"
-    assert "worker process ended unexpectedly" in res.records[1]["error"]
-    again = Counting()
-    res = run_sweep(demo_design(), [RADII], out, workers=1, evaluate=again, plots=False)
-    assert again.calls == [4e-6]
+    # the sweep runs in a child interpreter of its own: a worker that dies abruptly must not be
+    # able to take the test session with it
+    proc = subprocess.run([sys.executable, "-c", _KILLED_WORKER_SCRIPT, str(tmp_path / "s"),
+                           str(Path(__file__).parent)], capture_output=True, text=True,
+                          timeout=240)
+    assert proc.returncode == 0, proc.stderr[-2000:]
+    data = json.loads(proc.stdout.strip().splitlines()[-1])
+    assert [r[0] for r in data["first"]] == ["ok", "failed", "ok", "failed"]
+    assert data["first"][1][1] == "environment"
+    assert "worker process ended unexpectedly" in data["first"][1][2]
+    assert data["again"] == [4e-6]
 
 
 @pytest.mark.parametrize("error, cause", [
