@@ -11,6 +11,26 @@ __all__ = ["gmsh_session", "triangles", "nodes_of"]
 _LOCK = threading.Lock()  # the gmsh API is a process-wide singleton
 
 
+def _ignore_sigpipe() -> None:
+    """Set SIGPIPE back to "ignore", Python's own setting, from any thread.
+
+    gmsh's initialisation resets SIGPIPE to its default action (terminate the process). Python
+    ignores it so that a write to a closed pipe or socket raises ``BrokenPipeError``; without
+    that, a process that has meshed is killed outright when, say, a worker of its process pool
+    dies or a Dask connection drops.
+    """
+    import signal
+
+    if not hasattr(signal, "SIGPIPE"):  # pragma: no cover - not POSIX
+        return
+    if threading.current_thread() is threading.main_thread():
+        signal.signal(signal.SIGPIPE, signal.SIG_IGN)
+    else:
+        import ctypes
+
+        ctypes.CDLL(None).signal(int(signal.SIGPIPE), ctypes.c_void_p(int(signal.SIG_IGN)))
+
+
 @contextlib.contextmanager
 def gmsh_session(name: str = "diagap"):
     """Initialise gmsh silently, yield the module, always finalise."""
@@ -18,6 +38,7 @@ def gmsh_session(name: str = "diagap"):
 
     with _LOCK:
         gmsh.initialize(["-noenv"], readConfigFiles=False, interruptible=False)
+        _ignore_sigpipe()
         try:
             gmsh.option.setNumber("General.Terminal", 0)
             gmsh.option.setNumber("General.Verbosity", 0)
@@ -26,6 +47,7 @@ def gmsh_session(name: str = "diagap"):
             yield gmsh
         finally:
             gmsh.finalize()
+            _ignore_sigpipe()
 
 
 def nodes_of(gmsh, dim: int = 2):
