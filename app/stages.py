@@ -1,8 +1,26 @@
 """The stages of a run: each turns the design and earlier results into one summary section.
 
 Each stage returns a small frozen object with ``to_summary()`` and ``uncertainty`` (relative
-discretisation error per reported FE quantity). Lumped parameters are referred to the centre
-displacement (mode-1 shape normalised to 1 at the centre) throughout.
+discretisation error per reported FE quantity).
+
+One shape for the whole reduction
+---------------------------------
+Every lumped quantity is a Rayleigh–Ritz projection on ONE shape, the static deflection under
+uniform pressure φ_s = w_p/w_p(0) (1 at the centre): stiffness k = φ_sᵀKφ_s = A/c0, mass
+m = φ_sᵀMφ_s, area A = ∫φ_s dA, the capacitance curve C(x) = ∫c(g − xφ_s) dA + C_rim and its
+slope, the electrostatic spring k_e = ½V_b²C''(x_b) (the distributed −∂p_e/∂w at the bias point
+projected on φ_s), the squeeze-film impedance and its noise. Why the static shape: an audio-band
+microphone works far below its first resonance, where the diaphragm takes the static shape, so
+this choice makes the low-frequency compliance (A/k = c0, the exact FE centre compliance) and
+the volume displacement A²/k (the exact FE volume compliance) exact, and with them the 1 kHz
+sensitivity. Its price is the resonance: the Rayleigh quotient of φ_s lies above ω₁ (clamped
+disk, FE "normal": +1.1 % for a pure plate τ = 0, +1.8 % at the demo's τ = TL²/D = 178,
++1.9 % at τ = 3600, quadratic in the shape error), a shift at the top of or above the audio
+band. The mode-1 shape would make the resonance exact but overstate the low-frequency compliance
+by the mode's participation (A₁/k₁ over c0: 1.045 at τ = 0, 1.10 at τ = 178, 1.11 at τ = 3600),
+i.e. +0.4 to +0.9 dB of sensitivity (and THD, and SNR) — an error in the band where the
+microphone is used. The static shape is therefore chosen. The residual model error of
+the reduction is measured against the distributed solve (:mod:`fem.response`) in the audit.
 """
 from __future__ import annotations
 
@@ -15,6 +33,7 @@ import numpy as np
 from diagap.design import Design
 
 __all__ = ["electrostatics_stage", "coupled_stage", "damping_stage", "lumped_model",
+           "electrostatic_spring",
            "response_stage", "Section", "electrode_quadrature"]
 
 #: the c(g) table covers local gaps from GAP_TABLE[0]·g to GAP_TABLE[1]·g: the C(x) curve
@@ -107,7 +126,10 @@ def coupled_stage(design: Design, problem, es: Section, mech) -> Section:
 
     The electrostatic spring is referred to the mode-1 centre coordinate: with the resonance
     f_b at bias and f_0 without (same mesh, vacuum), k_soft = k_eff (f_b/f_0)² and
-    k_e = k_eff − k_soft (constant voltage; = −dF/dx of the electrostatic force)."""
+    k_e = k_eff − k_soft (constant voltage; = −dF/dx of the electrostatic force) — reported as a
+    cross-check. The lumped model's own electrostatic spring is the static-shape one,
+    ½V²C''(x_b) (:func:`electrostatic_spring`); ``softened_stiffness_n_per_m`` and
+    ``electrostatic_stiffness_n_per_m`` are those of the static shape."""
     from diagap.fem.coupling.plate import solve_coupled
 
     b = design.backplate
@@ -116,17 +138,21 @@ def coupled_stage(design: Design, problem, es: Section, mech) -> Section:
     data = res.to_summary()
     unc = dict(res.uncertainty)
     if not res.collapsed:
-        k = mech.effective_stiffness_n_per_m
-        soft = k * (res.resonance_at_bias_hz / res.resonance_no_bias_hz) ** 2
-        data["softened_stiffness_n_per_m"] = soft
-        data["electrostatic_stiffness_n_per_m"] = k - soft
-        unc["softened_stiffness_n_per_m"] = 2 * unc.get("resonance_at_bias_hz", 0.0) + \
-            mech.uncertainty.get("effective_stiffness_n_per_m", 0.0)
+        k = mech.static_shape_stiffness_n_per_m
+        k_e = electrostatic_spring(design, es, res.bias_center_deflection_m or 0.0)
+        data["softened_stiffness_n_per_m"] = k - k_e
+        data["electrostatic_stiffness_n_per_m"] = k_e
+        data["mode_1_electrostatic_stiffness_n_per_m"] = mech.effective_stiffness_n_per_m * (
+            1.0 - (res.resonance_at_bias_hz / res.resonance_no_bias_hz) ** 2)
+        unc["softened_stiffness_n_per_m"] = (
+            mech.uncertainty.get("static_shape_stiffness_n_per_m", 0.0)
+            + abs(k_e / (k - k_e)) * (es.uncertainty.get("capacitance_slope_f_per_m", 0.0)
+                                      + unc.get("bias_center_deflection_m", 0.0)))
     return Section(data, unc, {"coupled": res})
 
 
 def damping_stage(design: Design, mech, resonance_hz: float) -> Section:
-    """Squeeze-film damping and film stiffness through the perforation, on the mode-1 shape."""
+    """Squeeze-film damping and film stiffness through the perforation, on the static shape."""
     from diagap.fem.air import air_properties
     from diagap.fem.film.squeeze import squeeze_film
 
@@ -136,16 +162,36 @@ def damping_stage(design: Design, mech, resonance_hz: float) -> Section:
     air = air_properties(a.temperature_k, a.static_pressure_pa)
     freqs = np.logspace(0, 5, 51)
     res = squeeze_film(d.shape, b.electrode_size_m, b.gap_m, b.hole_radius_m, b.hole_pitch_m,
-                       b.hole_lattice, b.thickness_m, air, lambda x, y: mech.mode_shape(1, x, y),
+                       b.hole_lattice, b.thickness_m, air, mech.static_shape,
                        freqs, design.analysis.accuracy)
     data = res.to_summary(resonance_hz=resonance_hz)
     thermal = mechanical_thermal_noise(res.frequencies_hz, res.damping_spectrum_n_s_per_m,
-                                       a.temperature_k, mech.effective_area_m2)
+                                       a.temperature_k, mech.static_shape_area_m2)
     data["mechanical_noise_dba_spl"] = thermal.a_weighted_spl_db()
     data["force_noise_n_per_rthz"] = float(np.sqrt(thermal.force_psd_n2_per_hz[0]))
     unc = {"damping_n_s_per_m": res.damping_relative_uncertainty,
            "cutoff_frequency_hz": data["cutoff_relative_uncertainty"]}
     return Section(data, unc, {"squeeze": res, "air": air})
+
+
+def _curve_points(design: Design, es: Section) -> np.ndarray:
+    """Centre displacements (m) of the C(x) samples: every local gap stays inside the c(g) table
+    and the rim model's range."""
+    g = design.backplate.gap_m
+    pm, pr = max(es.objects["phi_max"], 1e-9), max(es.objects["phi_rim"], 1e-9)
+    x_hi = 0.999 * min(NONLINEAR_TRAVEL * g, (1 - GAP_TABLE[0]) * g / pm, RIM_SPAN * g / pr)
+    x_lo = -0.999 * min(0.4 * g, (GAP_TABLE[1] - 1) * g / pm, RIM_SPAN * g / pr)
+    return np.linspace(x_lo, x_hi, 111)
+
+
+def electrostatic_spring(design: Design, es: Section, x_b_m: float) -> float:
+    """Constant-voltage electrostatic spring ½V_b²C''(x_b) on the static shape (N/m), C''
+    from the elastance spline of :class:`lumped.model.CapacitanceCurve` through C(x)."""
+    from diagap.lumped.model import CapacitanceCurve
+
+    xs = _curve_points(design, es)
+    curve = CapacitanceCurve(xs, es.objects["device"](xs))
+    return float(0.5 * design.electrical.bias_voltage_v**2 * curve.curvature(x_b_m))
 
 
 def lumped_model(design: Design, mech, es: Section, cp: Section, damp: Section):
@@ -158,21 +204,16 @@ def lumped_model(design: Design, mech, es: Section, cp: Section, damp: Section):
     sq = damp.objects["squeeze"]
     g = design.backplate.gap_m
     x_b = res.bias_center_deflection_m or 0.0
-    k = mech.effective_stiffness_n_per_m
-    ratio = (res.resonance_at_bias_hz / res.resonance_no_bias_hz) ** 2
-    k_e = k * (1.0 - ratio)
-    # keep every local gap inside the c(g) table and the rim model's range
-    pm, pr = max(es.objects["phi_max"], 1e-9), max(es.objects["phi_rim"], 1e-9)
-    x_hi = 0.999 * min(NONLINEAR_TRAVEL * g, (1 - GAP_TABLE[0]) * g / pm, RIM_SPAN * g / pr)
-    x_lo = -0.999 * min(0.4 * g, (GAP_TABLE[1] - 1) * g / pm, RIM_SPAN * g / pr)
-    xs = np.linspace(x_lo, x_hi, 111)
+    k = mech.static_shape_stiffness_n_per_m
+    k_e = electrostatic_spring(design, es, x_b)
+    xs = _curve_points(design, es)
     curve = tuple((float(x), float(dev(x))) for x in xs)
     e, ac = design.electrical, design.acoustics
     film = FilmTable(tuple(sq.frequencies_hz.tolist()), tuple(sq.damping_spectrum_n_s_per_m.tolist()),
                      tuple(sq.film_stiffness_n_per_m.tolist()))
     return LumpedModel(
-        stiffness_n_per_m=k, electrostatic_stiffness_n_per_m=k_e, mass_kg=mech.effective_mass_kg,
-        area_m2=mech.effective_area_m2, damping_n_s_per_m=sq.damping_n_s_per_m,
+        stiffness_n_per_m=k, electrostatic_stiffness_n_per_m=k_e, mass_kg=mech.static_shape_mass_kg,
+        area_m2=mech.static_shape_area_m2, damping_n_s_per_m=sq.damping_n_s_per_m,
         back_volume_m3=ac.back_volume_m3, vent_resistance_pa_s_per_m3=ac.vent_resistance_pa_s_per_m3,
         rest_capacitance_f=float(dev(x_b)), capacitance_slope_f_per_m=float(dev.slope(x_b)),
         bias_resistance_ohm=e.bias_resistance_ohm, bias_voltage_v=e.bias_voltage_v, gap_m=g,
@@ -191,8 +232,8 @@ def _response_uncertainty(unc: dict) -> dict:
         return abs(float(unc.get(key, 0.0)))
 
     sens = (u("electrostatics.capacitance_slope_f_per_m") + u("electrostatics.rest_capacitance_f")
-            + u("mechanics.effective_area_m2") + u("coupled.softened_stiffness_n_per_m"))
-    res = 0.5 * (u("coupled.softened_stiffness_n_per_m") + u("mechanics.effective_mass_kg"))
+            + u("mechanics.static_shape_area_m2") + u("coupled.softened_stiffness_n_per_m"))
+    res = 0.5 * (u("coupled.softened_stiffness_n_per_m") + u("mechanics.static_shape_mass_kg"))
     return {"sensitivity_v_per_pa": sens, "resonance_hz": res}
 
 
