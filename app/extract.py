@@ -20,8 +20,6 @@ def plate_problem(design: Design):
 def film_coefficients(design, air):
     """The film of ``design`` for :mod:`fem.response` (rarefied viscosity, hole resistance from
     :func:`fem.film.perforation.perforation`, hole and film inertance)."""
-    import math
-
     from diagap.fem.film.perforation import film_viscosity, perforation
     from diagap.fem.response.film import FilmCoefficients, hole_inertance
 
@@ -38,7 +36,7 @@ def film_coefficients(design, air):
     return FilmCoefficients(
         gap_m=g, film_viscosity_pa_s=film_viscosity(air.viscosity_pa_s, air.mean_free_path_m, g),
         static_pressure_pa=air.static_pressure_pa, air_density_kg_m3=air.density_kg_per_m3,
-        viscosity_pa_s=air.viscosity_pa_s, **holes) if math.isfinite(g) else None
+        viscosity_pa_s=air.viscosity_pa_s, **holes)
 
 
 def response_inputs(design, density, rim, air):

@@ -14,7 +14,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from diagap.design import Design
-from diagap.extract import plate_problem
+from diagap.extract import plate_problem, response_inputs
 
 __all__ = ["RunResult", "run_design", "SCHEMA_VERSION"]
 
@@ -77,7 +77,10 @@ def run_design(design: Design) -> RunResult:
     damp = _stage(result, "damping", damping_stage, design, mech, f_res)
     if not result.collapsed:
         model = lumped_model(design, mech, es, cp, damp)
-        _stage(result, "response", response_stage, model, result.summary()["uncertainty"])
+        dist = response_inputs(design, es.objects["density"], es.objects["rim"],
+                               damp.objects["air"])
+        _stage(result, "response", response_stage, model, result.summary()["uncertainty"],
+               dist, acc)
     sections = {k: v.to_summary() for k, v in result.sections.items()}
     _stage(result, "audit", audit_design, design, sections)
     return result

@@ -194,6 +194,32 @@ def electrostatic_spring(design: Design, es: Section, x_b_m: float) -> float:
     return float(0.5 * design.electrical.bias_voltage_v**2 * curve.curvature(x_b_m))
 
 
+def _piston_radius(design: Design) -> float:
+    """Radius of the disk of the diaphragm's area: the baffled-piston front load (m)."""
+    d = design.diaphragm
+    return d.size_m if d.shape == "circle" else d.size_m / math.sqrt(math.pi)
+
+
+def _film_table(design: Design, mech, air, sq):
+    """b(f), k_film(f) of the film on the static shape, with the air mass of the film and the
+    holes (:mod:`fem.response.film`, the film of the distributed solve on its finer level)."""
+    from diagap.extract import film_coefficients
+    from diagap.fem.response.coupled import F_MAX_HZ, FILM_FAMILY, FILM_LEVELS
+    from diagap.fem.response.film import film_layer, film_operator
+    from diagap.lumped.model import FilmTable
+
+    b, d = design.backplate, design.diaphragm
+    coef = film_coefficients(design, air)
+    f = np.asarray(sq.frequencies_hz, float)
+    scale = b.electrode_size_m if d.shape == "circle" else 0.5 * b.electrode_size_m
+    layer = film_layer(coef, scale, F_MAX_HZ)
+    fo = film_operator(d.shape, FILM_FAMILY[design.analysis.accuracy], layer, FILM_LEVELS[1],
+                       scale)
+    z = fo.impedance_spectrum(coef, 2 * np.pi * f, mech.static_shape(fo.xq_m, fo.yq_m))
+    return FilmTable(tuple(f.tolist()), tuple(z.real.tolist()),
+                     tuple((-2 * np.pi * f * z.imag).tolist()))
+
+
 def lumped_model(design: Design, mech, es: Section, cp: Section, damp: Section):
     """The one-degree-of-freedom model at the bias point (see :mod:`lumped.model`)."""
     from diagap.lumped.model import FilmTable, LumpedModel
@@ -209,8 +235,7 @@ def lumped_model(design: Design, mech, es: Section, cp: Section, damp: Section):
     xs = _curve_points(design, es)
     curve = tuple((float(x), float(dev(x))) for x in xs)
     e, ac = design.electrical, design.acoustics
-    film = FilmTable(tuple(sq.frequencies_hz.tolist()), tuple(sq.damping_spectrum_n_s_per_m.tolist()),
-                     tuple(sq.film_stiffness_n_per_m.tolist()))
+    film = _film_table(design, mech, air, sq)
     return LumpedModel(
         stiffness_n_per_m=k, electrostatic_stiffness_n_per_m=k_e, mass_kg=mech.static_shape_mass_kg,
         area_m2=mech.static_shape_area_m2, damping_n_s_per_m=sq.damping_n_s_per_m,
@@ -221,7 +246,8 @@ def lumped_model(design: Design, mech, es: Section, cp: Section, damp: Section):
         preamp_input_capacitance_f=e.preamp_input_capacitance_f, capacitance_curve=curve,
         film_damping=film, bias_displacement_m=x_b, air_density_kg_m3=air.density_kg_per_m3,
         sound_speed_m_s=air.speed_of_sound_m_per_s, static_pressure_pa=ac.static_pressure_pa,
-        gamma=air.heat_capacity_ratio, temperature_k=ac.temperature_k)
+        gamma=air.heat_capacity_ratio, temperature_k=ac.temperature_k,
+        radiation_radius_m=_piston_radius(design))
 
 
 def _response_uncertainty(unc: dict) -> dict:
@@ -237,8 +263,71 @@ def _response_uncertainty(unc: dict) -> dict:
     return {"sensitivity_v_per_pa": sens, "resonance_hz": res}
 
 
-def response_stage(model, fe_uncertainty: dict | None = None) -> Section:
-    """Frequency response, noise (mechanical-thermal, bias resistor, vent) and distortion."""
+#: frequencies of the distributed reference solve (Hz): 30 log-spaced from 10 Hz to 100 kHz and
+#: the 1 kHz reference
+DISTRIBUTED_FREQUENCIES_HZ = np.sort(np.append(np.logspace(1.0, 5.0, 30), 1000.0))
+
+
+def _voltage_peak(freqs, evaluate):
+    """(f, |H|) of the maximum of |H(f)| sampled at ``freqs``, refined by a parabola in
+    (log f, dB) through a local grid; None when the maximum is at the end of the range."""
+    h = np.abs(evaluate(freqs))
+    i = int(np.argmax(h))
+    if i == 0 or i == len(freqs) - 1:
+        return None
+    for _ in range(2):
+        fl = np.geomspace(freqs[max(i - 1, 0)], freqs[min(i + 1, len(freqs) - 1)], 9)
+        hl = np.abs(evaluate(fl))
+        j = int(np.clip(np.argmax(hl), 1, 7))
+        freqs, i = fl, j
+    x, y = np.log(freqs[i - 1:i + 2]), 20 * np.log10(np.abs(evaluate(freqs[i - 1:i + 2])))
+    a, b, c = np.polyfit(x, y, 2)
+    xv = -b / (2 * a) if a < 0 else x[1]
+    return float(np.exp(xv)), float(10 ** (np.polyval([a, b, c], xv) / 20))
+
+
+def distributed_section(model, resp, inputs, accuracy: str) -> tuple[dict, dict, object]:
+    """Lumped vs distributed: the distributed solve (:mod:`fem.response`) at
+    ``DISTRIBUTED_FREQUENCIES_HZ``, its 1 kHz sensitivity and voltage peak, and the reduction
+    error of the lumped model (lumped − distributed, dB). Returns (data, uncertainty, result)."""
+    from diagap.fem.response.coupled import distributed_response
+    from diagap.lumped.response import REFERENCE_FREQUENCY_HZ, frequency_response
+
+    f = DISTRIBUTED_FREQUENCIES_HZ
+    res = distributed_response(inputs, f, accuracy)
+    i1 = int(np.argmin(np.abs(f - REFERENCE_FREQUENCY_HZ)))
+    s_d = abs(res.voltage_per_pa[i1])
+    err = res.voltage_rel_error
+    red_db = float(resp.sensitivity_db_v_per_pa - 20 * math.log10(s_d))
+    data = {
+        "distributed_sensitivity_db_v_per_pa": 20 * math.log10(s_d),
+        "reduction_error_db": red_db,
+        "distributed_dofs": list(res.dofs),
+        "distributed_response": [[float(a), float(20 * math.log10(abs(b))),
+                                  float(np.degrees(np.angle(b))), float(e)]
+                                 for a, b, e in zip(f, res.voltage_per_pa, err)],
+    }
+    unc = {"distributed_sensitivity_v_per_pa": float(err[i1])}
+    pk_d = _voltage_peak(f, res.evaluate)
+    pk_l = _voltage_peak(resp.response.frequency_hz,
+                         lambda x: frequency_response(model, np.atleast_1d(x)).voltage_per_pa)
+    if pk_d and pk_l:
+        data.update({"distributed_peak_frequency_hz": pk_d[0],
+                     "distributed_peak_db_v_per_pa": 20 * math.log10(pk_d[1]),
+                     "lumped_peak_frequency_hz": pk_l[0],
+                     "lumped_peak_db_v_per_pa": 20 * math.log10(pk_l[1]),
+                     "reduction_error_peak_frequency": pk_l[0] / pk_d[0] - 1.0,
+                     "reduction_error_peak_db": 20 * math.log10(pk_l[1] / pk_d[1])})
+        unc["distributed_peak_frequency_hz"] = float(np.max(err))
+    return data, unc, res
+
+
+def response_stage(model, fe_uncertainty: dict | None = None, distributed=None,
+                   accuracy: str = "normal") -> Section:
+    """Frequency response, noise (mechanical-thermal, bias resistor, vent) and distortion; with
+    ``distributed`` (a :class:`fem.response.coupled.ResponseInputs`) also the distributed
+    reference and the reduction error, which is added to the reported uncertainty of the
+    sensitivity, the resonance and the noise (relative, on the pressure amplitude)."""
     from diagap.lumped.distortion import distortion_vs_spl
     from diagap.lumped.noise import a_weighted_level_db
     from diagap.lumped.response import (analyse_response, output_noise_psd_damping, output_noise_psd_resistor,
@@ -265,5 +354,16 @@ def response_stage(model, fe_uncertainty: dict | None = None) -> Section:
     data.update(dist.to_summary())
     data["thd_vs_spl"] = [[float(a), float(b)] for a, b in zip(dist.spl_db, dist.thd)]
     unc = _response_uncertainty(fe_uncertainty or {})
-    return Section(data, unc, {"response": resp, "distortion": dist, "model": model,
-                              "noise_parts": parts, "noise_input_psd": p_in})
+    objects = {"response": resp, "distortion": dist, "model": model, "noise_parts": parts,
+               "noise_input_psd": p_in}
+    if distributed is not None:
+        d_data, d_unc, d_res = distributed_section(model, resp, distributed, accuracy)
+        data.update(d_data)
+        unc.update(d_unc)
+        model_err = abs(10 ** (d_data["reduction_error_db"] / 20) - 1.0)
+        unc["sensitivity_v_per_pa"] += model_err + d_unc["distributed_sensitivity_v_per_pa"]
+        unc["noise_dba_spl"] = unc["sensitivity_v_per_pa"]
+        if "reduction_error_peak_frequency" in d_data:
+            unc["resonance_hz"] += abs(d_data["reduction_error_peak_frequency"])
+        objects["distributed"] = d_res
+    return Section(data, unc, objects)

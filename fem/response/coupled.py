@@ -57,7 +57,7 @@ from dataclasses import dataclass, field
 import numpy as np
 from scipy import special
 
-from diagap.fem.response.film import FilmCoefficients, FilmOperator, film_meshes
+from diagap.fem.response.film import FilmCoefficients, FilmOperator, film_layer, film_operator
 
 __all__ = ["ResponseInputs", "DistributedResponse", "distributed_response", "piston_radiation",
            "ResponseInputError"]
@@ -131,6 +131,11 @@ class DistributedResponse:
     displacement_per_pa_truncated: np.ndarray
     details: dict = field(default_factory=dict, repr=False)
 
+    def evaluate(self, frequencies_hz) -> np.ndarray:
+        """v/p (V/Pa) of the fine level at other frequencies (no new assembly)."""
+        lv = self.details["level"]
+        return np.array([lv.solve(2 * math.pi * f)[0] for f in np.atleast_1d(frequencies_hz)])
+
     @staticmethod
     def _est(fine, coarse):
         from diagap.fem.levels import NOISE_FLOOR, RATIO
@@ -157,15 +162,13 @@ class DistributedResponse:
 class _Level:
     """The system on one (plate mesh, film mesh) pair: frequency-independent parts."""
 
-    def __init__(self, inp: ResponseInputs, plate, film_mesh, n_modes: int):
-        from scipy.linalg import eigh
-
+    def __init__(self, inp: ResponseInputs, plate, film, n_modes: int):
         from diagap.fem.coupling.plate import coupling_system, load_from_density
 
         self.inp = inp
         pb = inp.problem
         L_e = inp.electrode_size_m if pb.shape == "circle" else 0.5 * inp.electrode_size_m
-        fo = FilmOperator(film_mesh, L_e)
+        fo = film if isinstance(film, FilmOperator) else FilmOperator(film, L_e)
         self.fo, self.plate = fo, plate
         L = plate.length_m
         Bq = (plate.evaluator.matrix(fo.xq_m / L, fo.yq_m / L) @ plate.B).tocsr()
@@ -223,7 +226,7 @@ class _Level:
         self.cr = Phi.T @ plate.point_functional(0.0, 0.0)
         # film in its own eigenbasis: Lap V = Mass V Λ, VᵀMass V = I, so that
         # (Y Lap + a Mass)⁻¹ = V (YΛ + a)⁻¹ Vᵀ exactly
-        lam, vec = eigh(fo.lap.toarray(), fo.mass.toarray())
+        lam, vec = fo.eig()
         self.lam = lam
         self.VtC = vec.T @ self.Cr.T                                  # (n_f, N)
         self.Vt1 = vec.T @ fo.ones                                    # (n_f,)
@@ -326,11 +329,8 @@ def _film_layer(inp: ResponseInputs, f_max_hz: float) -> float:
     """Thinnest film boundary layer (scaled by the electrode size) up to ``f_max_hz``."""
     if inp.film is None:
         return 1.0
-    c = inp.film
     L = inp.electrode_size_m if inp.problem.shape == "circle" else 0.5 * inp.electrode_size_m
-    w = 2 * math.pi * f_max_hz
-    k2 = abs(c.sink(0.0) + c.compression(w)) / abs(c.conductance(0.0))
-    return 1.0 / math.sqrt(max(k2 * L * L, 1.0))
+    return film_layer(inp.film, L, f_max_hz)
 
 
 #: mesh families: the plate on the coupling family, the film on the squeeze-film levels
@@ -338,6 +338,8 @@ PLATE_FAMILY = {"draft": "draft", "normal": "draft", "fine": "normal"}
 FILM_FAMILY = {"draft": "draft", "normal": "draft", "fine": "normal"}
 #: film mesh levels used (of the three nested squeeze-film levels): coarse, fine
 FILM_LEVELS = (0, 1)
+#: the film meshes resolve the film's boundary layer up to this frequency (Hz)
+F_MAX_HZ = 1.0e5
 #: plate modes in the Ritz basis (the truncation is checked with half of them)
 N_MODES = 40
 
@@ -346,7 +348,8 @@ def distributed_response(inp: ResponseInputs, frequencies_hz, accuracy: str = "n
                          levels=None, n_modes: int = N_MODES) -> DistributedResponse:
     """v/p and w(0)/p of the distributed model at ``frequencies_hz`` (see the module docstring).
 
-    ``levels`` (optional) is a pair of (plate system, film mesh) for coarse and fine; by default
+    ``levels`` (optional) is a pair of (plate system, film mesh or :class:`FilmOperator`) for
+    coarse and fine; by default
     the two finest plate meshes of ``PLATE_FAMILY[accuracy]`` (electrode edge embedded) and the
     two finest film meshes of ``FILM_FAMILY[accuracy]``.
     """
@@ -361,8 +364,11 @@ def distributed_response(inp: ResponseInputs, frequencies_hz, accuracy: str = "n
         raise ResponseInputError(f"accuracy = {accuracy!r}: allowed {tuple(PLATE_FAMILY)}")
     if levels is None:
         plates, _ = plate_levels(inp.problem, PLATE_FAMILY[accuracy], inp.electrode_size_m)
-        films = film_meshes(inp.problem.shape, FILM_FAMILY[accuracy], _film_layer(inp, f.max()))
-        levels = list(zip(plates[-2:], [films[i] for i in FILM_LEVELS]))
+        L_e = inp.electrode_size_m if inp.problem.shape == "circle" else 0.5 * inp.electrode_size_m
+        layer = _film_layer(inp, F_MAX_HZ)
+        films = [film_operator(inp.problem.shape, FILM_FAMILY[accuracy], layer, i, L_e)
+                 for i in FILM_LEVELS]
+        levels = list(zip(plates[-2:], films))
     out = []
     with threadpool_limits(limits=1):
         for plate, fm in levels:

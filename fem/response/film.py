@@ -38,6 +38,7 @@ the quadrature points and weights in SI so that the plate can be evaluated there
 """
 from __future__ import annotations
 
+import functools
 import math
 from dataclasses import dataclass
 
@@ -46,7 +47,8 @@ import scipy.sparse as sp
 from skfem import Basis, BilinearForm, ElementTriP2, LinearForm
 from skfem.helpers import dot, grad
 
-__all__ = ["FilmCoefficients", "FilmOperator", "film_meshes", "hole_inertance"]
+__all__ = ["FilmCoefficients", "FilmOperator", "film_meshes", "film_layer", "film_operator",
+           "hole_inertance"]
 
 
 def hole_inertance(air_density_kg_m3: float, hole_radius_m: float, length_m: float) -> float:
@@ -114,6 +116,22 @@ def _one(v, w):
     return v
 
 
+def film_layer(coef: FilmCoefficients, scale_m: float, f_max_hz: float) -> float:
+    """Thinnest film boundary layer up to ``f_max_hz``, scaled by ``scale_m``: 1/(|k|·L) with
+    k² = (s + jωg/p0)/Y (≤ 1)."""
+    w = 2 * math.pi * f_max_hz
+    k2 = abs(coef.sink(0.0) + coef.compression(w)) / abs(coef.conductance(0.0))
+    return 1.0 / math.sqrt(max(k2 * scale_m**2, 1.0))
+
+
+@functools.lru_cache(maxsize=8)
+def film_operator(shape: str, family: str, layer: float, level: int,
+                  length_m: float) -> "FilmOperator":
+    """The :class:`FilmOperator` on level ``level`` of :func:`film_meshes` (cached: the lumped
+    film table and the distributed solve share it and its eigendecomposition)."""
+    return FilmOperator(film_meshes(shape, family, layer)[level], length_m)
+
+
 def film_meshes(shape: str, accuracy: str, layer: float) -> list:
     """Nested P2 electrode meshes (scaled, coarse → fine) of the squeeze-film solver."""
     from diagap.fem.film.squeeze import _mesh_levels
@@ -133,6 +151,7 @@ class FilmOperator:
 
     def __init__(self, mesh, length_m: float):
         L = float(length_m)
+        self._eig = None
         basis = Basis(mesh, ElementTriP2(), intorder=6)
         free = basis.complement_dofs(basis.get_dofs())
         self.n = int(free.size)
@@ -161,6 +180,25 @@ class FilmOperator:
     def load(self, values_q: np.ndarray) -> np.ndarray:
         """∫ f ψ_i dA for f given at the quadrature points."""
         return self.interp.T @ (self.wq_m2 * np.asarray(values_q).ravel())
+
+    def eig(self):
+        """(Λ, V) of Lap V = Mass V Λ with VᵀMass V = I (dense, cached)."""
+        if self._eig is None:
+            from scipy.linalg import eigh
+
+            self._eig = eigh(self.lap.toarray(), self.mass.toarray())
+        return self._eig
+
+    def impedance_spectrum(self, coef: FilmCoefficients, omegas, shape_q: np.ndarray) -> np.ndarray:
+        """Z_m(ω) of :meth:`impedance` at many frequencies, from the film's eigenbasis
+        (Lap V = Mass V Λ: (Y Lap + a Mass)⁻¹ = V (YΛ + a)⁻¹ Vᵀ, exact)."""
+        lam, vec = self.eig()
+        vf = vec.T @ self.load(shape_q)
+        out = []
+        for w in np.atleast_1d(np.asarray(omegas, float)):
+            d = coef.conductance(w) * lam + coef.sink(w) + coef.compression(w)
+            out.append(np.sum(vf * vf / d))
+        return np.array(out)
 
     def impedance(self, coef: FilmCoefficients, omega: float, shape_q: np.ndarray) -> complex:
         """Z_m = ∫Πφ dA / v0 (N·s/m) for the velocity v0·φ with p_b = 0 (φ at the quadrature
