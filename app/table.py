@@ -5,7 +5,8 @@ __all__ = ["summary_table", "UNCERTAINTY_ALIAS"]
 
 #: results whose error estimate is filed under another key
 UNCERTAINTY_ALIAS = {"distinct_frequencies_hz": "natural_frequencies_hz",
-                     "sensitivity_db_v_per_pa": "sensitivity_v_per_pa"}
+                     "sensitivity_db_v_per_pa": "sensitivity_v_per_pa",
+                     "distributed_sensitivity_db_v_per_pa": "distributed_sensitivity_v_per_pa"}
 
 # (section, key, label, scale, unit)
 ROWS = [
@@ -26,6 +27,9 @@ ROWS = [
     ("coupled", "resonance_at_bias_hz", "resonance at bias (vacuum)", 1e-3, "kHz"),
     ("damping", "damping_n_s_per_m", "squeeze-film damping", 1e3, "mN*s/m"),
     ("response", "sensitivity_db_v_per_pa", "sensitivity at 1 kHz", 1.0, "dB re 1 V/Pa"),
+    ("response", "distributed_sensitivity_db_v_per_pa", "sensitivity at 1 kHz, distributed FE",
+     1.0, "dB re 1 V/Pa"),
+    ("response", "reduction_error_db", "single-mode reduction error at 1 kHz", 1.0, "dB"),
     ("response", "highpass_corner_hz", "electrical high-pass corner", 1.0, "Hz"),
     ("response", "acoustic_corner_hz", "acoustic (vent) corner", 1.0, "Hz"),
     ("response", "resonance_hz", "resonance", 1e-3, "kHz"),
