@@ -134,8 +134,11 @@ class DistributedResponse:
 
     def evaluate(self, frequencies_hz) -> np.ndarray:
         """v/p (V/Pa) of the fine level at other frequencies (no new assembly)."""
+        from threadpoolctl import threadpool_limits
+
         lv = self.details["level"]
-        return np.array([lv.solve(2 * math.pi * f)[0] for f in np.atleast_1d(frequencies_hz)])
+        with threadpool_limits(limits=1):  # small dense solves: threads only add contention
+            return np.array([lv.solve(2 * math.pi * f)[0] for f in np.atleast_1d(frequencies_hz)])
 
     @staticmethod
     def _est(fine, coarse):
