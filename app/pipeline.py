@@ -1,7 +1,8 @@
 """The analysis pipeline: a validated design in, every computed section out.
 
 design ─► mechanics (fem.plate) ─► electrostatics (fem.capacitance) ─► coupled (fem.coupled)
-       ─► damping (fem.squeeze) ─► lumped model, response, noise, distortion ─► audit
+       ─► damping (fem.squeeze) ─► lumped model, response, noise, distortion, with the
+       distributed reference (fem.response) ─► audit
 
 Each stage returns a frozen result object that knows its summary section. A section that is not
 computed is absent from the summary, never filled with placeholders.
