@@ -44,7 +44,7 @@ and their Krylov successors (K⁻¹M)ⁱK⁻¹f, i < ``KRYLOV`` (M-orthogonalise
 therefore exact and the truncation small: ≤ 1e-6 against the full FE plate up to 100 kHz). The film is expanded in the complete
 eigenbasis of its own P2 matrices (∫∇ψ·∇ψ, ∫ψψ), so that the film inverse
 (Y Lap + a Mass)⁻¹ = V(YΛ + a)⁻¹Vᵀ is exact at every frequency at the cost of one dense
-eigendecomposition; each frequency is then one small dense complex solve (row and column
+eigendecomposition (films beyond ``EIG_MAX_DOFS`` DOFs: a sparse LU per frequency instead); each frequency is then one small dense complex solve (row and column
 equilibrated) of the Schur complement on (plate basis, p_b, v, U). Error estimate: Richardson
 between the two levels with order 2 and the plate's size ratio, |Q_f − Q_c|/(1.5² − 1), plus the
 plate's noise floor, plus the change when the plate basis keeps only half of its modes (the
@@ -233,13 +233,13 @@ class _Level:
         self.cr = Phi.T @ plate.point_functional(0.0, 0.0)
         # film in its own eigenbasis: Lap V = Mass V Λ, VᵀMass V = I, so that
         # (Y Lap + a Mass)⁻¹ = V (YΛ + a)⁻¹ Vᵀ exactly
-        if inp.film is not None:
+        if inp.film is not None and fo.use_eig:
             lam, vec = fo.eig()
             self.lam = lam
             self.VtC = vec.T @ self.Cr.T                              # (n_f, N)
             self.Vt1 = vec.T @ fo.ones                                # (n_f,)
         else:
-            self.VtC = np.zeros((0, Phi.shape[1]))
+            self.VtC = None
         self.area_e = fo.area_m2
         self.dofs = plate.n_free + fo.n + 4
         self.ritz = Phi.shape[1]
@@ -251,7 +251,7 @@ class _Level:
         if n_use is not None:
             keep = np.concatenate([np.arange(n_use), np.arange(self.n_modes, self.ritz)])
         Kr, Mr, Gr = (a[np.ix_(keep, keep)] for a in (self.Kr, self.Mr, self.Gr))
-        fr, gr, cr, VtC = self.fr[keep], self.gr[keep], self.cr[keep], self.VtC[:, keep]
+        fr, gr, cr = self.fr[keep], self.gr[keep], self.cr[keep]
         n = keep.size
         jw = 1j * omega
         coef = inp.film
@@ -261,10 +261,17 @@ class _Level:
         cmp = 0j
         if coef is not None:
             cmp = coef.compression(omega)
-            d = 1.0 / (coef.conductance(omega) * self.lam + coef.sink(omega) + cmp)
-            X1 = VtC.T @ (d[:, None] * VtC)          # C F⁻¹ Cᵀ  (N, N)
-            x2 = VtC.T @ (d * self.Vt1)              # C F⁻¹ 1   (N,)
-            s2 = self.Vt1 @ (d * self.Vt1)           # 1ᵀF⁻¹ 1
+            if self.VtC is not None:
+                VtC = self.VtC[:, keep]
+                d = 1.0 / (coef.conductance(omega) * self.lam + coef.sink(omega) + cmp)
+                X1 = VtC.T @ (d[:, None] * VtC)          # C F⁻¹ Cᵀ  (N, N)
+                x2 = VtC.T @ (d * self.Vt1)              # C F⁻¹ 1   (N,)
+                s2 = self.Vt1 @ (d * self.Vt1)           # 1ᵀF⁻¹ 1
+            else:  # large film: sparse LU at this frequency
+                Ct = self.Cr[keep].T
+                Y = self.fo.solve(coef, omega, np.column_stack([Ct, self.fo.ones]))
+                X1, x2 = Ct.T @ Y[:, :-1], Ct.T @ Y[:, -1]
+                s2 = self.fo.ones @ Y[:, -1]
             plate += jw * X1
             pb_col = pb_col - cmp * x2
             back = [cmp * jw * x2, -cmp * cmp * s2 + cmp * self.area_e]

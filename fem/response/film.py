@@ -51,6 +51,10 @@ __all__ = ["FilmCoefficients", "FilmOperator", "film_meshes", "film_layer", "fil
            "hole_inertance"]
 
 
+#: largest film size solved through its dense eigenbasis (beyond: a sparse LU per frequency)
+EIG_MAX_DOFS = 2500
+
+
 def hole_inertance(air_density_kg_m3: float, hole_radius_m: float, length_m: float) -> float:
     """Acoustic mass of one hole, ρ(4t/3 + 16r/(3π))/(πr²) (kg/m⁴), see the module docstring."""
     r = float(hole_radius_m)
@@ -192,13 +196,34 @@ class FilmOperator:
     def impedance_spectrum(self, coef: FilmCoefficients, omegas, shape_q: np.ndarray) -> np.ndarray:
         """Z_m(ω) of :meth:`impedance` at many frequencies, from the film's eigenbasis
         (Lap V = Mass V Λ: (Y Lap + a Mass)⁻¹ = V (YΛ + a)⁻¹ Vᵀ, exact)."""
+        omegas = np.atleast_1d(np.asarray(omegas, float))
+        if not self.use_eig:
+            return np.array([self.impedance(coef, w, shape_q) for w in omegas])
         lam, vec = self.eig()
         vf = vec.T @ self.load(shape_q)
         out = []
-        for w in np.atleast_1d(np.asarray(omegas, float)):
+        for w in omegas:
             d = coef.conductance(w) * lam + coef.sink(w) + coef.compression(w)
             out.append(np.sum(vf * vf / d))
         return np.array(out)
+
+    @property
+    def use_eig(self) -> bool:
+        """Whether the dense eigenbasis is used (up to ``EIG_MAX_DOFS`` DOFs; sparse LU per
+        frequency beyond)."""
+        return self.n <= EIG_MAX_DOFS
+
+    def solve(self, coef: FilmCoefficients, omega: float, rhs: np.ndarray) -> np.ndarray:
+        """(Y Lap + a Mass)⁻¹ rhs (columns), by the eigenbasis or a sparse LU."""
+        if self.use_eig:
+            lam, vec = self.eig()
+            d = 1.0 / (coef.conductance(omega) * lam + coef.sink(omega) + coef.compression(omega))
+            return vec @ (d[:, None] * (vec.T @ rhs)) if rhs.ndim == 2 else vec @ (d * (vec.T @ rhs))
+        import scipy.sparse.linalg as spla
+
+        lu = spla.splu(self.operator(coef, omega).tocsc(), permc_spec="MMD_AT_PLUS_A",
+                       diag_pivot_thresh=0.0, options={"SymmetricMode": True})
+        return lu.solve(np.asarray(rhs, complex))
 
     def impedance(self, coef: FilmCoefficients, omega: float, shape_q: np.ndarray) -> complex:
         """Z_m = ∫Πφ dA / v0 (N·s/m) for the velocity v0·φ with p_b = 0 (φ at the quadrature
