@@ -128,7 +128,7 @@ def film_layer(coef: FilmCoefficients, scale_m: float, f_max_hz: float) -> float
     return 1.0 / math.sqrt(max(k2 * scale_m**2, 1.0))
 
 
-@functools.lru_cache(maxsize=8)
+@functools.lru_cache(maxsize=2)
 def film_operator(shape: str, family: str, layer: float, level: int,
                   length_m: float) -> "FilmOperator":
     """The :class:`FilmOperator` on level ``level`` of :func:`film_meshes` (cached: the lumped
