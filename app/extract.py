@@ -3,7 +3,7 @@ from __future__ import annotations
 
 from diagap.design import Design
 
-__all__ = ["plate_problem"]
+__all__ = ["plate_problem", "film_coefficients", "response_inputs"]
 
 
 def plate_problem(design: Design):
@@ -15,3 +15,41 @@ def plate_problem(design: Design):
                         poisson_ratio=d.poisson_ratio, thickness_m=d.thickness_m,
                         density_kg_m3=d.density_kg_m3, residual_stress_pa=d.residual_stress_pa,
                         edge=d.edge)
+
+
+def film_coefficients(design, air):
+    """The film of ``design`` for :mod:`fem.response` (rarefied viscosity, hole resistance from
+    :func:`fem.film.perforation.perforation`, hole and film inertance)."""
+    from diagap.fem.film.perforation import film_viscosity, perforation
+    from diagap.fem.response.film import FilmCoefficients, hole_inertance
+
+    b = design.backplate
+    g = b.gap_m
+    holes = {}
+    if b.hole_lattice != "none":
+        perf = perforation(b.hole_lattice, b.hole_radius_m, b.hole_pitch_m, b.thickness_m, g,
+                           air.viscosity_pa_s, air.mean_free_path_m)
+        holes = dict(holes_per_m2=perf.holes_per_m2,
+                     hole_resistance_pa_s_per_m3=perf.resistance_pa_s_per_m3,
+                     hole_inertance_kg_per_m4=hole_inertance(air.density_kg_per_m3,
+                                                             b.hole_radius_m, b.thickness_m))
+    return FilmCoefficients(
+        gap_m=g, film_viscosity_pa_s=film_viscosity(air.viscosity_pa_s, air.mean_free_path_m, g),
+        static_pressure_pa=air.static_pressure_pa, air_density_kg_m3=air.density_kg_per_m3,
+        viscosity_pa_s=air.viscosity_pa_s, **holes)
+
+
+def response_inputs(design, density, rim, air):
+    """:class:`fem.response.coupled.ResponseInputs` of ``design`` (film, back volume, vent,
+    baffled-piston front, bias circuit with charge feedback)."""
+    from diagap.fem.response.coupled import ResponseInputs
+
+    b, e, a = design.backplate, design.electrical, design.acoustics
+    return ResponseInputs(
+        problem=plate_problem(design), electrode_size_m=b.electrode_size_m, gap_m=b.gap_m,
+        density=density, rim=rim, film=film_coefficients(design, air),
+        back_volume_m3=a.back_volume_m3, vent_resistance_pa_s_per_m3=a.vent_resistance_pa_s_per_m3,
+        gamma=air.heat_capacity_ratio, static_pressure_pa=a.static_pressure_pa, radiation=True,
+        air_density_kg_m3=air.density_kg_per_m3, sound_speed_m_s=air.speed_of_sound_m_per_s,
+        bias_voltage_v=e.bias_voltage_v, bias_resistance_ohm=e.bias_resistance_ohm,
+        shunt_capacitance_f=e.parasitic_capacitance_f + e.preamp_input_capacitance_f)

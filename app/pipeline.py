@@ -1,7 +1,8 @@
 """The analysis pipeline: a validated design in, every computed section out.
 
 design ─► mechanics (fem.plate) ─► electrostatics (fem.field) ─► coupled (fem.coupling)
-       ─► damping (fem.film) ─► lumped model, response, noise, distortion ─► audit
+       ─► damping (fem.film) ─► lumped model, response, noise, distortion, with the
+       distributed reference (fem.response) ─► audit
 
 Each stage returns a frozen result object that knows its summary section. A section that is not
 computed is absent from the summary, never filled with placeholders; the summary's ``skipped``
@@ -19,7 +20,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from diagap.design import Design
-from diagap.extract import plate_problem
+from diagap.extract import plate_problem, response_inputs
 
 __all__ = ["RunResult", "run_design", "SCHEMA_VERSION"]
 
@@ -213,7 +214,10 @@ def run_design(design: Design, max_memory_b: float | None = None) -> RunResult:
     result.skipped = _skipped(design, result.collapsed)
     if "response" not in result.skipped:
         model = lumped_model(design, mech, es, cp, damp)
-        _stage(result, "response", response_stage, model, result.summary()["uncertainty"])
+        dist = response_inputs(design, es.objects["density"], es.objects["rim"],
+                               damp.objects["air"])
+        _stage(result, "response", response_stage, model, result.summary()["uncertainty"],
+               dist, acc)
     sections = {k: v.to_summary() for k, v in result.sections.items()}
     _stage(result, "audit", audit_design, design, sections)
     return result

@@ -1,8 +1,26 @@
 """The stages of a run: each turns the design and earlier results into one summary section.
 
 Each stage returns a small frozen object with ``to_summary()`` and ``uncertainty`` (relative
-discretisation error per reported FE quantity). Lumped parameters are referred to the centre
-displacement (mode-1 shape normalised to 1 at the centre) throughout.
+discretisation error per reported FE quantity).
+
+One shape for the whole reduction
+---------------------------------
+Every lumped quantity is a Rayleigh–Ritz projection on ONE shape, the static deflection under
+uniform pressure φ_s = w_p/w_p(0) (1 at the centre): stiffness k = φ_sᵀKφ_s = A/c0, mass
+m = φ_sᵀMφ_s, area A = ∫φ_s dA, the capacitance curve C(x) = ∫c(g − xφ_s) dA + C_rim and its
+slope, the electrostatic spring k_e = ½V_b²C''(x_b) (the distributed −∂p_e/∂w at the bias point
+projected on φ_s), the squeeze-film impedance and its noise. Why the static shape: an audio-band
+microphone works far below its first resonance, where the diaphragm takes the static shape, so
+this choice makes the low-frequency compliance (A/k = c0, the exact FE centre compliance) and
+the volume displacement A²/k (the exact FE volume compliance) exact, and with them the 1 kHz
+sensitivity. Its price is the resonance: the Rayleigh quotient of φ_s lies above ω₁ (clamped
+disk, FE "normal": +1.1 % for a pure plate τ = 0, +1.8 % at the demo's τ = TL²/D = 178,
++1.9 % at τ = 3600, quadratic in the shape error), a shift at the top of or above the audio
+band. The mode-1 shape would make the resonance exact but overstate the low-frequency compliance
+by the mode's participation (A₁/k₁ over c0: 1.045 at τ = 0, 1.10 at τ = 178, 1.11 at τ = 3600),
+i.e. +0.4 to +0.9 dB of sensitivity (and THD, and SNR) — an error in the band where the
+microphone is used. The static shape is therefore chosen. The residual model error of
+the reduction is measured against the distributed solve (:mod:`fem.response`) in the audit.
 """
 from __future__ import annotations
 
@@ -15,6 +33,7 @@ import numpy as np
 from diagap.design import Design
 
 __all__ = ["electrostatics_stage", "coupled_stage", "damping_stage", "lumped_model",
+           "electrostatic_spring",
            "response_stage", "Section", "electrode_quadrature"]
 
 #: the c(g) table covers local gaps from GAP_TABLE[0]·g to GAP_TABLE[1]·g: the C(x) curve
@@ -109,7 +128,10 @@ def coupled_stage(design: Design, problem, es: Section, mech) -> Section:
 
     The electrostatic spring is referred to the mode-1 centre coordinate: with the resonance
     f_b at bias and f_0 without (same mesh, vacuum), k_soft = k_eff (f_b/f_0)² and
-    k_e = k_eff − k_soft (constant voltage; = −dF/dx of the electrostatic force)."""
+    k_e = k_eff − k_soft (constant voltage; = −dF/dx of the electrostatic force) — reported as a
+    cross-check. The lumped model's own electrostatic spring is the static-shape one,
+    ½V²C''(x_b) (:func:`electrostatic_spring`); ``softened_stiffness_n_per_m`` and
+    ``electrostatic_stiffness_n_per_m`` are those of the static shape."""
     from diagap.fem.coupling.plate import solve_coupled
 
     b = design.backplate
@@ -124,17 +146,21 @@ def coupled_stage(design: Design, problem, es: Section, mech) -> Section:
         unc = {k: v for k, v in unc.items() if k.startswith("pull_in")}
         return Section(data, unc, {"coupled": res, "no_bias": True})
     if not res.collapsed:
-        k = mech.effective_stiffness_n_per_m
-        soft = k * (res.resonance_at_bias_hz / res.resonance_no_bias_hz) ** 2
-        data["softened_stiffness_n_per_m"] = soft
-        data["electrostatic_stiffness_n_per_m"] = k - soft
-        unc["softened_stiffness_n_per_m"] = 2 * unc.get("resonance_at_bias_hz", 0.0) + \
-            mech.uncertainty.get("effective_stiffness_n_per_m", 0.0)
+        k = mech.static_shape_stiffness_n_per_m
+        k_e = electrostatic_spring(design, es, res.bias_center_deflection_m or 0.0)
+        data["softened_stiffness_n_per_m"] = k - k_e
+        data["electrostatic_stiffness_n_per_m"] = k_e
+        data["mode_1_electrostatic_stiffness_n_per_m"] = mech.effective_stiffness_n_per_m * (
+            1.0 - (res.resonance_at_bias_hz / res.resonance_no_bias_hz) ** 2)
+        unc["softened_stiffness_n_per_m"] = (
+            mech.uncertainty.get("static_shape_stiffness_n_per_m", 0.0)
+            + abs(k_e / (k - k_e)) * (es.uncertainty.get("capacitance_slope_f_per_m", 0.0)
+                                      + unc.get("bias_center_deflection_m", 0.0)))
     return Section(data, unc, {"coupled": res})
 
 
 def damping_stage(design: Design, mech, resonance_hz: float) -> Section:
-    """Squeeze-film damping and film stiffness through the perforation, on the mode-1 shape."""
+    """Squeeze-film damping and film stiffness through the perforation, on the static shape."""
     from diagap.fem.air import air_properties
     from diagap.fem.film.squeeze import squeeze_film
 
@@ -145,11 +171,11 @@ def damping_stage(design: Design, mech, resonance_hz: float) -> Section:
     air = air_properties(temperature_k, pressure_pa)
     freqs = np.logspace(0, 5, 51)
     res = squeeze_film(d.shape, b.electrode_size_m, b.gap_m, b.hole_radius_m, b.hole_pitch_m,
-                       b.hole_lattice, b.thickness_m, air, lambda x, y: mech.mode_shape(1, x, y),
+                       b.hole_lattice, b.thickness_m, air, mech.static_shape,
                        freqs, design.analysis.accuracy)
     data = res.to_summary(resonance_hz=resonance_hz)
     thermal = mechanical_thermal_noise(res.frequencies_hz, res.damping_spectrum_n_s_per_m,
-                                       temperature_k, mech.effective_area_m2)
+                                       temperature_k, mech.static_shape_area_m2)
     data["mechanical_noise_dba_spl"] = thermal.a_weighted_spl_db()
     data["force_noise_n_per_rthz"] = float(np.sqrt(thermal.force_psd_n2_per_hz[0]))
     if design.acoustics is None:
@@ -164,6 +190,52 @@ def damping_stage(design: Design, mech, resonance_hz: float) -> Section:
     return Section(data, unc, {"squeeze": res, "air": air})
 
 
+def _curve_points(design: Design, es: Section) -> np.ndarray:
+    """Centre displacements (m) of the C(x) samples: every local gap stays inside the c(g) table
+    and the rim model's range."""
+    g = design.backplate.gap_m
+    pm, pr = max(es.objects["phi_max"], 1e-9), max(es.objects["phi_rim"], 1e-9)
+    x_hi = 0.999 * min(NONLINEAR_TRAVEL * g, (1 - GAP_TABLE[0]) * g / pm, RIM_SPAN * g / pr)
+    x_lo = -0.999 * min(0.4 * g, (GAP_TABLE[1] - 1) * g / pm, RIM_SPAN * g / pr)
+    return np.linspace(x_lo, x_hi, 111)
+
+
+def electrostatic_spring(design: Design, es: Section, x_b_m: float) -> float:
+    """Constant-voltage electrostatic spring ½V_b²C''(x_b) on the static shape (N/m), C''
+    from the elastance spline of :class:`lumped.model.CapacitanceCurve` through C(x)."""
+    from diagap.lumped.model import CapacitanceCurve
+
+    xs = _curve_points(design, es)
+    curve = CapacitanceCurve(xs, es.objects["device"](xs))
+    return float(0.5 * design.electrical.bias_voltage_v**2 * curve.curvature(x_b_m))
+
+
+def _piston_radius(design: Design) -> float:
+    """Radius of the disk of the diaphragm's area: the baffled-piston front load (m)."""
+    d = design.diaphragm
+    return d.size_m if d.shape == "circle" else d.size_m / math.sqrt(math.pi)
+
+
+def _film_table(design: Design, mech, air, sq):
+    """b(f), k_film(f) of the film on the static shape, with the air mass of the film and the
+    holes (:mod:`fem.response.film`, the film of the distributed solve on its finer level)."""
+    from diagap.extract import film_coefficients
+    from diagap.fem.response.coupled import F_MAX_HZ, FILM_FAMILY, FILM_LEVELS
+    from diagap.fem.response.film import film_layer, film_operator
+    from diagap.lumped.model import FilmTable
+
+    b, d = design.backplate, design.diaphragm
+    coef = film_coefficients(design, air)
+    f = np.asarray(sq.frequencies_hz, float)
+    scale = b.electrode_size_m if d.shape == "circle" else 0.5 * b.electrode_size_m
+    layer = film_layer(coef, scale, F_MAX_HZ)
+    fo = film_operator(d.shape, FILM_FAMILY[design.analysis.accuracy], layer, FILM_LEVELS[1],
+                       scale)
+    z = fo.impedance_spectrum(coef, 2 * np.pi * f, mech.static_shape(fo.xq_m, fo.yq_m))
+    return FilmTable(tuple(f.tolist()), tuple(z.real.tolist()),
+                     tuple((-2 * np.pi * f * z.imag).tolist()))
+
+
 def lumped_model(design: Design, mech, es: Section, cp: Section, damp: Section):
     """The one-degree-of-freedom model at the bias point (see :mod:`diagap.lumped.model`)."""
     from diagap.lumped.model import FilmTable, LumpedModel
@@ -174,21 +246,15 @@ def lumped_model(design: Design, mech, es: Section, cp: Section, damp: Section):
     sq = damp.objects["squeeze"]
     g = design.backplate.gap_m
     x_b = res.bias_center_deflection_m or 0.0
-    k = mech.effective_stiffness_n_per_m
-    ratio = (res.resonance_at_bias_hz / res.resonance_no_bias_hz) ** 2
-    k_e = k * (1.0 - ratio)
-    # keep every local gap inside the c(g) table and the rim model's range
-    pm, pr = max(es.objects["phi_max"], 1e-9), max(es.objects["phi_rim"], 1e-9)
-    x_hi = 0.999 * min(NONLINEAR_TRAVEL * g, (1 - GAP_TABLE[0]) * g / pm, RIM_SPAN * g / pr)
-    x_lo = -0.999 * min(0.4 * g, (GAP_TABLE[1] - 1) * g / pm, RIM_SPAN * g / pr)
-    xs = np.linspace(x_lo, x_hi, 111)
+    k = mech.static_shape_stiffness_n_per_m
+    k_e = electrostatic_spring(design, es, x_b)
+    xs = _curve_points(design, es)
     curve = tuple((float(x), float(dev(x))) for x in xs)
     e, ac = design.electrical, design.acoustics
-    film = FilmTable(tuple(sq.frequencies_hz.tolist()), tuple(sq.damping_spectrum_n_s_per_m.tolist()),
-                     tuple(sq.film_stiffness_n_per_m.tolist()))
+    film = _film_table(design, mech, air, sq)
     return LumpedModel(
-        stiffness_n_per_m=k, electrostatic_stiffness_n_per_m=k_e, mass_kg=mech.effective_mass_kg,
-        area_m2=mech.effective_area_m2, damping_n_s_per_m=sq.damping_n_s_per_m,
+        stiffness_n_per_m=k, electrostatic_stiffness_n_per_m=k_e, mass_kg=mech.static_shape_mass_kg,
+        area_m2=mech.static_shape_area_m2, damping_n_s_per_m=sq.damping_n_s_per_m,
         back_volume_m3=ac.back_volume_m3, vent_resistance_pa_s_per_m3=ac.vent_resistance_pa_s_per_m3,
         rest_capacitance_f=float(dev(x_b)), capacitance_slope_f_per_m=float(dev.slope(x_b)),
         bias_resistance_ohm=e.bias_resistance_ohm, bias_voltage_v=e.bias_voltage_v, gap_m=g,
@@ -196,7 +262,8 @@ def lumped_model(design: Design, mech, es: Section, cp: Section, damp: Section):
         preamp_input_capacitance_f=e.preamp_input_capacitance_f, capacitance_curve=curve,
         film_damping=film, bias_displacement_m=x_b, air_density_kg_m3=air.density_kg_per_m3,
         sound_speed_m_s=air.speed_of_sound_m_per_s, static_pressure_pa=ac.static_pressure_pa,
-        gamma=air.heat_capacity_ratio, temperature_k=ac.temperature_k)
+        gamma=air.heat_capacity_ratio, temperature_k=ac.temperature_k,
+        radiation_radius_m=_piston_radius(design))
 
 
 def _response_uncertainty(unc: dict) -> dict:
@@ -207,13 +274,76 @@ def _response_uncertainty(unc: dict) -> dict:
         return abs(float(unc.get(key, 0.0)))
 
     sens = (u("electrostatics.capacitance_slope_f_per_m") + u("electrostatics.rest_capacitance_f")
-            + u("mechanics.effective_area_m2") + u("coupled.softened_stiffness_n_per_m"))
-    res = 0.5 * (u("coupled.softened_stiffness_n_per_m") + u("mechanics.effective_mass_kg"))
+            + u("mechanics.static_shape_area_m2") + u("coupled.softened_stiffness_n_per_m"))
+    res = 0.5 * (u("coupled.softened_stiffness_n_per_m") + u("mechanics.static_shape_mass_kg"))
     return {"sensitivity_v_per_pa": sens, "resonance_hz": res}
 
 
-def response_stage(model, fe_uncertainty: dict | None = None) -> Section:
-    """Frequency response, noise (mechanical-thermal, bias resistor, vent) and distortion."""
+#: frequencies of the distributed reference solve (Hz): 30 log-spaced from 10 Hz to 100 kHz and
+#: the 1 kHz reference
+DISTRIBUTED_FREQUENCIES_HZ = np.sort(np.append(np.logspace(1.0, 5.0, 30), 1000.0))
+
+
+def _voltage_peak(freqs, evaluate):
+    """(f, |H|) of the maximum of |H(f)| sampled at ``freqs``, refined by a parabola in
+    (log f, dB) through a local grid; None when the maximum is at the end of the range."""
+    h = np.abs(evaluate(freqs))
+    i = int(np.argmax(h))
+    if i == 0 or i == len(freqs) - 1:
+        return None
+    for _ in range(2):
+        fl = np.geomspace(freqs[max(i - 1, 0)], freqs[min(i + 1, len(freqs) - 1)], 9)
+        hl = np.abs(evaluate(fl))
+        j = int(np.clip(np.argmax(hl), 1, 7))
+        freqs, i = fl, j
+    x, y = np.log(freqs[i - 1:i + 2]), 20 * np.log10(np.abs(evaluate(freqs[i - 1:i + 2])))
+    a, b, c = np.polyfit(x, y, 2)
+    xv = -b / (2 * a) if a < 0 else x[1]
+    return float(np.exp(xv)), float(10 ** (np.polyval([a, b, c], xv) / 20))
+
+
+def distributed_section(model, resp, inputs, accuracy: str) -> tuple[dict, dict, object]:
+    """Lumped vs distributed: the distributed solve (:mod:`fem.response`) at
+    ``DISTRIBUTED_FREQUENCIES_HZ``, its 1 kHz sensitivity and voltage peak, and the reduction
+    error of the lumped model (lumped − distributed, dB). Returns (data, uncertainty, result)."""
+    from diagap.fem.response.coupled import distributed_response
+    from diagap.lumped.response import REFERENCE_FREQUENCY_HZ, frequency_response
+
+    f = DISTRIBUTED_FREQUENCIES_HZ
+    res = distributed_response(inputs, f, accuracy)
+    i1 = int(np.argmin(np.abs(f - REFERENCE_FREQUENCY_HZ)))
+    s_d = abs(res.voltage_per_pa[i1])
+    err = res.voltage_rel_error
+    red_db = float(resp.sensitivity_db_v_per_pa - 20 * math.log10(s_d))
+    data = {
+        "distributed_sensitivity_db_v_per_pa": 20 * math.log10(s_d),
+        "reduction_error_db": red_db,
+        "distributed_dofs": list(res.dofs),
+        "distributed_response": [[float(a), float(20 * math.log10(abs(b))),
+                                  float(np.degrees(np.angle(b))), float(e)]
+                                 for a, b, e in zip(f, res.voltage_per_pa, err)],
+    }
+    unc = {"distributed_sensitivity_v_per_pa": float(err[i1])}
+    pk_d = _voltage_peak(f, res.evaluate)
+    pk_l = _voltage_peak(resp.response.frequency_hz,
+                         lambda x: frequency_response(model, np.atleast_1d(x)).voltage_per_pa)
+    if pk_d and pk_l:
+        data.update({"distributed_peak_frequency_hz": pk_d[0],
+                     "distributed_peak_db_v_per_pa": 20 * math.log10(pk_d[1]),
+                     "lumped_peak_frequency_hz": pk_l[0],
+                     "lumped_peak_db_v_per_pa": 20 * math.log10(pk_l[1]),
+                     "reduction_error_peak_frequency": pk_l[0] / pk_d[0] - 1.0,
+                     "reduction_error_peak_db": 20 * math.log10(pk_l[1] / pk_d[1])})
+        unc["distributed_peak_frequency_hz"] = float(np.max(err))
+    return data, unc, res
+
+
+def response_stage(model, fe_uncertainty: dict | None = None, distributed=None,
+                   accuracy: str = "normal") -> Section:
+    """Frequency response, noise (mechanical-thermal, bias resistor, vent) and distortion; with
+    ``distributed`` (a :class:`fem.response.coupled.ResponseInputs`) also the distributed
+    reference and the reduction error, which is added to the reported uncertainty of the
+    sensitivity, the resonance and the noise (relative, on the pressure amplitude)."""
     from diagap.lumped.distortion import distortion_vs_spl
     from diagap.lumped.noise import a_weighted_level_db
     from diagap.lumped.response import (analyse_response, output_noise_psd_damping, output_noise_psd_resistor,
@@ -240,5 +370,16 @@ def response_stage(model, fe_uncertainty: dict | None = None) -> Section:
     data.update(dist.to_summary())
     data["thd_vs_spl"] = [[float(a), float(b)] for a, b in zip(dist.spl_db, dist.thd)]
     unc = _response_uncertainty(fe_uncertainty or {})
-    return Section(data, unc, {"response": resp, "distortion": dist, "model": model,
-                              "noise_parts": parts, "noise_input_psd": p_in})
+    objects = {"response": resp, "distortion": dist, "model": model, "noise_parts": parts,
+               "noise_input_psd": p_in}
+    if distributed is not None:
+        d_data, d_unc, d_res = distributed_section(model, resp, distributed, accuracy)
+        data.update(d_data)
+        unc.update(d_unc)
+        model_err = abs(10 ** (d_data["reduction_error_db"] / 20) - 1.0)
+        unc["sensitivity_v_per_pa"] += model_err + d_unc["distributed_sensitivity_v_per_pa"]
+        unc["noise_dba_spl"] = unc["sensitivity_v_per_pa"]
+        if "reduction_error_peak_frequency" in d_data:
+            unc["resonance_hz"] += abs(d_data["reduction_error_peak_frequency"])
+        objects["distributed"] = d_res
+    return Section(data, unc, objects)

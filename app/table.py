@@ -17,7 +17,8 @@ __all__ = ["summary_table", "audit_lines", "absent_reason", "UNCERTAINTY_ALIAS",
 
 #: results whose error estimate is filed under another key
 UNCERTAINTY_ALIAS = {"distinct_frequencies_hz": "natural_frequencies_hz",
-                     "sensitivity_db_v_per_pa": "sensitivity_v_per_pa"}
+                     "sensitivity_db_v_per_pa": "sensitivity_v_per_pa",
+                     "distributed_sensitivity_db_v_per_pa": "distributed_sensitivity_v_per_pa"}
 
 #: printed at the end of every ``run`` and ``sweep`` output
 CAUTION_LINE = ("Caution: bias voltages can be hazardous; diagap's results are design estimates "
@@ -49,6 +50,8 @@ ROWS = [
     ("damping", "damping_n_s_per_m"),
     ("damping", "cutoff_frequency_hz"),
     ("response", "sensitivity_db_v_per_pa"),
+    ("response", "distributed_sensitivity_db_v_per_pa"),
+    ("response", "reduction_error_db"),
     ("response", "highpass_corner_hz"),
     ("response", "acoustic_corner_hz"),
     ("response", "resonance_hz"),

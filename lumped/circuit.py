@@ -15,7 +15,9 @@ Circuit (front node ``p`` driven by the sound pressure, back-volume node ``b``, 
 
 Equations (phasors e^{jωt}; x = U/(jωA)):
 
-* diaphragm branch: p − p_b = Z_d·U − (Γ/A)·v − f_n/A, with
+* diaphragm branch: p − p_b = (Z_d + Z_rad)·U − (Γ/A)·v − f_n/A, Z_rad the front radiation
+  impedance (baffled piston, Rayleigh; acoustic mass 8ρ/(3π²a) at ka ≪ 1) when the model has
+  a ``radiation_radius_m``, with
   Z_d = jωM_a + b(ω)/A² + (k + k_film(ω) − k_e)/(jωA²);
   this is m ẍ + b ẋ + (k + k_film)x = A(p − p_b) + k_e x + Γ v + f_n divided by A, the
   linearised force δF = Γδv + k_e δx of :mod:`diagap.lumped.model`;
@@ -27,7 +29,7 @@ Equations (phasors e^{jωt}; x = U/(jωA)):
 with noise sources f_n (force on the diaphragm), e_v (pressure in series with the vent) and e_R
 (voltage in series with R_bias).  Eliminating p_b and v gives the total branch impedance
 
-    Z = Z_d + 1/Y_b + (Γ/A)²/Y_e,   Y_b = jωC_bv + 1/R_v,   Y_e = 1/R + jωC_node,
+    Z = Z_d + Z_rad + 1/Y_b + (Γ/A)²/Y_e,   Y_b = jωC_bv + 1/R_v,   Y_e = 1/R + jωC_node,
 
     U = [p·H_v − e_v/(R_v Y_b) + f_n/A + (Γ/A)·e_R/(R·Y_e)] / Z,   H_v = jωR_vC_bv/(1 + jωR_vC_bv),
     v = [e_R/R − (Γ/A)·U] / Y_e.
@@ -166,7 +168,7 @@ def solve_circuit(model: LumpedModel, freqs_hz) -> CircuitSolution:
     y_b = 1j * w * c_bv + 1.0 / r_v
     y_e = 1.0 / model.bias_resistance_ohm + 1j * w * model.node_capacitance_f
     g = model.transduction_n_per_v / a
-    z = z_d + 1.0 / y_b + g**2 / y_e
+    z = z_d + model.radiation_impedance(f) + 1.0 / y_b + g**2 / y_e
     h_v = 1j * w * r_v * c_bv / (1.0 + 1j * w * r_v * c_bv)
     return CircuitSolution(f, z, y_e, h_v, y_b, model)
 

@@ -179,6 +179,8 @@ class LumpedModel:
     static_pressure_pa, gamma : p0 and the ratio of specific heats; the back volume's adiabatic
         compliance is V/(γ p0) (Beranek, *Acoustics*, 1954, ch. 5 [from memory]).
     temperature_k : temperature for thermal noise (K).
+    radiation_radius_m : radius a of the baffled piston whose radiation impedance loads the
+        front of the diaphragm (Rayleigh; acoustic mass 8ρ/(3π²a) at ka ≪ 1); 0: no load.
     """
 
     stiffness_n_per_m: float
@@ -203,6 +205,7 @@ class LumpedModel:
     static_pressure_pa: float = STANDARD_PRESSURE_PA
     gamma: float = 1.4
     temperature_k: float = ROOM_TEMPERATURE_K
+    radiation_radius_m: float = 0.0
 
     def __post_init__(self):
         pos = ("stiffness_n_per_m", "mass_kg", "area_m2", "back_volume_m3",
@@ -214,7 +217,7 @@ class LumpedModel:
             _need(isinstance(v, (int, float)) and math.isfinite(v) and v > 0, name, v,
                   "a finite number > 0")
         for name in ("damping_n_s_per_m", "parasitic_capacitance_f",
-                     "preamp_input_capacitance_f"):
+                     "preamp_input_capacitance_f", "radiation_radius_m"):
             v = getattr(self, name)
             _need(isinstance(v, (int, float)) and math.isfinite(v) and v >= 0, name, v,
                   "a finite number >= 0")
@@ -267,6 +270,17 @@ class LumpedModel:
     def electrical_time_constant_s(self) -> float:
         """τ = R_bias·(C0 + C_p + C_in) (s)."""
         return self.bias_resistance_ohm * self.node_capacitance_f
+
+    def radiation_impedance(self, f_hz) -> np.ndarray:
+        """Front radiation impedance (Pa·s/m³) of the baffled piston of radius
+        ``radiation_radius_m`` (zeros without one)."""
+        f = np.asarray(f_hz, float)
+        if self.radiation_radius_m == 0.0:
+            return np.zeros(f.shape, complex)
+        from diagap.fem.response.coupled import piston_radiation
+
+        return piston_radiation(2.0 * np.pi * f, self.radiation_radius_m, self.air_density_kg_m3,
+                                self.sound_speed_m_s)
 
     def film(self, f_hz):
         """(b(f), k_film(f)) as arrays: the film table, or (damping_n_s_per_m, 0)."""

@@ -218,3 +218,22 @@ def test_session_uses_a_fresh_temporary_cache(diagap_cache_dir):
     assert proc.returncode == 0, proc.stderr
     assert proc.stdout.strip() == diagap_cache_dir
     assert os.environ["DIAGAP_CACHE_DIR"] == diagap_cache_dir
+
+
+def test_every_package_folder_is_installed():
+    # a folder with an __init__.py that pyproject.toml does not list would work in an editable
+    # install and be missing from a regular one
+    try:
+        import tomllib
+    except ModuleNotFoundError:  # Python 3.10
+        import tomli as tomllib
+    listed = set(tomllib.loads((REPO / "pyproject.toml").read_text(encoding="utf-8"))
+                 ["tool"]["setuptools"]["packages"])
+    rooms = {"app": "diagap", "fem": "diagap.fem", "lumped": "diagap.lumped",
+             "meshes": "diagap.meshes"}
+    found = set()
+    for folder, name in rooms.items():
+        for init in (REPO / folder).rglob("__init__.py"):
+            rel = init.parent.relative_to(REPO / folder).parts
+            found.add(".".join((name, *rel)))
+    assert found == listed, (found - listed, listed - found)

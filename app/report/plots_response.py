@@ -21,7 +21,8 @@ from diagap.fem.constants import P_REF_PA
 from diagap.names import display_text, lookup
 from diagap.report.plots import GREYS, LINES, MARKERS, Plot, new_figure, prefixed
 
-__all__ = ["response_plots", "draw_squeeze", "draw_response", "draw_noise", "draw_thd"]
+__all__ = ["response_plots", "draw_squeeze", "draw_response", "draw_noise", "draw_thd",
+           "reduction_words"]
 
 _NOISE_LABELS = {"mechanical_thermal": "mechanical-thermal (film damping)",
                  "bias_resistor": "bias resistor", "vent": "vent (leak) resistance"}
@@ -79,13 +80,38 @@ def draw_squeeze(sq, resonance_hz: float | None):
     return fig
 
 
-def draw_response(resp):
-    """Magnitude and phase of V_out/p with the corners and the resonance."""
+def reduction_words(d: dict) -> str:
+    """The single-mode reduction error in words (empty without a distributed solve)."""
+    if "reduction_error_db" not in d:
+        return ""
+    out = (f" The squares are the distributed finite-element solve (diaphragm, air film with "
+           f"holes, back volume, radiation and electrical node solved together, no modal "
+           f"reduction): at 1 kHz the lumped model differs from it by "
+           f"{d['reduction_error_db']:+.3f} dB")
+    if "reduction_error_peak_frequency" in d:
+        out += (f"; its response peak lies {100 * d['reduction_error_peak_frequency']:+.1f} % "
+                f"in frequency and {d['reduction_error_peak_db']:+.2f} dB in height from the "
+                f"distributed one ({_hz(d['distributed_peak_frequency_hz'])})")
+    return out + "."
+
+
+def draw_response(resp, distributed=None):
+    """Magnitude and phase of V_out/p with the corners and the resonance; ``distributed``
+    ([[f_hz, dB, phase_deg, rel_err], ...]) overlays the distributed FE solve."""
     r = resp.response
     f = np.asarray(r.frequency_hz, float)
     fig, (a1, a2) = new_figure(7.6, 5.4, nrows=2, sharex=True, height_ratios=[1.6, 1],
                                margins_in=(0.9, 0.25, 0.6, 0.2), hspace=0.08)
-    a1.semilogx(f, r.magnitude_db_v_per_pa, color="black", lw=1.8, label="|V_out / p|")
+    a1.semilogx(f, r.magnitude_db_v_per_pa, color="black", lw=1.8,
+                label="|V_out / p|, lumped" if distributed else "|V_out / p|")
+    if distributed:
+        d = np.asarray(distributed, float)
+        ph = np.degrees(np.unwrap(np.radians(d[:, 2])))
+        ref = np.interp(np.log(d[0, 0]), np.log(f), r.phase_deg)
+        ph += 360.0 * np.round((ref - ph[0]) / 360.0)
+        a1.semilogx(d[:, 0], d[:, 1], ls="none", marker="s", ms=4, mfc="none", color="tab:blue",
+                    label="distributed FE (no modal reduction)")
+        a2.semilogx(d[:, 0], ph, ls="none", marker="s", ms=4, mfc="none", color="tab:blue")
     a1.plot([1000.0], [resp.sensitivity_db_v_per_pa], ls="none", marker="o", ms=7, mfc="white",
             color="black", label=f"1 kHz: {resp.sensitivity_db_v_per_pa:.2f} dB re 1 V/Pa")
     a2.semilogx(f, r.phase_deg, color="black", lw=1.5)
@@ -186,7 +212,7 @@ def response_plots(design, damp, resp) -> list[Plot]:
         out.append(Plot(
             "squeeze_film", "damping", "Squeeze-film damping and stiffness",
             f"Force per centre velocity (damping) and per centre displacement (stiffness) of the "
-            f"air film on the mode-1 shape; below the cut-off "
+            f"air film on the static deflection shape; below the cut-off "
             f"({display_text('damping.cutoff_frequency_hz', sq.cutoff_frequency_hz)}) the "
             f"film acts as a damper, above it as a spring. Low-frequency damping "
             f"{display_text('damping.damping_n_s_per_m', sq.damping_n_s_per_m, 5)}.",
@@ -194,13 +220,13 @@ def response_plots(design, damp, resp) -> list[Plot]:
     if resp is None:
         return out
     r = resp.objects["response"]
+    d = resp.data
     out.append(Plot(
         "response", "response", "Frequency response",
         f"Output voltage per pascal of the lumped model at the bias point (bias resistor, "
-        f"parasitic and preamp input capacitance, back volume and vent included). "
-        f"Sensitivity at 1 kHz: {r.sensitivity_db_v_per_pa:.2f} dB re 1 V/Pa.",
-        lambda: draw_response(r)))
-    d = resp.data
+        f"parasitic and preamp input capacitance, back volume and vent, front radiation mass "
+        f"included). Sensitivity at 1 kHz: {r.sensitivity_db_v_per_pa:.2f} dB re 1 V/Pa."
+        + reduction_words(d), lambda: draw_response(r, d.get("distributed_response"))))
     out.append(Plot(
         "noise", "response", "Noise",
         f"Input-referred noise density and its sources. A-weighted noise floor over 20 Hz – "

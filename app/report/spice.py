@@ -79,6 +79,10 @@ def _header(model: LumpedModel, zs: float) -> list[str]:
     if model.film_damping is not None:
         lines.append("* NOTE: the frequency-dependent film damping b(f), k_film(f) is not "
                      "represented; b = damping_n_s_per_m, k_film = 0.")
+    if model.radiation_radius_m > 0:
+        lines.append("* NOTE: the front radiation load is its low-ka acoustic mass 8*rho/(3*pi^2*a) "
+                     "(Lrad); the radiation resistance and the mass's ka dependence are not "
+                     "represented.")
     return lines
 
 
@@ -88,8 +92,12 @@ def _subckt(model: LumpedModel, zs: float) -> list[str]:
     ke_ratio = model.electrostatic_stiffness_n_per_m / model.stiffness_n_per_m
     lines = [f".subckt {SUBCKT_NAME} p out bias",
              "* diaphragm branch, front node p to back-volume node nb",
-             "Vsense p n1 DC 0",
-             f"Lm n1 n2 {_num(zs * el.mass_kg_per_m4)}"]
+             "Vsense p n1 DC 0"]
+    if model.radiation_radius_m > 0:
+        m_rad = 8.0 * model.air_density_kg_m3 / (3.0 * math.pi**2 * model.radiation_radius_m)
+        lines += [f"Lrad n1 n1r {_num(zs * m_rad)}", f"Lm n1r n2 {_num(zs * el.mass_kg_per_m4)}"]
+    else:
+        lines.append(f"Lm n1 n2 {_num(zs * el.mass_kg_per_m4)}")
     if el.resistance_pa_s_per_m3 > 0:
         lines.append(f"Rm n2 n3 {_num(zs * el.resistance_pa_s_per_m3)}")
     else:

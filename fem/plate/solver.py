@@ -119,7 +119,8 @@ class PlateProblem:
 
 
 QUANTITIES = ("center_compliance_m_per_pa", "volume_compliance_m3_per_pa",
-              "effective_mass_kg", "effective_stiffness_n_per_m", "effective_area_m2")
+              "effective_mass_kg", "effective_stiffness_n_per_m", "effective_area_m2",
+              "static_shape_mass_kg", "static_shape_stiffness_n_per_m", "static_shape_area_m2")
 
 
 @dataclass(frozen=True)
@@ -138,7 +139,9 @@ class PlateResult:
     """Diaphragm response on the finest mesh of an accuracy setting, with error estimates.
 
     Lumped quantities refer to the centre displacement with the mode-1 shape φ(centre) = 1:
-    m_eff = ∫ρ_s φ² dA, k_eff = ω₁² m_eff, A_eff = ∫φ dA. ``uncertainty`` holds the estimated
+    m_eff = ∫ρ_s φ² dA, k_eff = ω₁² m_eff, A_eff = ∫φ dA; ``static_shape_*`` are the same
+    Rayleigh–Ritz quantities for the static deflection shape φ_s = w/w(0) under uniform pressure
+    (k_s = φ_sᵀKφ_s = A_s/c0, so A_s/k_s is the exact centre compliance c0). ``uncertainty`` holds the estimated
     relative error of each quantity (key ``natural_frequencies_hz`` is the largest over the
     modes, ``natural_frequency_<i>_hz`` per mode). Mode indices are 1-based and count
     degenerate modes (e.g. the two (1,0) modes of a disk) separately.
@@ -150,6 +153,9 @@ class PlateResult:
     effective_mass_kg: float
     effective_stiffness_n_per_m: float
     effective_area_m2: float
+    static_shape_mass_kg: float
+    static_shape_stiffness_n_per_m: float
+    static_shape_area_m2: float
     uncertainty: dict
     model: str
     accuracy: str
@@ -287,7 +293,13 @@ def measure(system, problem: PlateProblem, n_modes: int) -> _Level:
             modes[:, i] = v / np.max(np.abs(samples))
     phi = modes[:, 0]
     m_eff = float(phi @ (system.M @ phi))
+    c0 = system.center_deflection(static)
+    phi_s = static / c0  # static shape, 1 at the centre (Rayleigh–Ritz: A_s/k_s = c0 exactly)
+    a_s = float(unit @ phi_s)
     values = {
+        "static_shape_mass_kg": float(phi_s @ (system.M @ phi_s)),
+        "static_shape_stiffness_n_per_m": a_s / c0,
+        "static_shape_area_m2": a_s,
         "center_compliance_m_per_pa": system.center_deflection(static),
         "volume_compliance_m3_per_pa": float(unit @ static),
         "effective_mass_kg": m_eff,

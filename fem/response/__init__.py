@@ -1,0 +1,1 @@
+"""Distributed frequency response: the reference for the lumped model (no modal reduction)."""
