@@ -112,7 +112,7 @@ class VonKarmanSystem:
         self.dx = np.asarray(basis.dx)
         _, g, _ = basis.elem.fields(basis.mapping, basis.X, basis.tind)
         self.ga = g  # (2, 21, nel, nq) Argyris gradients (ξ)
-        self.value = np.asarray([basis.basis[i][0].value for i in range(21)])
+        self.value = np.asarray([np.asarray(basis.basis[i][0]) for i in range(21)])
         pb = CellBasis(plate.mesh, ElementTriP2(), quadrature=(basis.X, basis.W))
         self.gp = np.stack([np.stack([np.asarray(pb.basis[i][0].grad[a]) for i in range(6)])
                             for a in range(2)])  # (2, 6, nel, nq)
@@ -239,6 +239,11 @@ class VonKarmanSystem:
         return res, H
 
     # -- Newton ------------------------------------------------------------------------------
+    # The tangent is factorised at the start of a solve and reused (chord iterations) while the
+    # iteration contracts by at least CONTRACTION per step; otherwise it is refactorised at the
+    # current iterate (full Newton). The factorisation is kept for the next load step.
+    CONTRACTION = 0.25
+
     @staticmethod
     def factor(H):
         try:
@@ -247,45 +252,79 @@ class VonKarmanSystem:
         except RuntimeError:
             return spla.splu(H)
 
-    def _converged(self, dx: np.ndarray, x: np.ndarray, tol: float) -> bool:
-        q, _ = self.split(x)
-        dq, _ = self.split(dx)
-        scale = max(float(np.max(np.abs(q))), 1e-12)
-        return float(np.max(np.abs(dq))) <= tol * scale
+    def _refactor(self, x, P):
+        _, H = self._residual_tangent(x, P)
+        self._lu = self.factor(H)
+        self._lu_f = None
+        return self._lu
 
-    def solve_pressure(self, P: float, x0: np.ndarray, tol: float = 1e-10, maxit: int = 30):
+    def _size(self, x: np.ndarray) -> float:
+        return float(np.max(np.abs(self.split(x)[0])))
+
+    def _step(self, x, P, step_fn, state):
+        """One chord/Newton step; step_fn(lu) → increment. Refactors on slow contraction."""
+        if getattr(self, "_lu", None) is None or state["fresh_needed"]:
+            self._refactor(x, P)
+            state["fresh"] = True
+        dx = step_fn(self._lu)
+        nd = self._size(dx)
+        prev = state.get("prev")
+        if not state["fresh"] and prev is not None and not nd <= self.CONTRACTION * prev:
+            self._refactor(x, P)
+            dx = step_fn(self._lu)
+            nd = self._size(dx)
+        state["fresh"] = False
+        state["fresh_needed"] = False
+        state["prev"] = nd
+        return dx, nd
+
+    def solve_pressure(self, P: float, x0: np.ndarray, tol: float = 1e-9, maxit: int = 40):
         """Equilibrium at the scaled uniform pressure P from the start x0; returns (x, lu)."""
         x = x0.copy()
+        state = {"fresh_needed": False, "fresh": False}
         for _ in range(maxit):
-            r, H = self._residual_tangent(x, P)
-            lu = self.factor(H)
-            dx = -lu.solve(r)
-            if not np.all(np.isfinite(dx)):
+            r = self.residual(x, P)
+            dx, nd = self._step(x, P, lambda lu: -lu.solve(r), state)
+            if not np.isfinite(nd):
                 break
             x += dx
-            if self._converged(dx, x, tol):
-                return x, lu
+            if nd <= tol * max(self._size(x), 1e-12):
+                return x, self._lu
+        self._lu = None
         raise NewtonError(f"no convergence at scaled pressure {P:.6g}")
 
-    def solve_deflection(self, W0: float, x0: np.ndarray, P0: float, tol: float = 1e-10,
-                         maxit: int = 30):
+    def _f_solve(self, lu, f):
+        if getattr(self, "_lu_f", None) is None:
+            self._lu_f = lu.solve(f)
+        return self._lu_f
+
+    def solve_deflection(self, W0: float, x0: np.ndarray, P0: float, tol: float = 1e-9,
+                         maxit: int = 40):
         """Equilibrium with the centre deflection prescribed (W0 = w0/h), the uniform pressure
         an unknown (bordered Newton; passes limit points of P(W0)). Returns (x, P, lu)."""
         x, P = x0.copy(), float(P0)
         f = np.concatenate([self.unit_load, np.zeros(self.n - self.nq_dofs)])
         c = np.concatenate([self.center, np.zeros(self.n - self.nq_dofs)])
-        for _ in range(maxit):
-            r, H = self._residual_tangent(x, P)
-            lu = self.factor(H)
-            a, b = lu.solve(-r), lu.solve(f)
+        state = {"fresh_needed": False, "fresh": False}
+        out = {}
+
+        def step(lu):
+            a, b = lu.solve(-r), self._f_solve(lu, f)
             dP = (W0 - c @ x - c @ a) / (c @ b)
-            dx = a + dP * b
-            if not np.all(np.isfinite(dx)):
+            out["dP"] = dP
+            return a + dP * b
+
+        for _ in range(maxit):
+            r = self.residual(x, P)
+            dx, nd = self._step(x, P, step, state)
+            if not np.isfinite(nd):
                 break
             x += dx
-            P += dP
-            if self._converged(dx, x, tol) and abs(dP) <= tol * max(abs(P), 1e-12):
-                return x, P, lu
+            P += out["dP"]
+            if nd <= tol * max(self._size(x), 1e-12) and \
+                    abs(out["dP"]) <= tol * max(abs(P), 1e-12):
+                return x, P, self._lu
+        self._lu = None
         raise NewtonError(f"no convergence at scaled centre deflection {W0:.6g}")
 
     def zero(self) -> np.ndarray:

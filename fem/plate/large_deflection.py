@@ -1,0 +1,283 @@
+"""Deflection versus pressure of the von Kármán diaphragm, both signs, up to contact.
+
+Model: :mod:`diagap.fem.plate.vonkarman` (anchored edge, residual stress), optionally with the
+electrostatic attraction of the bias on the electrode,
+
+    p_e(w) = ½ V² π(g − w),   π(ĝ) = −dc/dĝ   (Pa; :mod:`diagap.fem.coupling.branch`),
+
+added to the uniform sound pressure p (positive toward the backplate, like w).
+
+Method. The centre deflection w0 is traced by displacement control (the pressure an unknown,
+bordered Newton), from the equilibrium at p = 0 up to the clearance (the gap, or the gap minus a
+stopper height) and down to the same travel away from the backplate. With bias the pressure
+p(w0) may have a maximum before the clearance (snap-through to the backplate); the contact
+pressure is max p(w0) over w0 ≤ clearance: the pressure at which the diaphragm first touches
+(at the fold found by a bounded scalar search, else at the clearance itself). Deflections at
+requested pressures are solved by Newton with the pressure prescribed, started from the nearest
+traced state below (load continuation, halving the step on failure); pressures at or beyond the
+contact pressure give None. Contact is judged at the centre, the largest deflection under a
+uniform load.
+
+Errors: every quantity is computed on the two finest mesh levels of the accuracy setting
+(:mod:`diagap.fem.levels`) and the finest is reported with a Richardson estimate (order 2, the
+disk's polygonal boundary). The electrostatic table range is extended below its smallest gap by
+the parallel-plate law π ∝ 1/ĝ² (a model reduction that matters only within the last fraction of
+the stroke, where the snap has already happened).
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+from scipy.optimize import minimize_scalar
+
+from diagap.fem.levels import ORDER, RATIO, richardson
+from diagap.fem.plate.vonkarman import NewtonError, WLoad, build_von_karman
+
+__all__ = ["LargeDeflectionResult", "ElectrostaticBias", "solve_large_deflection",
+           "level_systems", "trace_level"]
+
+#: largest centre-deflection step of the trace, in thicknesses, and the fewest trace steps
+STEP_THICKNESS = 0.5
+MIN_STEPS = 8
+
+
+@dataclass(frozen=True)
+class ElectrostaticBias:
+    """The bias load: electrode radius (circle) or side (square) in m, rest gap (m), bias (V), and
+    π(ĝ) = −dc/dĝ with its slope (an :class:`~diagap.fem.coupling.branch.ElectrostaticLoad`)."""
+
+    electrode_size_m: float
+    gap_m: float
+    bias_voltage_v: float
+    load: object
+
+    def pressure(self, w_m: np.ndarray):
+        """(p_e in Pa, dp_e/dw in Pa/m) at local deflections w_m."""
+        g = self.gap_m - w_m
+        lo = max(getattr(self.load, "min_gap_m", 0.0), self._table_min())
+        gc = np.maximum(g, lo)
+        pi, dpi = self.load.pressure_per_v2(gc), self.load.pressure_slope_per_v2(gc)
+        below = g < lo
+        if np.any(below):  # parallel-plate extension below the table
+            gb = np.maximum(g[below], 1e-3 * lo)
+            pi = np.array(pi, dtype=float)
+            dpi = np.array(dpi, dtype=float)
+            pi[below] = pi[below] * (lo / gb) ** 2
+            dpi[below] = -2.0 * pi[below] / gb
+        half_v2 = 0.5 * self.bias_voltage_v**2
+        return half_v2 * pi, -half_v2 * dpi
+
+    def _table_min(self) -> float:
+        return float(getattr(self.load, "table_min_gap_m", 0.0))
+
+
+@dataclass(frozen=True)
+class LargeDeflectionResult:
+    """Static deflection versus uniform pressure (SI), finest mesh level, with error estimates.
+
+    ``center_deflection_m[i]`` is the centre deflection at ``pressures_pa[i]`` (None at or past
+    contact); ``linear_center_deflection_m`` the linear prediction (compliance at the p = 0
+    equilibrium); ``curve_*`` the traced curve (both signs, ordered by deflection);
+    ``contact_pressure_pa`` the pressure at which the centre reaches ``clearance_m`` (or snaps
+    there), None without a clearance. ``uncertainty``: relative error estimates.
+    """
+
+    pressures_pa: tuple
+    center_deflection_m: tuple
+    linear_center_deflection_m: tuple
+    contact_pressure_pa: float | None
+    clearance_m: float | None
+    curve_pressures_pa: tuple
+    curve_deflections_m: tuple
+    compliance_m_per_pa: float
+    uncertainty: dict
+    accuracy: str
+    mesh_dofs: tuple
+    _states: tuple = field(default=(), repr=False, compare=False)
+    _system: object = field(default=None, repr=False, compare=False)
+
+    def curve_field_m(self, i: int, x_m, y_m) -> np.ndarray:
+        """Deflection (m) of traced state ``i`` at SI points (no domain mask)."""
+        vk = self._system
+        q = vk.split(self._states[i])[0] * vk.h
+        return vk.plate.evaluate(q, x_m, y_m)
+
+    def to_summary(self) -> dict:
+        return {
+            "pressures_pa": [float(p) for p in self.pressures_pa],
+            "center_deflection_m": [None if w is None else float(w)
+                                    for w in self.center_deflection_m],
+            "linear_center_deflection_m": [float(w) for w in self.linear_center_deflection_m],
+            "contact_pressure_pa": None if self.contact_pressure_pa is None
+            else float(self.contact_pressure_pa),
+            "clearance_m": None if self.clearance_m is None else float(self.clearance_m),
+            "curve": [[float(p), float(w)] for p, w in zip(self.curve_pressures_pa,
+                                                           self.curve_deflections_m)],
+            "accuracy": self.accuracy,
+            "mesh_dofs": list(self.mesh_dofs),
+        }
+
+
+def _electrode_elements(plate, shape: str, electrode_size_m: float) -> np.ndarray:
+    mesh, L = plate.mesh, plate.length_m
+    cent = mesh.p[:, mesh.t].mean(axis=1)
+    inner = electrode_size_m / L if shape == "circle" else 0.5 * electrode_size_m / L
+    r = np.hypot(cent[0], cent[1]) if shape == "circle" else np.abs(cent).max(axis=0)
+    return np.nonzero(r < inner * (1 + 1e-9))[0]
+
+
+def level_systems(problem, accuracy: str, bias: ElectrostaticBias | None = None):
+    """The von Kármán systems of the two finest mesh levels (coarse first) of the mesh family used
+    for ``accuracy``: one family coarser than the linear mechanics, as for the electromechanical
+    coupling (``COUPLING_MESHES``), since the centre deflection is a global quantity (measured:
+    error ≤ 5e-4 of the draft family against the fine one, up to 5 thicknesses; its Richardson
+    estimate is of the same size)."""
+    from diagap.fem.coupling.plate import COUPLING_MESHES, plate_levels
+    from diagap.fem.plate.solver import _layer_width, _mesh, assemble_plate
+    from diagap.fem.levels import mesh_sizes
+
+    accuracy = COUPLING_MESHES.get(accuracy, accuracy)
+    if bias is None:
+        plates = [assemble_plate(problem, _mesh(problem.shape, s))
+                  for s in mesh_sizes(problem.shape, accuracy, _layer_width(problem))[-2:]]
+        return [build_von_karman(p, problem.thickness_m) for p in plates]
+    plates, _ = plate_levels(problem, accuracy, bias.electrode_size_m)
+    out = []
+    for p in plates[-2:]:
+        el = _electrode_elements(p, problem.shape, bias.electrode_size_m)
+        out.append(build_von_karman(p, problem.thickness_m, (WLoad(el, bias.pressure),)))
+    return out
+
+
+def _continue_pressure(vk, P_target, x, P):
+    """Pressure-controlled continuation from (x, P) to P_target, halving failed steps."""
+    step = P_target - P
+    for _ in range(40):
+        if P == P_target:
+            return x
+        trial = P + step if abs(step) < abs(P_target - P) else P_target
+        try:
+            x, _ = vk.solve_pressure(trial, x)
+            P = trial
+            step *= 1.5
+        except NewtonError:
+            step *= 0.5
+    raise NewtonError(f"continuation to scaled pressure {P_target:.6g} failed")
+
+
+def _trace_side(vk, x0, P0, W0, W_end, n_steps, stop_after_fold):
+    """Displacement-controlled states from W0 to W_end: lists of (W, P, x)."""
+    out = []
+    x, P = x0, P0
+    for W in np.linspace(W0, W_end, n_steps + 1)[1:]:
+        x, P, _ = vk.solve_deflection(W, x, P)
+        out.append((W, P, x))
+        if stop_after_fold and len(out) >= 2 and out[-1][1] < out[-2][1]:
+            break
+    return out
+
+
+def trace_level(vk, pressures_pa, clearance_m=None, travel_m=None):
+    """Everything computed on one mesh level (see :func:`solve_large_deflection`)."""
+    h, ps = vk.h, vk.pressure_scale_pa
+    x0, _ = vk.solve_pressure(0.0, vk.zero())
+    W_b = float(vk.center @ vk.split(x0)[0])
+    _, H = vk._residual_tangent(x0, 0.0)
+    f = np.concatenate([vk.unit_load, np.zeros(vk.n - vk.nq_dofs)])
+    compliance = float(vk.center @ vk.split(vk.factor(H).solve(f))[0]) * h / ps
+    travel = clearance_m if clearance_m is not None else travel_m
+    states = [(W_b, 0.0, x0)]
+    stable = list(states)
+    contact = None
+    if travel is not None:
+        W_end = travel / h
+        n = max(MIN_STEPS, math.ceil(abs(W_end - W_b) / STEP_THICKNESS))
+        up = _trace_side(vk, x0, 0.0, W_b, W_end, n, stop_after_fold=bool(vk.loads))
+        dn = _trace_side(vk, x0, 0.0, W_b, -W_end, n, stop_after_fold=False)
+        states = dn[::-1] + states + up
+        k = int(np.argmax([s[1] for s in up])) if up else -1
+        stable = dn + stable + up[:k + 1]
+        if clearance_m is not None:
+            contact = _contact(vk, up)
+    results = []
+    for p in pressures_pa:
+        P = p / ps
+        if contact is not None and P >= contact:
+            results.append(None)
+            continue
+        start = _nearest(stable, P)
+        x = _continue_pressure(vk, P, start[2], start[1])
+        results.append(float(vk.center @ vk.split(x)[0]) * h)
+    return {"w": results, "contact": None if contact is None else contact * ps,
+            "compliance": compliance, "states": states}
+
+
+def _contact(vk, up):
+    """Scaled contact pressure: the maximum of P over the positive trace (fold or end point)."""
+    P = np.array([s[1] for s in up])
+    k = int(np.argmax(P))
+    if k == len(up) - 1:
+        return float(P[k])
+    lo = up[k - 1][0] if k > 0 else up[0][0] - STEP_THICKNESS
+    hi = up[k + 1][0]
+    cache = {"x": up[k][2], "P": up[k][1]}
+
+    def neg_p(W):
+        x, Pw, _ = vk.solve_deflection(W, cache["x"], cache["P"])
+        cache["x"], cache["P"] = x, Pw
+        return -Pw
+
+    res = minimize_scalar(neg_p, bounds=(lo, hi), method="bounded",
+                          options={"xatol": 1e-7 * max(abs(hi), 1.0)})
+    return float(max(-res.fun, P[k]))
+
+
+def _nearest(stable, P):
+    """Stable traced state with the largest |pressure| not beyond P, of the same sign."""
+    same = [s for s in stable if 0 <= s[1] <= P or P <= s[1] <= 0]
+    return max(same, key=lambda s: abs(s[1]))
+
+
+def solve_large_deflection(problem, pressures_pa, accuracy: str = "normal",
+                           clearance_m: float | None = None,
+                           bias: ElectrostaticBias | None = None,
+                           travel_m: float | None = None) -> LargeDeflectionResult:
+    """Centre deflection of the von Kármán diaphragm at uniform pressures, and contact.
+
+    Parameters
+    ----------
+    problem : :class:`~diagap.fem.plate.solver.PlateProblem`
+    pressures_pa : sequence of uniform pressures (Pa, positive toward the backplate)
+    accuracy : "draft" | "normal" | "fine"
+    clearance_m : centre travel to contact (gap, or gap minus stopper height), None: no contact
+    bias : electrostatic load of the bias (None: no bias)
+    travel_m : travel of the traced curve when ``clearance_m`` is None (None: no curve)
+    """
+    systems = level_systems(problem, accuracy, bias)
+    levels = [trace_level(vk, pressures_pa, clearance_m, travel_m) for vk in systems]
+    coarse, fine = levels
+    order = ORDER[problem.shape]
+    unc = {}
+    pairs = [(c, f) for c, f in zip(coarse["w"], fine["w"]) if c is not None and f is not None
+             and f != 0.0]
+    if pairs:
+        c, f = np.array(pairs).T
+        unc["center_deflection_m"] = float(np.max(richardson(c, f, order, RATIO)))
+    if fine["contact"] is not None and coarse["contact"] is not None:
+        unc["contact_pressure_pa"] = float(richardson(coarse["contact"], fine["contact"],
+                                                      order, RATIO))
+    unc["compliance_m_per_pa"] = float(richardson(coarse["compliance"], fine["compliance"],
+                                                  order, RATIO))
+    vk = systems[-1]
+    st = fine["states"]
+    return LargeDeflectionResult(
+        pressures_pa=tuple(float(p) for p in pressures_pa),
+        center_deflection_m=tuple(fine["w"]),
+        linear_center_deflection_m=tuple(float(p) * fine["compliance"] for p in pressures_pa),
+        contact_pressure_pa=fine["contact"], clearance_m=clearance_m,
+        curve_pressures_pa=tuple(s[1] * vk.pressure_scale_pa for s in st),
+        curve_deflections_m=tuple(s[0] * vk.h for s in st),
+        compliance_m_per_pa=fine["compliance"], uncertainty=unc, accuracy=accuracy,
+        mesh_dofs=tuple(v.n for v in systems), _states=tuple(s[2] for s in st), _system=vk)
