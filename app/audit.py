@@ -101,13 +101,23 @@ def audit_design(design, s: dict) -> Audit:
         rows.append(_row("membrane vs plate", f"centre compliance, {label} (m/Pa)", simple, fe,
                          _rel(simple, fe), "closed form / FE - 1", 0.05, 0.20,
                          f"tension ratio T a^2 / D = {t * d.size_m**2 / d.bending_stiffness_n_m:.3g}"))
-        spl, w = _largest_spl_deflection(design, mech, resp)
-        ratio = _stretching_ratio(d, w)
-        rows.append(_row("small deflection", f"stretching / linear stiffness at {spl:.0f} dB SPL",
-                         0.0, ratio, ratio, "cubic (stretching) over linear restoring pressure",
-                         0.01, 0.05,
-                         "large-deflection energy estimate for a clamped plate (Timoshenko & "
-                         "Woinowsky-Krieger 1959, from memory), scaled by the FE stiffness"))
+        ld = s.get("large_deflection")
+        if ld and ld.get("audit_center_deflection_m"):
+            rows.append(_small_deflection_row(ld))
+        elif ld is None:
+            spl, w = _largest_spl_deflection(design, mech, resp)
+            ratio = _stretching_ratio(d, w)
+            rows.append(_row("small deflection", f"stretching / linear stiffness at {spl:.0f} dB SPL",
+                             0.0, ratio, ratio, "cubic (stretching) over linear restoring pressure",
+                             0.01, 0.05,
+                             "large-deflection energy estimate for a clamped plate (Timoshenko & "
+                             "Woinowsky-Krieger 1959, from memory), scaled by the FE stiffness"))
+        else:
+            rows.append(_row("small deflection", f"centre deflection at {ld['audit_spl_db']:.0f} "
+                             "dB SPL (peak, m)", ld["audit_linear_center_deflection_m"],
+                             ld["clearance_m"], 1.0, "contact: deviation set to 1", 0.01, 0.05,
+                             "the diaphragm reaches the backplate (or stopper) at this level; "
+                             "fe = the clearance"))
     if es:
         pp = es["parallel_plate_capacitance_f"]
         fe = es["rest_capacitance_f"]
@@ -158,6 +168,15 @@ def audit_design(design, s: dict) -> Audit:
                          fc / 20.0, "corner / 20 Hz", 0.5, 1.0,
                          "1/(2 pi R C) with C = C0 + Cp + C_in" if c0 else ""))
     return Audit(tuple(rows))
+
+
+def _small_deflection_row(ld: dict) -> AuditRow:
+    """Linear against von Kármán (anchored edge) centre deflection at the peak pressure of the
+    largest SPL of interest, both from the finite-element diaphragm without bias."""
+    lin, vk = ld["audit_linear_center_deflection_m"], ld["audit_center_deflection_m"]
+    return _row("small deflection", f"centre deflection at {ld['audit_spl_db']:.0f} dB SPL (peak, m)",
+                lin, vk, _rel(lin, vk), "linear / von Karman centre deflection - 1", 0.01, 0.05,
+                "von Karman plate with anchored edge and residual stress (finite elements)")
 
 
 def _stretching_ratio(d, w0: float) -> float:

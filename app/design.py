@@ -53,6 +53,7 @@ SCHEMA: dict[str, dict[str, Field]] = {
         "hole_lattice": Field(choices=("hex", "square", "none"), default="none"),
         "hole_radius": _length(),
         "hole_pitch": _length(),
+        "stopper_height": _length(),
     },
     "acoustics": {
         "back_volume": Field("m^3", low=0.0, required=True),
@@ -70,6 +71,7 @@ SCHEMA: dict[str, dict[str, Field]] = {
     },
     "analysis": {
         "accuracy": Field(choices=("draft", "normal", "fine"), default="normal"),
+        "static_pressures": Field("Pa", default=()),  # a list of quantities
     },
 }
 _TOP = {"name": Field(default="unnamed design"), "description": Field(default="")}
@@ -109,6 +111,12 @@ class Backplate:
     hole_lattice: str
     hole_radius_m: float
     hole_pitch_m: float
+    stopper_height_m: float | None = None  # bumps on the backplate: contact at gap − height
+
+    @property
+    def clearance_m(self) -> float:
+        """Centre travel to contact: the gap, less the stopper height if any."""
+        return self.gap_m - (self.stopper_height_m or 0.0)
 
     @property
     def perforated(self) -> bool:
@@ -134,6 +142,7 @@ class Electrical:
 @dataclass(frozen=True)
 class Analysis:
     accuracy: str
+    static_pressures_pa: tuple = ()  # large-deflection pressures (Pa, + toward the backplate)
 
 
 @dataclass(frozen=True)
@@ -161,7 +170,7 @@ class Design:
         level = _choice("analysis.accuracy", accuracy, SCHEMA["analysis"]["accuracy"])
         raw = self.raw_dict()
         raw.setdefault("analysis", {})["accuracy"] = level
-        return replace(self, analysis=Analysis(level), raw=_freeze(raw))
+        return replace(self, analysis=replace(self.analysis, accuracy=level), raw=_freeze(raw))
 
 
 def _freeze(d):
@@ -205,6 +214,11 @@ def _section(raw: dict, section: str) -> dict:
             out[key] = f.default
         elif f.choices:
             out[key] = _choice(name, table[key], f)
+        elif isinstance(f.default, tuple):  # a list of quantities
+            if not isinstance(table[key], list):
+                raise DesignError(f"{name} = {_fmt(table[key])}: must be a list of quantities "
+                                  f"(e.g. [\"10 {f.unit}\", \"100 {f.unit}\"])")
+            out[key] = tuple(_quantity(f"{name}[{i}]", v, f) for i, v in enumerate(table[key]))
         else:
             out[key] = _quantity(name, table[key], f)
     return out
@@ -290,7 +304,10 @@ def _backplate(raw: dict, d: Diaphragm) -> Backplate:
     elif v["hole_radius"] is not None or v["hole_pitch"] is not None:
         raise DesignError("backplate.hole_lattice = 'none': hole_radius/hole_pitch given without a "
                           "lattice; set hole_lattice to hex or square, or remove them")
-    return Backplate(v["gap"], v["thickness"], el, lattice, r_h, pitch)
+    if v["stopper_height"] is not None and v["stopper_height"] >= v["gap"]:
+        raise DesignError(f"backplate.stopper_height = {v['stopper_height']:g} m: must be "
+                          f"smaller than the gap ({v['gap']:g} m)")
+    return Backplate(v["gap"], v["thickness"], el, lattice, r_h, pitch, v["stopper_height"])
 
 
 def parse_design(raw: dict, source: str = "<design>") -> Design:
@@ -319,7 +336,7 @@ def parse_design(raw: dict, source: str = "<design>") -> Design:
                             a["static_pressure"]),
         electrical=Electrical(e["bias_voltage"], e["bias_resistance"], e["parasitic_capacitance"],
                               e["preamp_input_capacitance"]),
-        analysis=Analysis(n["accuracy"]),
+        analysis=Analysis(n["accuracy"], n["static_pressures"]),
         raw=_freeze(raw),
     )
 

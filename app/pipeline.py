@@ -1,7 +1,8 @@
 """The analysis pipeline: a validated design in, every computed section out.
 
 design ─► mechanics (fem.plate) ─► electrostatics (fem.capacitance) ─► coupled (fem.coupled)
-       ─► damping (fem.squeeze) ─► lumped model, response, noise, distortion ─► audit
+       ─► damping (fem.squeeze) ─► lumped model, response, noise, distortion
+       ─► large deflection (fem.plate.large_deflection) ─► audit
 
 Each stage returns a frozen result object that knows its summary section. A section that is not
 computed is absent from the summary, never filled with placeholders.
@@ -63,8 +64,8 @@ def run_design(design: Design) -> RunResult:
     from diagap.fem.plate.solver import solve_plate
 
     from diagap.audit import audit_design
-    from diagap.stages import (coupled_stage, damping_stage, electrostatics_stage, lumped_model,
-                         response_stage)
+    from diagap.stages import (coupled_stage, damping_stage, electrostatics_stage,
+                               large_deflection_stage, lumped_model, response_stage)
 
     result = RunResult(design)
     acc = design.analysis.accuracy
@@ -78,6 +79,9 @@ def run_design(design: Design) -> RunResult:
     if not result.collapsed:
         model = lumped_model(design, mech, es, cp, damp)
         _stage(result, "response", response_stage, model, result.summary()["uncertainty"])
+    resp = result.sections["response"].to_summary() if "response" in result.sections else None
+    _stage(result, "large_deflection", large_deflection_stage, design, problem, es, resp,
+           result.collapsed)
     sections = {k: v.to_summary() for k, v in result.sections.items()}
     _stage(result, "audit", audit_design, design, sections)
     return result

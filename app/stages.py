@@ -15,7 +15,7 @@ import numpy as np
 from diagap.design import Design
 
 __all__ = ["electrostatics_stage", "coupled_stage", "damping_stage", "lumped_model",
-           "response_stage", "Section", "electrode_quadrature"]
+           "response_stage", "large_deflection_stage", "Section", "electrode_quadrature"]
 
 #: the c(g) table covers local gaps from GAP_TABLE[0]·g to GAP_TABLE[1]·g: the C(x) curve
 #: (±g/3), the coupled branch up to and just past the fold, and the distortion model's travel.
@@ -226,3 +226,12 @@ def response_stage(model, fe_uncertainty: dict | None = None) -> Section:
     unc = _response_uncertainty(fe_uncertainty or {})
     return Section(data, unc, {"response": resp, "distortion": dist, "model": model,
                               "noise_parts": parts, "noise_input_psd": p_in})
+
+
+def large_deflection_stage(design: Design, problem, es: Section, resp: dict | None,
+                           collapsed: bool = False) -> Section:
+    """Large deflection up to contact, without and with bias, and the quasi-static overload point
+    (see :mod:`diagap.overload`); without the biased part when the bias collapses the diaphragm."""
+    from diagap.overload import large_deflection_section
+
+    return large_deflection_section(design, problem, es, resp, with_bias=not collapsed)

@@ -227,3 +227,24 @@ def test_bias_lowers_the_contact_pressure():
     p_e = 8.8541878128e-12 * 100.0 / (2 * gap**2)
     assert 0 < w_bias < 1.2 * p_e * plain.compliance_m_per_pa
     assert w_neg < 0 < w_bias
+
+
+def test_quasistatic_thd_of_a_reciprocal_transfer():
+    """C(p) = C0(1 + a p) under constant charge gives v ∝ 1/(1 + ε sin θ) − 1, ε = a p̂, whose
+    harmonics fall as r^k, r = (1 − √(1−ε²))/ε (Fourier series of 1/(1 + ε sin θ), Gradshteyn &
+    Ryzhik, Table of Integrals, 1.447 [from memory]); hence THD = r/√(1 − r²)."""
+    from diagap.lumped.quasistatic import QuasiStaticTransfer, spl_to_pa
+
+    a = 1e-3  # 1/Pa
+    p = np.linspace(-900.0, 900.0, 61)
+    tr = QuasiStaticTransfer(tuple(p), tuple(1e-12 * (1 + a * p)), 10.0)
+    for eps in (0.05, 0.3, 0.6):
+        r = (1 - math.sqrt(1 - eps**2)) / eps
+        assert tr.thd(eps / a) == pytest.approx(r / math.sqrt(1 - r**2), rel=1e-6, abs=0)
+    r10 = 0.1 / math.sqrt(1.01)  # THD = 10 %
+    eps10 = 2 * r10 / (1 + r10**2)
+    assert spl_to_pa(tr.thd_point_spl_db(0.10)) == pytest.approx(eps10 / a, rel=1e-5, abs=0)
+    # a linear transfer under constant charge: C ∝ 1/(1 − p/p0) (piston on a linear spring)
+    lin = QuasiStaticTransfer(tuple(p), tuple(1e-12 / (1 - p / 2000.0)), 10.0)
+    assert lin.thd(800.0) < 1e-6  # interpolation of the samples only
+    assert lin.thd_point_spl_db(0.10) is None

@@ -46,31 +46,29 @@ MIN_STEPS = 8
 @dataclass(frozen=True)
 class ElectrostaticBias:
     """The bias load: electrode radius (circle) or side (square) in m, rest gap (m), bias (V), and
-    π(ĝ) = −dc/dĝ with its slope (an :class:`~diagap.fem.coupling.branch.ElectrostaticLoad`)."""
+    π(ĝ) = −dc/dĝ with its slope (an :class:`~diagap.fem.coupling.branch.ElectrostaticLoad`),
+    valid for local gaps in ``gap_range_m`` (None: everywhere); outside it π is extended by the
+    parallel-plate law π ∝ 1/ĝ² from the nearest end of the range."""
 
     electrode_size_m: float
     gap_m: float
     bias_voltage_v: float
     load: object
+    gap_range_m: tuple | None = None
 
     def pressure(self, w_m: np.ndarray):
         """(p_e in Pa, dp_e/dw in Pa/m) at local deflections w_m."""
-        g = self.gap_m - w_m
-        lo = max(getattr(self.load, "min_gap_m", 0.0), self._table_min())
-        gc = np.maximum(g, lo)
-        pi, dpi = self.load.pressure_per_v2(gc), self.load.pressure_slope_per_v2(gc)
-        below = g < lo
-        if np.any(below):  # parallel-plate extension below the table
-            gb = np.maximum(g[below], 1e-3 * lo)
-            pi = np.array(pi, dtype=float)
-            dpi = np.array(dpi, dtype=float)
-            pi[below] = pi[below] * (lo / gb) ** 2
-            dpi[below] = -2.0 * pi[below] / gb
+        g = np.maximum(self.gap_m - np.asarray(w_m, dtype=float), 1e-4 * self.gap_m)
+        lo, hi = self.gap_range_m if self.gap_range_m is not None else (0.0, np.inf)
+        gc = np.clip(g, lo, hi)
+        pi = np.array(self.load.pressure_per_v2(gc), dtype=float)
+        dpi = np.array(self.load.pressure_slope_per_v2(gc), dtype=float)
+        out = (g < lo) | (g > hi)
+        if np.any(out):  # parallel-plate extension outside the table
+            pi[out] = pi[out] * (gc[out] / g[out]) ** 2
+            dpi[out] = -2.0 * pi[out] / g[out]
         half_v2 = 0.5 * self.bias_voltage_v**2
         return half_v2 * pi, -half_v2 * dpi
-
-    def _table_min(self) -> float:
-        return float(getattr(self.load, "table_min_gap_m", 0.0))
 
 
 @dataclass(frozen=True)

@@ -254,7 +254,11 @@ class VonKarmanSystem:
 
     def _refactor(self, x, P):
         _, H = self._residual_tangent(x, P)
-        self._lu = self.factor(H)
+        try:
+            self._lu = self.factor(H)
+        except RuntimeError as exc:  # exactly singular tangent
+            self._lu = None
+            raise NewtonError(f"singular tangent at scaled pressure {P:.6g}") from exc
         self._lu_f = None
         return self._lu
 
@@ -279,11 +283,14 @@ class VonKarmanSystem:
         return dx, nd
 
     def solve_pressure(self, P: float, x0: np.ndarray, tol: float = 1e-9, maxit: int = 40):
-        """Equilibrium at the scaled uniform pressure P from the start x0; returns (x, lu)."""
+        """Equilibrium at the scaled uniform pressure P from the start x0; returns (x, lu).
+        The tangent is factorised afresh at x0 (the stored one may belong to another state)."""
         x = x0.copy()
-        state = {"fresh_needed": False, "fresh": False}
+        state = {"fresh_needed": True, "fresh": False}
         for _ in range(maxit):
             r = self.residual(x, P)
+            if not np.all(np.isfinite(r)):
+                break
             dx, nd = self._step(x, P, lambda lu: -lu.solve(r), state)
             if not np.isfinite(nd):
                 break
@@ -316,6 +323,8 @@ class VonKarmanSystem:
 
         for _ in range(maxit):
             r = self.residual(x, P)
+            if not np.all(np.isfinite(r)):
+                break
             dx, nd = self._step(x, P, step, state)
             if not np.isfinite(nd):
                 break
