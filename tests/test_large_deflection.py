@@ -248,3 +248,32 @@ def test_quasistatic_thd_of_a_reciprocal_transfer():
     lin = QuasiStaticTransfer(tuple(p), tuple(1e-12 / (1 - p / 2000.0)), 10.0)
     assert lin.thd(800.0) < 1e-6  # interpolation of the samples only
     assert lin.thd_point_spl_db(0.10) is None
+
+
+def test_summary_contract_and_plot():
+    """static_pressures → large_deflection.pressures_pa / center_deflection_m (same order, null
+    past contact, no bias) and contact_pressure_pa with its uncertainty; the report plot."""
+    from diagap.design import demo_design, with_overrides
+    from diagap.pipeline import run_design
+    from diagap.report.plots import report_plots
+
+    d = with_overrides(demo_design().with_accuracy("draft"), {
+        "analysis.static_pressures": ["100 Pa", "-0.3 kPa", "5 kPa", "0.5 kPa"],
+        "backplate.stopper_height": "1 um"})
+    res = run_design(d)
+    s = res.summary()
+    ld = s["large_deflection"]
+    assert ld["pressures_pa"] == [100.0, -300.0, 5000.0, 500.0]
+    w = ld["center_deflection_m"]
+    assert w[2] is None and w[1] < 0 < w[0] < w[3] < 3e-6
+    pc = ld["contact_pressure_pa"]
+    assert 500.0 < pc < 5000.0 and ld["clearance_m"] == pytest.approx(3e-6, rel=1e-12, abs=0)
+    assert 0 < s["uncertainty"]["large_deflection.contact_pressure_pa"] < 1e-2
+    # stiffening: below the linear prediction toward and away from the backplate
+    lin = ld["linear_center_deflection_m"]
+    assert abs(w[3]) < abs(lin[3]) and abs(w[1]) < abs(lin[1])
+    # with bias the diaphragm reaches the stopper at a lower sound pressure
+    assert 0 < ld["contact_pressure_at_bias_pa"] < pc
+    rows = {r["assumption"]: r for r in s["audit"]}
+    assert "von Karman" in rows["small deflection"]["note"]
+    assert any(p.name == "large_deflection" for p in report_plots(res))

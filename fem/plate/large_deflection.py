@@ -30,7 +30,6 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
-from scipy.optimize import minimize_scalar
 
 from diagap.fem.levels import ORDER, RATIO, richardson
 from diagap.fem.plate.vonkarman import NewtonError, WLoad, build_von_karman
@@ -166,19 +165,42 @@ def _continue_pressure(vk, P_target, x, P):
 
 
 def _trace_side(vk, x0, P0, W0, W_end, n_steps, stop_after_fold):
-    """Displacement-controlled states from W0 to W_end: lists of (W, P, x)."""
+    """Displacement-controlled states from W0 to W_end: a list of (W, P, x). A step that fails is
+    bisected (up to five times in a row); with ``stop_after_fold`` the trace ends once P has
+    passed its maximum (or a step fails beyond it: past the snap, the gap closes)."""
     out = []
-    x, P = x0, P0
-    for W in np.linspace(W0, W_end, n_steps + 1)[1:]:
-        x, P, _ = vk.solve_deflection(W, x, P)
+    x, P, W_cur = x0, P0, W0
+    queue = list(np.linspace(W0, W_end, n_steps + 1)[1:])
+    fails = 0
+
+    def folded():
+        return stop_after_fold and len(out) >= 2 and out[-1][1] < out[-2][1]
+
+    while queue:
+        W = queue[0]
+        try:
+            x, P, _ = vk.solve_deflection(W, x, P)
+        except NewtonError:
+            fails += 1
+            if fails > 5:
+                if folded():
+                    break
+                raise
+            queue.insert(0, 0.5 * (W_cur + W))
+            continue
+        fails = 0
+        queue.pop(0)
         out.append((W, P, x))
-        if stop_after_fold and len(out) >= 2 and out[-1][1] < out[-2][1]:
+        W_cur = W
+        if folded():
             break
     return out
 
 
-def trace_level(vk, pressures_pa, clearance_m=None, travel_m=None):
-    """Everything computed on one mesh level (see :func:`solve_large_deflection`)."""
+def trace_level(vk, pressures_pa, clearance_m=None, travel_m=None, full: bool = True):
+    """Everything computed on one mesh level (see :func:`solve_large_deflection`); with
+    ``full`` False (the coarse level, used only for the error estimates) the trace away from the
+    backplate is skipped and the steps toward it are twice as long."""
     h, ps = vk.h, vk.pressure_scale_pa
     x0, _ = vk.solve_pressure(0.0, vk.zero())
     W_b = float(vk.center @ vk.split(x0)[0])
@@ -191,9 +213,10 @@ def trace_level(vk, pressures_pa, clearance_m=None, travel_m=None):
     contact = None
     if travel is not None:
         W_end = travel / h
-        n = max(MIN_STEPS, math.ceil(abs(W_end - W_b) / STEP_THICKNESS))
+        step, fewest = (STEP_THICKNESS, MIN_STEPS) if full else (2 * STEP_THICKNESS, MIN_STEPS // 2)
+        n = max(fewest, math.ceil(abs(W_end - W_b) / step))
         up = _trace_side(vk, x0, 0.0, W_b, W_end, n, stop_after_fold=bool(vk.loads))
-        dn = _trace_side(vk, x0, 0.0, W_b, -W_end, n, stop_after_fold=False)
+        dn = _trace_side(vk, x0, 0.0, W_b, -W_end, n, stop_after_fold=False) if full else []
         states = dn[::-1] + states + up
         k = int(np.argmax([s[1] for s in up])) if up else -1
         stable = dn + stable + up[:k + 1]
@@ -207,29 +230,37 @@ def trace_level(vk, pressures_pa, clearance_m=None, travel_m=None):
             continue
         start = _nearest(stable, P)
         x = _continue_pressure(vk, P, start[2], start[1])
-        results.append(float(vk.center @ vk.split(x)[0]) * h)
+        W = float(vk.center @ vk.split(x)[0])
+        results.append(W * h)
+        stable.append((W, P, x))  # a start for the next pressures of a ramp
     return {"w": results, "contact": None if contact is None else contact * ps,
             "compliance": compliance, "states": states}
 
 
 def _contact(vk, up):
-    """Scaled contact pressure: the maximum of P over the positive trace (fold or end point)."""
+    """Scaled contact pressure: the maximum of P over the positive trace (fold or end point).
+    An interior maximum (the fold) is refined by successive parabolic interpolation of P(W)
+    through three bracketing states, each new point an exact bordered solve."""
     P = np.array([s[1] for s in up])
     k = int(np.argmax(P))
     if k == len(up) - 1:
         return float(P[k])
-    lo = up[k - 1][0] if k > 0 else up[0][0] - STEP_THICKNESS
-    hi = up[k + 1][0]
-    cache = {"x": up[k][2], "P": up[k][1]}
-
-    def neg_p(W):
-        x, Pw, _ = vk.solve_deflection(W, cache["x"], cache["P"])
-        cache["x"], cache["P"] = x, Pw
-        return -Pw
-
-    res = minimize_scalar(neg_p, bounds=(lo, hi), method="bounded",
-                          options={"xatol": 1e-7 * max(abs(hi), 1.0)})
-    return float(max(-res.fun, P[k]))
+    if k == 0:
+        k = 1  # the fold within the first step: bracket with the first two points beyond it
+    pts = [(up[i][0], up[i][1], up[i][2]) for i in (k - 1, k, k + 1)]
+    for _ in range(6):
+        W, Pw = np.array([p[0] for p in pts]), np.array([p[1] for p in pts])
+        a, b, _ = np.polyfit(W, Pw, 2)
+        if not a < 0:
+            break
+        W_star = float(np.clip(-b / (2 * a), W.min(), W.max()))
+        best = pts[int(np.argmax(Pw))]
+        x, P_star, _ = vk.solve_deflection(W_star, best[2], best[1])
+        far = int(np.argmax(np.abs(W - W_star)))
+        pts[far] = (W_star, P_star, x)
+        if abs(W_star - best[0]) <= 1e-4 * max(abs(W_star), 1.0):
+            break
+    return float(max(max(p[1] for p in pts), P[k]))
 
 
 def _nearest(stable, P):
@@ -254,7 +285,8 @@ def solve_large_deflection(problem, pressures_pa, accuracy: str = "normal",
     travel_m : travel of the traced curve when ``clearance_m`` is None (None: no curve)
     """
     systems = level_systems(problem, accuracy, bias)
-    levels = [trace_level(vk, pressures_pa, clearance_m, travel_m) for vk in systems]
+    levels = [trace_level(vk, pressures_pa, clearance_m, travel_m, full=(i == len(systems) - 1))
+              for i, vk in enumerate(systems)]
     coarse, fine = levels
     order = ORDER[problem.shape]
     unc = {}

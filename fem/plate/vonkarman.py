@@ -284,9 +284,10 @@ class VonKarmanSystem:
 
     def solve_pressure(self, P: float, x0: np.ndarray, tol: float = 1e-9, maxit: int = 40):
         """Equilibrium at the scaled uniform pressure P from the start x0; returns (x, lu).
-        The tangent is factorised afresh at x0 (the stored one may belong to another state)."""
+        The stored tangent is reused only if x0 is the last converged state (a load ramp: the
+        first step is then the tangent predictor); otherwise it is factorised afresh at x0."""
         x = x0.copy()
-        state = {"fresh_needed": True, "fresh": False}
+        state = {"fresh_needed": x0 is not getattr(self, "_last_x", None), "fresh": False}
         for _ in range(maxit):
             r = self.residual(x, P)
             if not np.all(np.isfinite(r)):
@@ -296,6 +297,7 @@ class VonKarmanSystem:
                 break
             x += dx
             if nd <= tol * max(self._size(x), 1e-12):
+                self._last_x = x
                 return x, self._lu
         self._lu = None
         raise NewtonError(f"no convergence at scaled pressure {P:.6g}")
@@ -312,7 +314,7 @@ class VonKarmanSystem:
         x, P = x0.copy(), float(P0)
         f = np.concatenate([self.unit_load, np.zeros(self.n - self.nq_dofs)])
         c = np.concatenate([self.center, np.zeros(self.n - self.nq_dofs)])
-        state = {"fresh_needed": False, "fresh": False}
+        state = {"fresh_needed": x0 is not getattr(self, "_last_x", None), "fresh": False}
         out = {}
 
         def step(lu):
@@ -332,6 +334,7 @@ class VonKarmanSystem:
             P += out["dP"]
             if nd <= tol * max(self._size(x), 1e-12) and \
                     abs(out["dP"]) <= tol * max(abs(P), 1e-12):
+                self._last_x = x
                 return x, P, self._lu
         self._lu = None
         raise NewtonError(f"no convergence at scaled centre deflection {W0:.6g}")
