@@ -4,12 +4,14 @@ Runs the von Kármán diaphragm (:mod:`diagap.fem.plate.large_deflection`) twice
 
 - without bias, at the design's ``[analysis] static_pressures`` and at the audit pressure (the
   largest SPL of interest), traced to the clearance (gap, or gap minus ``[backplate]
-  stopper_height``) in both directions: ``pressures_pa``, ``center_deflection_m`` (None past
-  contact), ``contact_pressure_pa``;
+  stopper_height``): ``pressures_pa``, ``center_deflection_m`` (None past contact),
+  ``contact_pressure_pa`` (the trace always reaches the clearance, so it is None only if the
+  section could not be computed);
 - with the electrostatic force of the bias (capacitance density c(g) of the perforated gap, its
   table extended by the parallel-plate law outside its range): the curve up to contact (or the
-  snap to the backplate), the capacitance C(p) of the deflected shape over the whole stroke, and
-  from it the quasi-static THD and the 10 % THD point (:mod:`diagap.lumped.quasistatic`).
+  snap to the backplate) and away from it over the same travel, the capacitance C(p) of the
+  deflected shape over the whole stroke, and from it the quasi-static THD and the 10 % THD point
+  (:mod:`diagap.lumped.quasistatic`).
 
 The capacitance of a deflected state is Σ_q W_q c(g − w(x_q)) over a Gauss rule on the electrode;
 rim fringing, parasitic and preamplifier capacitances are a constant shunt. Results are design
@@ -59,7 +61,8 @@ def large_deflection_section(design, problem, es, resp: dict | None = None,
     clearance = b.clearance_m
     spl_a, p_a = audit_pressure_pa(resp)
     pressures = list(design.analysis.static_pressures_pa)
-    plain = solve_large_deflection(problem, pressures + [p_a], acc, clearance_m=clearance)
+    plain = solve_large_deflection(problem, pressures + [p_a], acc, clearance_m=clearance,
+                                   both_signs=False)
     n = len(pressures)
     data = plain.to_summary()
     data.update({

@@ -62,6 +62,7 @@ def run_design(design: Design) -> RunResult:
     bias point are left out.
     """
     from diagap.fem.plate.solver import solve_plate
+    from diagap.fem.plate.vonkarman import NewtonError
 
     from diagap.audit import audit_design
     from diagap.stages import (coupled_stage, damping_stage, electrostatics_stage,
@@ -80,8 +81,11 @@ def run_design(design: Design) -> RunResult:
         model = lumped_model(design, mech, es, cp, damp)
         _stage(result, "response", response_stage, model, result.summary()["uncertainty"])
     resp = result.sections["response"].to_summary() if "response" in result.sections else None
-    _stage(result, "large_deflection", large_deflection_stage, design, problem, es, resp,
-           result.collapsed)
+    try:
+        _stage(result, "large_deflection", large_deflection_stage, design, problem, es, resp,
+               result.collapsed)
+    except NewtonError as exc:  # the section is then absent, the rest of the run stands
+        log.warning("large deflection not computed: %s", exc)
     sections = {k: v.to_summary() for k, v in result.sections.items()}
     _stage(result, "audit", audit_design, design, sections)
     return result

@@ -32,11 +32,19 @@ EXTRA_ROWS = [
     ("response", "sensitivity_v_per_pa", "sensitivity at 1 kHz (linear)", 1e3, "mV/Pa"),
     ("response", "lowfreq_minus3db_hz", "low-frequency −3 dB point", 1.0, "Hz"),
     ("response", "peak_frequency_hz", "displacement peak", 1e-3, "kHz"),
+    ("large_deflection", "clearance_m", "travel to contact (gap or stopper)", 1e6, "um"),
+    ("large_deflection", "contact_pressure_pa", "contact pressure, no bias", 1.0, "Pa"),
+    ("large_deflection", "contact_pressure_at_bias_pa", "contact pressure at bias", 1.0, "Pa"),
+    ("large_deflection", "contact_spl_db_at_bias", "contact level at bias (sine peak)", 1.0,
+     "dB SPL"),
+    ("large_deflection", "thd_10pct_spl_db_quasistatic", "10 % THD point (quasi-static)", 1.0,
+     "dB SPL"),
 ]
 SECTION_TITLES = {"mechanics": "Diaphragm mechanics (vacuum, no bias)",
                   "electrostatics": "Air-gap electrostatics (rest gap)",
                   "coupled": "Bias and pull-in", "damping": "Squeeze-film damping",
-                  "response": "Lumped model: response, noise, distortion"}
+                  "response": "Lumped model: response, noise, distortion",
+                  "large_deflection": "High sound pressure: large deflection and contact"}
 _UNIT_TEXT = (("um", "µm"), ("ug", "µg"), ("^2", "²"), ("^3", "³"), ("*", "·"), ("ohm", "Ω"),
               ("degC", "°C"))
 

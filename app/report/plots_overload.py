@@ -27,7 +27,14 @@ def draw_overload(section):
     fw, wl = prefixed(max(np.max(np.abs(w0)), d["clearance_m"]), "m")
     ax.plot(p0, w0 * fw, color=GREYS[0], ls=LINES[0], marker=MARKERS[0], ms=3,
             label="von Kármán, no bias")
-    ax.plot(p0, p0 * plain.compliance_m_per_pa * fw, color=GREYS[1], ls=LINES[1],
+    req = [(p, w) for p, w in zip(d["pressures_pa"], d["center_deflection_m"]) if w is not None]
+    if req:
+        pr, wr = np.array(req).T
+        ax.plot(pr, wr * fw, ls="none", marker=MARKERS[3], ms=5, mfc="none", color=GREYS[0],
+                label="requested pressures, no bias")
+    span = np.concatenate([p0, biased[:, 0] if biased.size else [], [0.0]])
+    pl = np.linspace(span.min(), span.max(), 2)
+    ax.plot(pl, pl * plain.compliance_m_per_pa * fw, color=GREYS[1], ls=LINES[1],
             label="linear, no bias")
     if biased.size:
         ax.plot(biased[:, 0], biased[:, 1] * fw, color=GREYS[3], ls=LINES[2], marker=MARKERS[1],
