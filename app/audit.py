@@ -171,14 +171,25 @@ def audit_design(design, s: dict) -> Audit:
                          f"tension ratio T a^2 / D = "
                          f"{t * d.size_m**2 / d.bending_stiffness_n_m:.3g}",
                          label="closed form vs FE compliance"))
-        spl, w = _largest_spl_deflection(design, mech, resp)
-        ratio = _stretching_ratio(d, w)
-        rows.append(_row("small deflection", f"stretching / linear stiffness at {spl:.0f} dB SPL",
-                         0.0, ratio, ratio, "cubic (stretching) over linear restoring pressure",
-                         0.01, 0.05,
-                         "large-deflection energy estimate for a clamped plate (Timoshenko & "
-                         "Woinowsky-Krieger, Theory of Plates and Shells, 1959, §97), scaled "
-                         "by the FE stiffness", label="stretching / linear stiffness"))
+        ld = s.get("large_deflection")
+        if ld and ld.get("audit_center_deflection_m"):
+            rows.append(_small_deflection_row(ld))
+        elif ld is None:
+            spl, w = _largest_spl_deflection(design, mech, resp)
+            ratio = _stretching_ratio(d, w)
+            rows.append(_row("small deflection",
+                             f"stretching / linear stiffness at {spl:.0f} dB SPL", 0.0, ratio,
+                             ratio, "cubic (stretching) over linear restoring pressure",
+                             0.01, 0.05,
+                             "large-deflection energy estimate for a clamped plate (Timoshenko "
+                             "& Woinowsky-Krieger, Theory of Plates and Shells, 1959, §97), "
+                             "scaled by the FE stiffness", label="stretching / linear stiffness"))
+        else:
+            rows.append(_row("small deflection", f"centre deflection at {ld['audit_spl_db']:.0f} "
+                             "dB SPL (peak, m)", ld["audit_linear_center_deflection_m"],
+                             ld["clearance_m"], 1.0, "contact: deviation set to 1", 0.01, 0.05,
+                             "the diaphragm reaches the backplate (or stopper) at this level; "
+                             "fe = the clearance", label="contact at this level (100 %)"))
     if es:
         pp = analytic.parallel_plate_capacitance(el_area, b.gap_m)
         fe = es["rest_capacitance_f"]
@@ -302,6 +313,16 @@ def _reduction_rows(resp: dict) -> list:
                         resp["reduction_error_peak_db"], "lumped - distributed (dB)", 0.5, 2.0,
                         label="lumped − distributed peak height, dB", unit="dB"))
     return out
+
+
+def _small_deflection_row(ld: dict) -> AuditRow:
+    """Linear against von Kármán (anchored edge) centre deflection at the peak pressure of the
+    largest SPL of interest, both from the finite-element diaphragm without bias."""
+    lin, vk = ld["audit_linear_center_deflection_m"], ld["audit_center_deflection_m"]
+    return _row("small deflection", f"centre deflection at {ld['audit_spl_db']:.0f} dB SPL (peak, m)",
+                lin, vk, _rel(lin, vk), "linear / von Karman centre deflection - 1", 0.01, 0.05,
+                "von Karman plate with anchored edge and residual stress (finite elements)",
+                label="linear vs von Kármán deflection")
 
 
 def _stretching_ratio(d, w0: float) -> float:

@@ -67,6 +67,12 @@ class Backplate:
     hole_lattice: str
     hole_radius_m: float
     hole_pitch_m: float
+    stopper_height_m: float | None = None  # bumps on the backplate: contact at gap − height
+
+    @property
+    def clearance_m(self) -> float:
+        """Centre travel to contact: the gap, less the stopper height if any."""
+        return self.gap_m - (self.stopper_height_m or 0.0)
 
     @property
     def perforated(self) -> bool:
@@ -93,6 +99,7 @@ class Electrical:
 class Analysis:
     accuracy: str
     max_memory_b: float | None = None  # the design's own memory limit (None: the default)
+    static_pressures_pa: tuple = ()  # large-deflection pressures (Pa, + toward the backplate)
 
 
 @dataclass(frozen=True)
@@ -192,6 +199,11 @@ def _section(raw: dict, section: str) -> dict:
             out[key] = f.default
         elif f.choices:
             out[key] = _choice(name, table[key], f)
+        elif isinstance(f.default, tuple):  # a list of quantities
+            if not isinstance(table[key], list):
+                raise DesignError(f"{name} = {_fmt(table[key])}: must be a list of quantities "
+                                  f"(e.g. [\"10 {f.unit}\", \"100 {f.unit}\"])")
+            out[key] = tuple(_quantity(f"{name}[{i}]", v, f) for i, v in enumerate(table[key]))
         else:
             out[key] = _quantity(name, table[key], f)
     return out
@@ -290,7 +302,10 @@ def _backplate(raw: dict, d: Diaphragm, air: tuple[float, float] = DEFAULT_AIR) 
     elif v["hole_radius"] is not None or v["hole_pitch"] is not None:
         raise DesignError("backplate.hole_lattice = 'none': hole_radius/hole_pitch given without a "
                           "lattice; set hole_lattice to hex or square, or remove them")
-    return Backplate(v["gap"], v["thickness"], el, lattice, r_h, pitch)
+    if v["stopper_height"] is not None and v["stopper_height"] >= v["gap"]:
+        raise DesignError(f"backplate.stopper_height = {v['stopper_height']:g} m: must be "
+                          f"smaller than the gap ({v['gap']:g} m)")
+    return Backplate(v["gap"], v["thickness"], el, lattice, r_h, pitch, v["stopper_height"])
 
 
 def parse_design(raw: dict, source: str = "<design>") -> Design:
@@ -342,7 +357,7 @@ def parse_design(raw: dict, source: str = "<design>") -> Design:
         backplate=b,
         acoustics=acoustics,
         electrical=electrical,
-        analysis=Analysis(n["accuracy"], n["max_memory"]),
+        analysis=Analysis(n["accuracy"], n["max_memory"], n["static_pressures"]),
         raw=_freeze(raw),
     )
 

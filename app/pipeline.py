@@ -2,7 +2,8 @@
 
 design ─► mechanics (fem.plate) ─► electrostatics (fem.field) ─► coupled (fem.coupling)
        ─► damping (fem.film) ─► lumped model, response, noise, distortion, with the
-       distributed reference (fem.response) ─► audit
+       distributed reference (fem.response) ─► large deflection (fem.plate.large_deflection)
+       ─► audit
 
 Each stage returns a frozen result object that knows its summary section. A section that is not
 computed is absent from the summary, never filled with placeholders; the summary's ``skipped``
@@ -193,11 +194,12 @@ def run_design(design: Design, max_memory_b: float | None = None) -> RunResult:
     :data:`diagap.budget.DEFAULT_MAX_MEMORY_B`) bounds the estimated peak memory.
     """
     from diagap.fem.plate.solver import solve_plate
+    from diagap.fem.plate.vonkarman import NewtonError
 
     from diagap.audit import audit_design
     from diagap.budget import check_run_size
-    from diagap.stages import (coupled_stage, damping_stage, electrostatics_stage, lumped_model,
-                               response_stage)
+    from diagap.stages import (coupled_stage, damping_stage, electrostatics_stage,
+                               large_deflection_stage, lumped_model, response_stage)
 
     check_run_size(design, max_memory_b)
     result = RunResult(design)
@@ -218,6 +220,12 @@ def run_design(design: Design, max_memory_b: float | None = None) -> RunResult:
                                damp.objects["air"])
         _stage(result, "response", response_stage, model, result.summary()["uncertainty"],
                dist, acc)
+    resp = result.sections["response"].to_summary() if "response" in result.sections else None
+    try:
+        _stage(result, "large_deflection", large_deflection_stage, design, problem, es, resp,
+               result.collapsed or design.electrical is None)
+    except NewtonError as exc:  # the section is then absent, the rest of the run stands
+        log.warning("large deflection not computed: %s", exc)
     sections = {k: v.to_summary() for k, v in result.sections.items()}
     _stage(result, "audit", audit_design, design, sections)
     return result

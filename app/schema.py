@@ -47,6 +47,7 @@ SCHEMA: dict[str, dict[str, Field]] = {
         "hole_lattice": Field(choices=("hex", "square", "none"), default="none"),
         "hole_radius": _length(0.1e-6, 5e-3),
         "hole_pitch": _length(0.5e-6, 20e-3),
+        "stopper_height": _length(1e-9, 1e-3),
     },
     "acoustics": {
         "back_volume": _range("m^3", 1e-12, 1e-3, required=True),
@@ -65,6 +66,8 @@ SCHEMA: dict[str, dict[str, Field]] = {
     "analysis": {
         "accuracy": Field(choices=("draft", "normal", "fine"), default="normal"),
         "max_memory": _range("B", 50e6, 1e12, example="4 GB"),
+        # large-deflection pressures: + toward the backplate, − away from it (a list)
+        "static_pressures": _range("Pa", -1e6, 1e6, default=(), example="100 Pa"),
     },
 }
 #: sections a design may leave out; the analyses that need them are skipped

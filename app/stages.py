@@ -33,7 +33,7 @@ import numpy as np
 from diagap.design import Design
 
 __all__ = ["electrostatics_stage", "coupled_stage", "damping_stage", "lumped_model",
-           "electrostatic_spring",
+           "electrostatic_spring", "large_deflection_stage",
            "response_stage", "Section", "electrode_quadrature"]
 
 #: the c(g) table covers local gaps from GAP_TABLE[0]·g to GAP_TABLE[1]·g: the C(x) curve
@@ -383,3 +383,13 @@ def response_stage(model, fe_uncertainty: dict | None = None, distributed=None,
             unc["resonance_hz"] += abs(d_data["reduction_error_peak_frequency"])
         objects["distributed"] = d_res
     return Section(data, unc, objects)
+
+
+def large_deflection_stage(design: Design, problem, es: Section, resp: dict | None,
+                           no_bias: bool = False) -> Section:
+    """Large deflection up to contact, without and with bias, and the quasi-static overload point
+    (see :mod:`diagap.overload`); without the biased part when the bias collapses the diaphragm
+    or the design has no [electrical] section."""
+    from diagap.overload import large_deflection_section
+
+    return large_deflection_section(design, problem, es, resp, with_bias=not no_bias)

@@ -30,7 +30,7 @@ from diagap.writer import write_outputs
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
 DEMO_PLOTS = {"deflection", "mode_profiles", "mode_maps", "cell_field", "capacitance",
-              "bias_branch", "squeeze_film", "response", "noise", "thd"}
+              "bias_branch", "squeeze_film", "response", "noise", "thd", "large_deflection"}
 RESPONSE_PLOTS = {"response", "noise", "thd"}
 CHROMIUM = shutil.which("chromium") or shutil.which("chromium-browser") or \
     (Path("/usr/bin/chromium").exists() and "/usr/bin/chromium") or None

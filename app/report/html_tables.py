@@ -31,12 +31,18 @@ EXTRA_ROWS = [
     ("damping", "squeeze_number_at_resonance"),
     ("response", "sensitivity_v_per_pa"),
     ("response", "lowfreq_minus3db_hz"),
+    ("large_deflection", "clearance_m"),
+    ("large_deflection", "contact_pressure_pa"),
+    ("large_deflection", "contact_pressure_at_bias_pa"),
+    ("large_deflection", "contact_spl_db_at_bias"),
+    ("large_deflection", "thd_10pct_spl_db_quasistatic"),
 ]
 _TEXT_LABELS = {"mechanics.model": "plate model"}
 SECTION_TITLES = {"mechanics": "Diaphragm mechanics (vacuum, no bias)",
                   "electrostatics": "Air-gap electrostatics (rest gap)",
                   "coupled": "Bias and pull-in", "damping": "Squeeze-film damping",
-                  "response": "Lumped model: response, noise, distortion"}
+                  "response": "Lumped model: response, noise, distortion",
+                  "large_deflection": "High sound pressure: large deflection and contact"}
 _UNIT_TEXT = (("um", "µm"), ("ug", "µg"), ("^2", "²"), ("^3", "³"), ("*", "·"), ("ohm", "Ω"),
               ("degC", "°C"))
 

@@ -126,6 +126,7 @@ def report_plots(result, cell=None) -> list[Plot]:
     """
     from diagap.report.plots_electro import electro_plots
     from diagap.report.plots_mech import mech_plots
+    from diagap.report.plots_overload import overload_plots
     from diagap.report.plots_response import response_plots
 
     s = result.sections
@@ -134,4 +135,5 @@ def report_plots(result, cell=None) -> list[Plot]:
         plots += mech_plots(s["mechanics"])
     plots += electro_plots(result.design, s.get("electrostatics"), s.get("coupled"), cell)
     plots += response_plots(result.design, s.get("damping"), s.get("response"))
+    plots += overload_plots(s.get("large_deflection"))
     return plots
