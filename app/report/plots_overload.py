@@ -46,7 +46,7 @@ def draw_overload(section):
             ax.axvline(d[key], color=GREYS[2], ls=":", lw=0.8)
     ax.set_ylabel(f"centre deflection ({wl})")
     ax.set_ylim(-1.15 * d["clearance_m"] * fw, 1.15 * d["clearance_m"] * fw)
-    ax.legend(fontsize=8, loc="upper left")
+    ax.legend(fontsize=9, loc="upper left")
     ax.grid(True, color="0.85")
     if biased.size:
         ax2 = axes[1]
@@ -58,7 +58,7 @@ def draw_overload(section):
         ax2.plot(biased[:, 0], (biased[k0, 2] + slope * (biased[:, 0] - biased[k0, 0])) * fc,
                  color=GREYS[1], ls=LINES[1], label="linear C0 + (dC/dp) p")
         ax2.set_ylabel(f"capacitance ({cl})")
-        ax2.legend(fontsize=8, loc="upper left")
+        ax2.legend(fontsize=9, loc="upper left")
         ax2.grid(True, color="0.85")
         ax2.set_xlabel("static pressure (Pa), + toward the backplate")
     else:
