@@ -189,7 +189,7 @@ def audit_design(design, s: dict) -> Audit:
                              "dB SPL (peak, m)", ld["audit_linear_center_deflection_m"],
                              ld["clearance_m"], 1.0, "contact: deviation set to 1", 0.01, 0.05,
                              "the diaphragm reaches the backplate (or stopper) at this level; "
-                             "fe = the clearance", label="contact at this level (100 %)"))
+                             "fe = the clearance", label="contact at this level"))
     if es:
         pp = analytic.parallel_plate_capacitance(el_area, b.gap_m)
         fe = es["rest_capacitance_f"]
@@ -301,17 +301,17 @@ def _reduction_rows(resp: dict) -> list:
                 resp["reduction_error_db"], "lumped - distributed (dB)", 0.05, 0.5,
                 "distributed: FE plate, film with holes, back volume, radiation and the "
                 "charge-fed electrical node solved together",
-                label="lumped − distributed at 1 kHz, dB", unit="dB")]
+                label="lumped − distributed at 1 kHz", unit="dB")]
     if "distributed_peak_frequency_hz" in resp:
         out.append(_row("single-mode reduction", "response peak frequency (Hz)",
                         resp["lumped_peak_frequency_hz"], resp["distributed_peak_frequency_hz"],
                         resp["reduction_error_peak_frequency"], "lumped / distributed - 1",
                         0.02, 0.10, "the static shape's Rayleigh quotient lies above mode 1",
-                        label="lumped vs distributed peak frequency, %"))
+                        label="lumped vs distributed peak frequency"))
         out.append(_row("single-mode reduction", "response peak height (dB re 1 V/Pa)",
                         resp["lumped_peak_db_v_per_pa"], resp["distributed_peak_db_v_per_pa"],
                         resp["reduction_error_peak_db"], "lumped - distributed (dB)", 0.5, 2.0,
-                        label="lumped − distributed peak height, dB", unit="dB"))
+                        label="lumped − distributed peak height", unit="dB"))
     return out
 
 
