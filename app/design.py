@@ -12,6 +12,7 @@ import difflib
 import math
 from dataclasses import asdict, dataclass, replace
 from pathlib import Path
+from typing import Any
 
 
 try:  # Python >= 3.11
@@ -21,6 +22,7 @@ except ModuleNotFoundError:  # pragma: no cover
 
 from diagap.lumped.buckling import critical_tension_n_per_m
 from diagap.materials import MATERIALS
+from diagap.readout_design import fill_input_capacitance, parse_readout
 from diagap.quantities import DesignError, Field, _choice, _fmt, _quantity  # noqa: F401
 from diagap.schema import (  # noqa: F401  (re-exported: the schema belongs to designs)
     _TOP, DEFAULT_AIR, MAX_FILE_BYTES, MAX_HOLE_KNUDSEN, MIN_SLENDERNESS, OPTIONAL_SECTIONS,
@@ -112,11 +114,14 @@ class Design:
     electrical: Electrical | None  # None: no [electrical]; bias-point results are skipped
     analysis: Analysis
     raw: tuple = ()  # the parsed TOML as nested (key, value) pairs, for overrides in sweeps
+    readout: Any = None  # diagap.lumped.readout.Readout, None: no [readout] (capsule only)
 
     def to_dict(self) -> dict:
         """The normalised design in SI (keys carry units), for summary.json."""
         d = asdict(self)
         d.pop("raw", None)
+        if d.get("readout") is None:
+            d.pop("readout", None)
         # the size is named for what it is, as in the design file: radius or side
         size = "radius" if self.diaphragm.shape == "circle" else "side"
         d["diaphragm"] = {(f"{size}_m" if k == "size_m" else k): v
@@ -346,6 +351,7 @@ def parse_design(raw: dict, source: str = "<design>") -> Design:
     air = DEFAULT_AIR if a is None else (a["temperature"], a["static_pressure"])
     b = _backplate(raw, d, air)
     e = _section(raw, "electrical") if "electrical" in raw else None
+    readout = fill_input_capacitance(raw, e, parse_readout(raw, _section))
     electrical = None if e is None else Electrical(e["bias_voltage"], e["bias_resistance"],
                                                    e["parasitic_capacitance"],
                                                    e["preamp_input_capacitance"])
@@ -359,6 +365,7 @@ def parse_design(raw: dict, source: str = "<design>") -> Design:
         electrical=electrical,
         analysis=Analysis(n["accuracy"], n["max_memory"], n["static_pressures"]),
         raw=_freeze(raw),
+        readout=readout,
     )
 
 

@@ -198,6 +198,7 @@ def run_design(design: Design, max_memory_b: float | None = None) -> RunResult:
 
     from diagap.audit import audit_design
     from diagap.budget import check_run_size
+    from diagap.packaged import packaged_section
     from diagap.stages import (coupled_stage, damping_stage, electrostatics_stage,
                                large_deflection_stage, lumped_model, response_stage)
 
@@ -219,13 +220,16 @@ def run_design(design: Design, max_memory_b: float | None = None) -> RunResult:
         dist = response_inputs(design, es.objects["density"], es.objects["rim"],
                                damp.objects["air"])
         _stage(result, "response", response_stage, model, result.summary()["uncertainty"],
-               dist, acc)
+               dist, acc, readout=design.readout)
     resp = result.sections["response"].to_summary() if "response" in result.sections else None
     try:
         _stage(result, "large_deflection", large_deflection_stage, design, problem, es, resp,
                result.collapsed or design.electrical is None)
     except NewtonError as exc:  # the section is then absent, the rest of the run stands
         log.warning("large deflection not computed: %s", exc)
+    if "response" in result.sections:  # overload point, dynamic range, scope (diagap.packaged)
+        result.sections["response"] = packaged_section(
+            design, result.sections["response"], result.sections.get("large_deflection"))
     sections = {k: v.to_summary() for k, v in result.sections.items()}
     _stage(result, "audit", audit_design, design, sections)
     return result

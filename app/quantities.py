@@ -41,6 +41,7 @@ def unit_registry():
         import pint
 
         _UREG = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
+        _UREG.define("rtHz = hertz ** 0.5 = _ = sqrtHz")  # noise densities: "10 nV/rtHz"
     return _UREG
 
 

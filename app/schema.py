@@ -63,6 +63,21 @@ SCHEMA: dict[str, dict[str, Field]] = {
         "parasitic_capacitance": _range("F", 0.0, 1e-6, default=0.0),
         "preamp_input_capacitance": _range("F", 0.0, 1e-6, default=0.0),
     },
+    # the readout after the capsule and its bias supply (see diagap.readout_design)
+    "readout": {
+        "noise_density": Field("V/rtHz", low=0.0, high=1e-3, low_open=False, high_open=False,
+                               required=True, example="10 nV/rtHz"),
+        "noise_corner": _range("Hz", 0.0, 1e6, default=0.0),
+        "gain": Field("", low=0.0, high=1e6, high_open=False),
+        "gain_db": _range("", -60.0, 120.0),
+        "input_capacitance": _range("F", 0.0, 1e-6),
+        "clip_amplitude": Field("V", low=0.0, high=1e3, high_open=False, example="0.5 V"),
+        "full_scale_input": Field("V", low=0.0, high=1e3, high_open=False, example="0.5 V"),
+        "full_scale_spl": _range("", 60.0, 200.0, example="120"),
+        "charge_pump_resistance": _range("ohm", 0.0, 1e15, default=0.0),
+        "charge_pump_noise": Field("V/rtHz", low=0.0, high=1e-3, low_open=False,
+                                   high_open=False, example="1 uV/rtHz"),
+    },
     "analysis": {
         "accuracy": Field(choices=("draft", "normal", "fine"), default="normal"),
         "max_memory": _range("B", 50e6, 1e12, example="4 GB"),
@@ -71,7 +86,7 @@ SCHEMA: dict[str, dict[str, Field]] = {
     },
 }
 #: sections a design may leave out; the analyses that need them are skipped
-OPTIONAL_SECTIONS = ("acoustics", "electrical")
+OPTIONAL_SECTIONS = ("acoustics", "electrical", "readout")
 #: the air of the squeeze film when a design has no [acoustics]: 20 degC, 101.325 kPa
 DEFAULT_AIR = (ROOM_TEMPERATURE_K, STANDARD_PRESSURE_PA)
 #: least diaphragm size / thickness (Kirchhoff thin plate; common practice: a/h >= ~10)

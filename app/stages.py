@@ -239,6 +239,7 @@ def _film_table(design: Design, mech, air, sq):
 def lumped_model(design: Design, mech, es: Section, cp: Section, damp: Section):
     """The one-degree-of-freedom model at the bias point (see :mod:`diagap.lumped.model`)."""
     from diagap.lumped.model import FilmTable, LumpedModel
+    from diagap.readout_design import bias_leg_resistance_ohm
 
     res = cp.objects["coupled"]
     dev = es.objects["device"]
@@ -257,7 +258,8 @@ def lumped_model(design: Design, mech, es: Section, cp: Section, damp: Section):
         area_m2=mech.static_shape_area_m2, damping_n_s_per_m=sq.damping_n_s_per_m,
         back_volume_m3=ac.back_volume_m3, vent_resistance_pa_s_per_m3=ac.vent_resistance_pa_s_per_m3,
         rest_capacitance_f=float(dev(x_b)), capacitance_slope_f_per_m=float(dev.slope(x_b)),
-        bias_resistance_ohm=e.bias_resistance_ohm, bias_voltage_v=e.bias_voltage_v, gap_m=g,
+        bias_resistance_ohm=bias_leg_resistance_ohm(design), bias_voltage_v=e.bias_voltage_v,
+        gap_m=g,
         parasitic_capacitance_f=e.parasitic_capacitance_f,
         preamp_input_capacitance_f=e.preamp_input_capacitance_f, capacitance_curve=curve,
         film_damping=film, bias_displacement_m=x_b, air_density_kg_m3=air.density_kg_per_m3,
@@ -278,6 +280,9 @@ def _response_uncertainty(unc: dict) -> dict:
     res = 0.5 * (u("coupled.softened_stiffness_n_per_m") + u("mechanics.static_shape_mass_kg"))
     return {"sensitivity_v_per_pa": sens, "resonance_hz": res}
 
+
+#: noise sources of the readout and its bias supply (the others are the capsule's own)
+READOUT_SOURCES = ("readout", "bias_supply")
 
 #: frequencies of the distributed reference solve (Hz): 30 log-spaced from 10 Hz to 100 kHz and
 #: the 1 kHz reference
@@ -339,39 +344,42 @@ def distributed_section(model, resp, inputs, accuracy: str) -> tuple[dict, dict,
 
 
 def response_stage(model, fe_uncertainty: dict | None = None, distributed=None,
-                   accuracy: str = "normal") -> Section:
-    """Frequency response, noise (mechanical-thermal, bias resistor, vent) and distortion; with
-    ``distributed`` (a :class:`fem.response.coupled.ResponseInputs`) also the distributed
-    reference and the reduction error, which is added to the reported uncertainty of the
-    sensitivity, the resonance and the noise (relative, on the pressure amplitude)."""
+                   accuracy: str = "normal", readout=None) -> Section:
+    """Frequency response, noise (every source of :func:`diagap.lumped.breakdown.output_noise_psds`,
+    with ``readout`` (a :class:`diagap.lumped.readout.Readout`) its own noise and the bias
+    supply's) and distortion; with ``distributed`` (a :class:`fem.response.coupled.ResponseInputs`)
+    also the distributed reference and the reduction error, which is added to the reported
+    uncertainty of the sensitivity, the resonance and the noise (relative, on the pressure
+    amplitude). ``noise_contributions_dba_spl`` keeps the capsule's own sources,
+    ``noise_breakdown_dba`` every source; the noise floor and SNR count them all."""
+    from diagap.lumped.breakdown import noise_breakdown, output_noise_psds
+    from diagap.lumped.circuit import solve_circuit
     from diagap.lumped.distortion import distortion_vs_spl
-    from diagap.lumped.noise import a_weighted_level_db
-    from diagap.lumped.response import (analyse_response, output_noise_psd_damping, output_noise_psd_resistor,
-                           output_noise_psd_vent, input_referred)
+    from diagap.lumped.response import analyse_response
 
     resp = analyse_response(model)
     f = resp.response.frequency_hz
-    parts = {"mechanical_thermal": output_noise_psd_damping(model, f),
-             "bias_resistor": output_noise_psd_resistor(model, f),
-             "vent": output_noise_psd_vent(model, f)}
-    total = sum(parts.values())
-    p_in = input_referred(model, f, total)
-    noise = a_weighted_level_db(f, p_in)
-    contributions = {k: a_weighted_level_db(f, input_referred(model, f, v))
-                     for k, v in parts.items()}
+    parts = output_noise_psds(solve_circuit(model, f), readout)
+    breakdown = noise_breakdown(f, resp.response.voltage_per_pa, parts)
+    p_in = breakdown.total_input_psd
+    noise = breakdown.total_dba
+    contributions = {k: v for k, v in breakdown.levels_dba.items()
+                     if k not in READOUT_SOURCES}
     dist = distortion_vs_spl(model)
     data = resp.to_summary()
     data.update({
-        "noise_dba_spl": noise, "snr_db": 94.0 - noise,
+        "noise_dba_spl": noise, "snr_db": breakdown.snr_db,
         "noise_contributions_dba_spl": contributions,
+        "noise_breakdown_dba": dict(breakdown.levels_dba),
         "input_noise_density_pa_per_rthz": [[float(a), float(math.sqrt(b))]
                                             for a, b in zip(f, p_in)],
     })
     data.update(dist.to_summary())
     data["thd_vs_spl"] = [[float(a), float(b)] for a, b in zip(dist.spl_db, dist.thd)]
     unc = _response_uncertainty(fe_uncertainty or {})
-    objects = {"response": resp, "distortion": dist, "model": model, "noise_parts": parts,
-               "noise_input_psd": p_in}
+    objects = {"response": resp, "distortion": dist, "model": model,
+               "noise_parts": {k: v for k, v in parts.items() if np.any(v > 0)},
+               "noise_input_psd": p_in, "noise_breakdown": breakdown}
     if distributed is not None:
         d_data, d_unc, d_res = distributed_section(model, resp, distributed, accuracy)
         data.update(d_data)
