@@ -200,6 +200,33 @@ _ROWS = [
        "dB(A) SPL", 1.0, "share of the bias resistor in the noise floor"),
     _n("response.noise_contributions_dba_spl.vent", "noise: vent (leak) resistance", "dB(A) SPL",
        "dB(A) SPL", 1.0, "share of the vent in the noise floor"),
+    _n("response.noise_breakdown_dba.mechanical_thermal", "noise source: film damping",
+       "dB(A) SPL", "dB(A) SPL", 1.0, "A-weighted input-referred noise of the film damping"),
+    _n("response.noise_breakdown_dba.bias_resistor", "noise source: bias resistor", "dB(A) SPL",
+       "dB(A) SPL", 1.0, "A-weighted input-referred noise of the bias resistor"),
+    _n("response.noise_breakdown_dba.vent", "noise source: vent (leak) resistance", "dB(A) SPL",
+       "dB(A) SPL", 1.0, "A-weighted input-referred noise of the vent"),
+    _n("response.noise_breakdown_dba.readout", "noise source: readout input noise",
+       "dB(A) SPL", "dB(A) SPL", 1.0, "A-weighted input-referred noise of the readout's "
+       "voltage noise (white and 1/f)"),
+    _n("response.noise_breakdown_dba.bias_supply", "noise source: bias supply (charge pump)",
+       "dB(A) SPL", "dB(A) SPL", 1.0, "A-weighted input-referred noise of the bias supply "
+       "through the bias resistor"),
+    _n("response.aop_db_spl", "acoustic overload point", "dB SPL", "dB SPL", 1.0,
+       "lowest SPL at which the THD reaches 10 % or the readout clips or reaches full scale"),
+    _n("response.capsule_aop_db_spl", "capsule overload point (10 % THD)", "dB SPL", "dB SPL",
+       1.0, "lowest SPL at which the capsule's own THD reaches 10 % (or it meets the backplate)"),
+    _n("response.dynamic_range_db", "dynamic range", "dB", "dB", 1.0,
+       "acoustic overload point minus the A-weighted noise floor"),
+    _n("response.readout_clip_spl_db", "readout clipping at", "dB SPL", "dB SPL", 1.0,
+       "SPL at 1 kHz whose amplitude at the readout input reaches its clipping level"),
+    _n("response.readout_gain_db", "readout gain", "dB", "dB", 1.0, "voltage gain of the readout"),
+    _n("response.readout_sensitivity_db_v_per_pa", "sensitivity after the readout",
+       "dB re 1 V/Pa", "dB re 1 V/Pa", 1.0, "output level of the readout at 1 kHz"),
+    _n("response.sensitivity_dbfs", "digital sensitivity", "dBFS", "dBFS", 1.0,
+       "digital level of 94 dB SPL at 1 kHz (a full-scale sine is 0 dBFS)"),
+    _n("response.full_scale_spl_db", "full scale at", "dB SPL", "dB SPL", 1.0,
+       "SPL at 1 kHz of a full-scale (0 dBFS) sine"),
     _n("response.thd_1pct_spl_db", "1 % THD at", "dB SPL", "dB SPL", 1.0,
        "sound pressure level at which the THD reaches 1 %"),
     _n("response.aop_10pct_spl_db", "10 % THD (acoustic overload) at", "dB SPL", "dB SPL", 1.0,
@@ -280,7 +307,8 @@ KEY_OUTPUTS = (
 
 #: text (non-numeric) summary keys, shown as they are
 TEXT_KEYS = ("mechanics.model", "mechanics.accuracy", "damping.perforation.lattice",
-             "response.thd_limit_note", "coupled.note")
+             "response.thd_limit_note", "coupled.note", "response.scope",
+             "response.aop_limited_by", "response.aop_note")
 
 # design inputs (sweep axes): (section.key of the design file) → (label, SI unit, unit, scale)
 _INPUTS = {
@@ -305,12 +333,23 @@ _INPUTS = {
     "electrical.bias_resistance": ("bias resistance", "Ω", "GΩ", 1e-9),
     "electrical.parasitic_capacitance": ("parasitic capacitance", "F", "pF", 1e12),
     "electrical.preamp_input_capacitance": ("preamp input capacitance", "F", "pF", 1e12),
+    "readout.noise_density": ("readout noise density", "V/√Hz", "nV/√Hz", 1e9),
+    "readout.noise_corner": ("readout 1/f corner", "Hz", "Hz", 1.0),
+    "readout.gain": ("readout gain", "", "", 1.0),
+    "readout.gain_db": ("readout gain", "dB", "dB", 1.0),
+    "readout.input_capacitance": ("readout input capacitance", "F", "pF", 1e12),
+    "readout.clip_amplitude": ("readout clipping amplitude (peak)", "V", "V", 1.0),
+    "readout.full_scale_input": ("full-scale input amplitude (peak)", "V", "V", 1.0),
+    "readout.full_scale_spl": ("full-scale SPL", "dB SPL", "dB SPL", 1.0),
+    "readout.charge_pump_resistance": ("charge-pump source resistance", "Ω", "MΩ", 1e-6),
+    "readout.charge_pump_noise": ("charge-pump noise density", "V/√Hz", "nV/√Hz", 1e9),
 }
 INPUT_NAMES: dict[str, Name] = {
     k: Name(k, label, si, unit, scale, f"design input {k}")
     for k, (label, si, unit, scale) in _INPUTS.items()}
 
 _INDEXED = re.compile(r"(.*)_(\d+)$")
+_BREAKDOWN = "response.noise_breakdown_dba."
 
 
 def lookup(key: str) -> Name | None:
@@ -320,6 +359,10 @@ def lookup(key: str) -> Name | None:
     """
     if key in NAMES:
         return NAMES[key]
+    if key.startswith(_BREAKDOWN):  # a noise source without a row of its own
+        source = key[len(_BREAKDOWN):]
+        return Name(key, f"noise source: {source.replace('_', ' ')}", "dB(A) SPL", "dB(A) SPL",
+                    1.0, f"A-weighted input-referred noise of {source.replace('_', ' ')}")
     m = _INDEXED.fullmatch(key)
     if m and m.group(1) in NAMES:
         base, i = NAMES[m.group(1)], int(m.group(2))

@@ -61,6 +61,8 @@ ROWS = [
     ("response", "snr_db"),
     ("response", "thd_1pct_spl_db"),
     ("response", "aop_10pct_spl_db"),
+    ("response", "sensitivity_dbfs"),
+    ("response", "readout_sensitivity_db_v_per_pa"),
 ]
 
 
@@ -143,6 +145,9 @@ def summary_table(summary: dict) -> str:
     for r in rows:
         lines.append(r if isinstance(r, str) else
                      f"  {r[0]:<{w[0]}}  {r[1]:>{w[1]}}  {r[2]:<{w[2]}}  {r[3]:>{w[3]}}".rstrip())
+    from diagap.report.breakdown_table import breakdown_lines
+
+    lines += breakdown_lines(summary)
     audit = summary.get("audit")
     if audit:
         lines.append("[audit of the simple-model assumptions; thresholds are common practice]")

@@ -16,6 +16,8 @@ from importlib.metadata import PackageNotFoundError, version
 from pathlib import Path
 
 from diagap.names import lookup
+from diagap.report.breakdown_table import breakdown_html
+from diagap.scope import response_scope, scope_text
 from diagap.report.html_tables import SECTION_TITLES, audit_counts, audit_table, design_table, results_tables
 
 __all__ = ["report_html", "write_report_html", "CAUTION_TEXT", "png_size"]
@@ -169,6 +171,8 @@ def report_html(result, plots, files: list[str] = ()) -> str:
         "</div>",
         _collapse_box(summary) if result.collapsed else "",
         _key_figures(summary),
+        f'<p class="sub"><b>{html.escape(scope_text(response_scope(design)).capitalize())}.'
+        f'</b></p>',
         '<nav><b>Contents</b><ul><li><a href="#design">Design</a></li>'
         '<li><a href="#audit">Assumption audit</a></li>' + "".join(sections) +
         '<li><a href="#files">Output files</a></li></ul></nav>',
@@ -190,6 +194,8 @@ def report_html(result, plots, files: list[str] = ()) -> str:
     ]
     for sec, table in results_tables(summary):
         body.append(table)
+        if sec == "response":
+            body.append(breakdown_html(summary))
         body.extend(by_section.get(sec, []))
     body += ['<h2 id="files">Output files</h2>', _files_list(list(files))]
     return ("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"

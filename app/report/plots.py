@@ -124,6 +124,7 @@ def report_plots(result, cell=None) -> list[Plot]:
 
     ``cell`` is the unit-cell field (:func:`diagap.report.fields.cell_field`), or None.
     """
+    from diagap.report.plots_breakdown import breakdown_plots
     from diagap.report.plots_electro import electro_plots
     from diagap.report.plots_mech import mech_plots
     from diagap.report.plots_overload import overload_plots
@@ -136,4 +137,5 @@ def report_plots(result, cell=None) -> list[Plot]:
     plots += electro_plots(result.design, s.get("electrostatics"), s.get("coupled"), cell)
     plots += response_plots(result.design, s.get("damping"), s.get("response"))
     plots += overload_plots(s.get("large_deflection"))
+    plots += breakdown_plots(s.get("response"))
     return plots

@@ -25,7 +25,8 @@ __all__ = ["response_plots", "draw_squeeze", "draw_response", "draw_noise", "dra
            "reduction_words"]
 
 _NOISE_LABELS = {"mechanical_thermal": "mechanical-thermal (film damping)",
-                 "bias_resistor": "bias resistor", "vent": "vent (leak) resistance"}
+                 "bias_resistor": "bias resistor", "vent": "vent (leak) resistance",
+                 "readout": "readout input noise", "bias_supply": "bias supply (charge pump)"}
 
 
 def _hz(f: float) -> str:
@@ -156,7 +157,7 @@ def draw_noise(resp_section):
     h2 = np.abs(resp.voltage_per_pa) ** 2
     total = np.asarray(resp_section.objects["noise_input_psd"], float)
     data = resp_section.data
-    levels = data.get("noise_contributions_dba_spl", {})
+    levels = data.get("noise_breakdown_dba", data.get("noise_contributions_dba_spl", {}))
     fig, ax = new_figure(7.6, 5.0, margins_in=(0.9, 0.8, 1.25, 0.2))
     ax.axvspan(20.0, 20e3, color="0.93", lw=0, label="audio band 20 Hz – 20 kHz")
     ax.loglog(f, np.sqrt(total), color="black", lw=2.2,
