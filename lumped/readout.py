@@ -25,8 +25,9 @@ Model (SI; all voltages at the readout's input, which is the output node ``v`` o
   V_fs, referred to the readout input; AES17 convention [from memory]). With the full scale given
   as an input amplitude V_fs (peak), or as the SPL L_fs of the sine that reaches it,
 
-      sensitivity_dbfs = 20·log10( √2 |H(1 kHz)| · 1 Pa / V_fs ) = 94 dB − L_fs   (1 Pa = 94 dB SPL),
+      sensitivity_dbfs = 20·log10( √2 |H(1 kHz)| · 1 Pa / V_fs ) = 93.98 dB − L_fs,
 
+  the digital level of the 1 Pa tone (the nominal "94 dB SPL"; 20·log10(1 Pa/20 µPa) = 93.98 dB),
   and the digital output saturates at L_fs.
 * Bias supply (a charge pump): its source resistance R_s lies in series with the bias resistor
   R_b, so the circuit's bias leg is R_b + R_s; its noise is a voltage e_s in series with that leg,
@@ -50,8 +51,9 @@ from diagap.fem.constants import BOLTZMANN_J_PER_K, P_REF_PA
 __all__ = ["ReadoutError", "Readout", "readout_output_psds", "sine_spl_db", "overload_point",
            "REFERENCE_SPL_DB"]
 
-#: 1 Pa rms re 20 µPa: the level of the SNR and sensitivity reference tone (dB SPL)
-REFERENCE_SPL_DB = 20.0 * math.log10(1.0 / P_REF_PA)
+#: the reference tone of SNR: 94 dB SPL, the trade's nominal level of 1 Pa rms (exactly
+#: 20·log10(1 Pa / 20 µPa) = 93.98 dB); SNR = 94 dB − the A-weighted noise floor
+REFERENCE_SPL_DB = 94.0
 
 
 class ReadoutError(ValueError):
@@ -159,8 +161,10 @@ class Readout:
 
     def full_scale_level_db(self, sensitivity_v_per_pa: float) -> float | None:
         """SPL (dB) of a 0 dBFS sine, or None without a digital output."""
-        dbfs = self.sensitivity_dbfs(sensitivity_v_per_pa)
-        return None if dbfs is None else REFERENCE_SPL_DB - dbfs
+        if self.full_scale_spl_db is not None:
+            return self.full_scale_spl_db
+        v_fs = self.full_scale_peak_v(sensitivity_v_per_pa)
+        return None if v_fs is None else sine_spl_db(v_fs, sensitivity_v_per_pa)
 
 
 def readout_output_psds(readout: Readout, solution, temperature_k: float) -> dict:

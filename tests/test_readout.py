@@ -55,7 +55,7 @@ def test_dbfs_arithmetic():
     by_input = Readout(1e-8, full_scale_input_v=1.0)
     # 0 dBFS is a 1 V peak sine: 94 dB SPL gives 20 log10(0.014142) = -36.99 dBFS
     assert by_input.sensitivity_dbfs(s) == pytest.approx(-36.9897, rel=1e-5, abs=0)
-    # that full scale is reached at 94 + 36.99 = 130.97 dB SPL
+    # that full scale is reached at 93.98 + 36.99 = 130.97 dB SPL (1 Pa re 20 µPa)
     assert by_input.full_scale_level_db(s) == pytest.approx(20 * math.log10(1 / P_REF) + 36.9897,
                                                             rel=1e-6, abs=0)
     # given as the SPL of full scale: 120 dB SPL ↔ -26 dBFS (94 dB SPL = 1 Pa, 93.98 dB exactly)
@@ -202,8 +202,7 @@ def test_example_is_packaged_with_every_source(example):
     assert set(r["noise_contributions_dba_spl"]) == {"mechanical_thermal", "bias_resistor", "vent"}
     power = sum(10 ** (v / 10) for v in r["noise_breakdown_dba"].values())
     assert power == pytest.approx(10 ** (r["noise_dba_spl"] / 10), rel=2e-3, abs=0)
-    assert r["snr_db"] == pytest.approx(20 * math.log10(1 / P_REF) - r["noise_dba_spl"],
-                                        rel=1e-12, abs=0)
+    assert r["snr_db"] == pytest.approx(94.0 - r["noise_dba_spl"], rel=1e-12, abs=0)
 
 
 def test_example_readout_noise_by_hand(example):
