@@ -122,6 +122,22 @@ def _design_rows(design) -> list[tuple[str, str, str]]:
             ("electrical", "preamp input capacitance", e.preamp_input_capacitance_f * 1e12,
              "pF"),
         ]
+    r = getattr(design, "readout", None)
+    if r is not None:
+        rows += [
+            ("readout", "input noise density (white)", r.noise_density_v_per_rthz * 1e9,
+             "nV/√Hz"),
+            ("readout", "1/f noise corner", r.noise_corner_hz, "Hz"),
+            ("readout", "gain", r.gain_db, "dB"),
+            ("readout", "input capacitance", r.input_capacitance_f * 1e12, "pF"),
+            ("readout", "clipping amplitude (peak)", r.clip_amplitude_v or "—", "V"),
+            ("readout", "full scale", r.full_scale_input_v if r.full_scale_input_v else
+             r.full_scale_spl_db or "—", "V peak" if r.full_scale_input_v else "dB SPL"),
+            ("readout", "charge-pump resistance", r.charge_pump_resistance_ohm * 1e-6, "MΩ"),
+            ("readout", "charge-pump noise", "thermal of its resistance"
+             if r.charge_pump_noise_v_per_rthz is None else
+             f"{r.charge_pump_noise_v_per_rthz * 1e9:.4g} nV/√Hz", ""),
+        ]
     rows += [
         ("analysis", "accuracy", design.analysis.accuracy, ""),
     ]
