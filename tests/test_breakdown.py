@@ -144,3 +144,32 @@ def test_bias_supply_noise_is_silent_without_a_source():
     bd = noise_breakdown(F, sol.output_voltage(pressure_pa=1.0), parts)
     assert bd.levels_dba["bias_supply"] is None
     assert bd.levels_dba["readout"] is not None
+
+
+class _WithElementNoise:
+    """A solved circuit that reports its thermal sources per element (as a circuit with
+    ``thermal_noise_output_psds`` does): the breakdown must take them from there."""
+
+    def __init__(self, solution, psds):
+        self._s, self._psds = solution, psds
+
+    def __getattr__(self, name):
+        return getattr(self._s, name)
+
+    def thermal_noise_output_psds(self, temperature_k):
+        return dict(self._psds)
+
+
+def test_thermal_sources_come_from_the_circuit_when_it_lists_them():
+    r_b, r_s = 1e10, 1e9
+    model = piston(bias_resistance_ohm=r_b + r_s)
+    sol = solve_circuit(model, F)
+    leg = np.full(F.shape, 4e-16)
+    given = {"back_volume": np.full(F.shape, 1e-16), "bias_resistor": leg}
+    parts = output_noise_psds(_WithElementNoise(sol, given),
+                              Readout(1e-8, charge_pump_resistance_ohm=r_s))
+    assert set(parts) == {"back_volume", "bias_resistor", "readout", "bias_supply"}
+    np.testing.assert_allclose(parts["back_volume"], 1e-16, rtol=1e-15, atol=0)
+    # the leg's thermal noise keeps the bias resistor's share R_b/(R_b + R_s)
+    np.testing.assert_allclose(parts["bias_resistor"], 4e-16 * r_b / (r_b + r_s), rtol=1e-12,
+                               atol=0)
