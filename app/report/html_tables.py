@@ -14,6 +14,7 @@ import math
 from diagap.names import lookup
 from diagap.table import ROWS, absent_reason
 from diagap.table import UNCERTAINTY_ALIAS as _UNCERTAINTY_ALIAS
+from diagap.report.temperature_tables import thermal_design_rows
 
 __all__ = ["design_table", "results_tables", "audit_table", "audit_counts", "display_unit",
            "format_value"]
@@ -122,6 +123,7 @@ def _design_rows(design) -> list[tuple[str, str, str]]:
             ("electrical", "preamp input capacitance", e.preamp_input_capacitance_f * 1e12,
              "pF"),
         ]
+    rows += thermal_design_rows(design)
     rows += [
         ("analysis", "accuracy", design.analysis.accuracy, ""),
     ]

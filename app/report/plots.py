@@ -128,6 +128,7 @@ def report_plots(result, cell=None) -> list[Plot]:
     from diagap.report.plots_mech import mech_plots
     from diagap.report.plots_overload import overload_plots
     from diagap.report.plots_response import response_plots
+    from diagap.report.plots_temperature import temperature_plots
 
     s = result.sections
     plots: list[Plot] = []
@@ -136,4 +137,5 @@ def report_plots(result, cell=None) -> list[Plot]:
     plots += electro_plots(result.design, s.get("electrostatics"), s.get("coupled"), cell)
     plots += response_plots(result.design, s.get("damping"), s.get("response"))
     plots += overload_plots(s.get("large_deflection"))
+    plots += temperature_plots(s.get("temperature_sweep"))
     return plots
