@@ -265,7 +265,8 @@ def _thermal(raw: dict, d: Diaphragm, t_op: float) -> tuple[Diaphragm, ThermalMo
     if model is None:
         _check_buckling(d)
         return d, None
-    sigma = operating_stress_pa(model, t_op, d.shape, d.edge, d.size_m, d.thickness_m)
+    where = "acoustics.temperature" if "acoustics" in raw else "operating temperature"
+    sigma = operating_stress_pa(model, t_op, d.shape, d.edge, d.size_m, d.thickness_m, where)
     return replace(d, residual_stress_pa=sigma), model
 
 

@@ -112,14 +112,16 @@ def thermal_model(diaphragm: dict, substrate: dict | None, temperatures: tuple,
 
 
 def operating_stress_pa(model: ThermalModel, temperature_k: float, shape: str, edge: str,
-                        size_m: float, thickness_m: float) -> float:
-    """σ at the operating temperature; a one-line error when the diaphragm buckles there."""
+                        size_m: float, thickness_m: float,
+                        field: str = "acoustics.temperature") -> float:
+    """σ at the operating temperature; a one-line error naming ``field`` when the diaphragm
+    buckles there."""
     sigma = model.stress_pa(temperature_k)
     s_cr = critical_stress_pa(shape, edge, size_m, thickness_m, model.youngs_modulus_pa,
                               model.poisson_ratio)
     if buckles(sigma, s_cr):
         raise DesignError(
-            f"acoustics.temperature = {temperature_k:g} K: the thermal stress there, "
+            f"{field} = {temperature_k:g} K: the thermal stress there, "
             f"{sigma:.4g} Pa (from diaphragm.residual_stress = {model.reference_stress_pa:g} Pa "
             f"at {model.reference_temperature_k:g} K), is at or beyond the buckling stress; "
             f"must be > -{s_cr:.4g} Pa (critical stress for a {edge} {shape})")
