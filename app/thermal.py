@@ -32,9 +32,11 @@ error estimates of a point are the FE discretisation errors propagated to the lu
 (:func:`diagap.stages._response_uncertainty`); the single-mode reduction error measured by the
 distributed solve at the operating temperature applies to the points as well.
 
-The points run one after another: each is about two seconds of sparse factorisations on one
-core at draft accuracy, and a process pool on a two-core machine would spend about that in
-starting workers and importing the FE stack, so it is not used.
+The points run one after another. Each is a few seconds of sparse factorisations at draft
+accuracy (about 3 s on an idle core for the demo geometry); a two-worker process pool measured
+slower than the serial loop on a shared two-core machine (82.7 s against 63.4 s for four points,
+``tests/bench/bench_temperature.py``): its workers start fresh, import the FE stack and rebuild
+the c(g) table, and compete with the rest of the machine, so it is not used.
 """
 from __future__ import annotations
 

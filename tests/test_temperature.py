@@ -140,8 +140,8 @@ def test_buckled_point_has_null_values_and_says_why():
 
     t_x = _crossing_k()
     d = _cold_design([t_x - 1.0, t_x + 15.0])
-    out = temperature_sweep(d).to_summary()
-    cold, warm = out
+    sweep = temperature_sweep(d)
+    cold, warm = sweep.to_summary()
     assert cold["buckled"] is True and "buckled" in cold["note"]
     for key in ("sensitivity_db_v_per_pa", "resonance_hz", "pull_in_voltage_v", "noise_dba_spl"):
         assert cold[key] is None
@@ -151,6 +151,15 @@ def test_buckled_point_has_null_values_and_says_why():
     # no [electrical]/[acoustics]: no response, and the entry says why
     assert warm["buckled"] is False and warm["pull_in_voltage_v"] > 0
     assert warm["sensitivity_db_v_per_pa"] is None and "[electrical]" in warm["note"]
+    # the plot marks the buckled point and leaves out what was computed nowhere
+    from diagap.report.plots import RenderedPlots
+    from diagap.report.plots_temperature import panels, temperature_plots
+
+    plots = temperature_plots(sweep)
+    assert "1 buckled" in plots[0].caption and "sensitivity, noise" in plots[0].caption
+    assert panels(sweep.to_summary()) == ["residual_stress_pa", "resonance_hz",
+                                          "pull_in_voltage_v"]
+    assert RenderedPlots(plots).png("temperature_drift")[:8] == b"\x89PNG\r\n\x1a\n"
 
 
 def test_operating_temperature_beyond_buckling_is_refused():

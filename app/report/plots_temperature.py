@@ -1,7 +1,8 @@
 """Drift plot: stress, sensitivity, resonance, pull-in and noise versus operating temperature.
 
-Data from the ``temperature_sweep`` section (:mod:`diagap.thermal`). Five stacked panels share the
-temperature axis (°C). The stress panel shows the buckling limit −σ_cr as a dashed line; a buckled
+Data from the ``temperature_sweep`` section (:mod:`diagap.thermal`). Up to five stacked panels
+share the temperature axis (°C), one per quantity computed at some temperature (the caption names
+the others); the resonance panel adds the natural frequency in vacuum. The stress panel shows the buckling limit −σ_cr as a dashed line; a buckled
 temperature is marked on every panel by a grey vertical band and an ``x`` on the stress curve, a
 collapsed one (bias at or above pull-in) by a dotted vertical line. Values that were not computed
 are gaps in the curves, never interpolated.
@@ -13,7 +14,7 @@ import numpy as np
 from diagap.names import lookup
 from diagap.report.plots import GREYS, LINES, MARKERS, Plot, new_figure
 
-__all__ = ["temperature_plots", "draw_temperature"]
+__all__ = ["temperature_plots", "draw_temperature", "panels"]
 
 _PANELS = ("residual_stress_pa", "sensitivity_db_v_per_pa", "resonance_hz", "pull_in_voltage_v",
            "noise_dba_spl")
@@ -25,17 +26,37 @@ def _values(points, key: str, scale: float) -> np.ndarray:
     return np.array([np.nan if p.get(key) is None else p[key] * scale for p in points], float)
 
 
+def _has(points, key: str) -> bool:
+    return any(p.get(key) is not None for p in points)
+
+
+def panels(points) -> list[str]:
+    """The quantities with at least one computed value (the stress always; the resonance panel
+    also when only the natural frequency in vacuum is known)."""
+    return [k for k in _PANELS if k == "residual_stress_pa" or _has(points, k)
+            or (k == "resonance_hz" and _has(points, "natural_frequency_hz"))]
+
+
 def draw_temperature(section):
-    """Five stacked axes of the drift quantities against temperature (°C)."""
+    """Stacked axes of the drift quantities against temperature (°C), one per computed
+    quantity."""
     points = section.to_summary()
     t_c = np.array([p["temperature_k"] - 273.15 for p in points])
-    fig, axes = new_figure(7.6, 8.6, margins_in=(1.05, 0.25, 0.6, 0.25), hspace=0.12,
-                           nrows=len(_PANELS), sharex=True)
+    keys = panels(points)
+    fig, axes = new_figure(7.6, 1.0 + 1.55 * len(keys), margins_in=(1.05, 0.25, 0.6, 0.25),
+                           hspace=0.12, nrows=len(keys), sharex=True, squeeze=False)
+    axes = axes[:, 0]
     span = max(float(np.ptp(t_c)), 1.0)
-    for ax, key in zip(axes, _PANELS):
+    for ax, key in zip(axes, keys):
         n = lookup(f"temperature_sweep.{key}")
         y = _values(points, key, n.scale)
-        ax.plot(t_c, y, color=GREYS[0], ls=LINES[0], marker=MARKERS[0], ms=4)
+        ax.plot(t_c, y, color=GREYS[0], ls=LINES[0], marker=MARKERS[0], ms=4,
+                label=n.label if key == "resonance_hz" else None)
+        if key == "resonance_hz" and _has(points, "natural_frequency_hz"):
+            ax.plot(t_c, _values(points, "natural_frequency_hz", n.scale), color=GREYS[1],
+                    ls=LINES[1], marker=MARKERS[1], ms=4, mfc="none",
+                    label=lookup("temperature_sweep.natural_frequency_hz").label)
+            ax.legend(fontsize=9, loc="best")
         for t, p in zip(t_c, points):
             if p["buckled"]:
                 ax.axvspan(t - 0.02 * span, t + 0.02 * span, color="0.8", lw=0)
@@ -62,9 +83,12 @@ def temperature_plots(section) -> list[Plot]:
     if section is None or not getattr(section, "points", ()):
         return []
     n_buckled = sum(p.buckled for p in section.points)
+    missing = [_SHORT[k] for k in _PANELS if k not in panels(section.to_summary())]
     caption = ("Residual stress from the thermal-expansion mismatch with the substrate, and the "
                "sensitivity at 1 kHz, resonance in air, pull-in voltage and A-weighted noise "
                "floor at each temperature; gaps: not computed")
+    if missing:
+        caption += f"; not computed at any temperature: {', '.join(missing)}"
     if n_buckled:
         caption += f"; grey bands and x: {n_buckled} buckled temperature(s)"
     return [Plot("temperature_drift", "temperature_sweep", "Drift over the operating "
