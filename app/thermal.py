@@ -8,10 +8,11 @@ substrate (:mod:`diagap.thermal_model`, :mod:`diagap.lumped.thermal`),
 
 and the air in the gap and the back volume is at T (viscosity, mean free path, density and sound
 speed from :mod:`diagap.fem.air`; the static pressure is the design's). Everything else is the
-design as given: the geometry is that of the reference temperature (the thermal strains,
-|α ΔT| ≲ 1e-3 over −40…+85 °C for metals and ≲ 3e-4 for silicon films, are far below the
-discretisation and model errors; they change gap and size by that fraction) and E, ν, ρ are
-taken constant.
+design as given: the geometry is that of the reference temperature and E, ν, ρ are taken
+constant. Neglected thereby: the thermal strains of size and gap, |α ΔT| up to ~2e-3 over
+−40…+85 °C for the metal presets and ~4e-4 for silicon films (they shift the capacitance and the
+mass per area by that fraction, while the stress change they cause is kept), and the temperature
+dependence of E (~−6e-5 1/K for silicon [from memory]).
 
 Per temperature (a point):
 
