@@ -259,6 +259,10 @@ def test_example_runs_end_to_end(drift):
         assert at_op[key] == pytest.approx(summary["response"][key], rel=1e-9, abs=0)
     assert at_op["pull_in_voltage_v"] == pytest.approx(summary["coupled"]["pull_in_voltage_v"],
                                                        rel=1e-9, abs=0)
+    from diagap.names import lookup
+
+    numeric = [k for k, v in sweep[0].items() if isinstance(v, float)]
+    assert len(numeric) >= 6 and all(lookup(f"temperature_sweep.{k}") for k in numeric)
     assert (out / "plots" / "temperature_drift.png").is_file()
     page = (out / "report.html").read_text(encoding="utf-8")
     assert "Drift over the operating temperatures" in page and 'id="plot-temperature_drift"' in page
