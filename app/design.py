@@ -27,6 +27,8 @@ from diagap.quantities import DesignError, Field, _choice, _fmt, _quantity  # no
 from diagap.schema import (  # noqa: F401  (re-exported: the schema belongs to designs)
     _TOP, DEFAULT_AIR, MAX_FILE_BYTES, MAX_HOLE_KNUDSEN, MIN_SLENDERNESS, OPTIONAL_SECTIONS,
     SCHEMA)
+from diagap.thermal_model import (ThermalModel, check_hole_knudsen, operating_stress_pa,
+                                  thermal_model)
 
 __all__ = [
     "DesignError", "Design", "Diaphragm", "Backplate", "Acoustics", "Electrical", "Analysis",
@@ -102,6 +104,7 @@ class Analysis:
     accuracy: str
     max_memory_b: float | None = None  # the design's own memory limit (None: the default)
     static_pressures_pa: tuple = ()  # large-deflection pressures (Pa, + toward the backplate)
+    temperatures_k: tuple = ()  # operating temperatures of the drift analysis (K)
 
 
 @dataclass(frozen=True)
@@ -115,6 +118,9 @@ class Design:
     analysis: Analysis
     raw: tuple = ()  # the parsed TOML as nested (key, value) pairs, for overrides in sweeps
     readout: Any = None  # diagap.lumped.readout.Readout, None: no [readout] (capsule only)
+    # thermal data (None: none given; the residual stress is then used at every temperature);
+    # with it, diaphragm.residual_stress_pa is the stress at the operating temperature
+    thermal: ThermalModel | None = None
 
     def to_dict(self) -> dict:
         """The normalised design in SI (keys carry units), for summary.json."""
@@ -122,6 +128,8 @@ class Design:
         d.pop("raw", None)
         if d.get("readout") is None:
             d.pop("readout", None)
+        if d.get("thermal") is None:
+            d.pop("thermal", None)
         # the size is named for what it is, as in the design file: radius or side
         size = "radius" if self.diaphragm.shape == "circle" else "side"
         d["diaphragm"] = {(f"{size}_m" if k == "size_m" else k): v
@@ -248,8 +256,23 @@ def _diaphragm(raw: dict) -> Diaphragm:
     d = Diaphragm(v["shape"], size, v["thickness"], props["youngs_modulus_pa"],
                   props["poisson_ratio"], props["density_kg_m3"], v["residual_stress"], v["edge"],
                   v["material"])
-    _check_buckling(d)
     return d
+
+
+def _thermal(raw: dict, d: Diaphragm, t_op: float) -> tuple[Diaphragm, ThermalModel | None]:
+    """The diaphragm at the operating temperature ``t_op`` and the thermal model (None without
+    thermal data: the stress as given, checked against buckling)."""
+    sub = _section(raw, "substrate") if "substrate" in raw else None
+    temps = _section(raw, "analysis")["temperatures"]
+    model = thermal_model(_section(raw, "diaphragm"), sub, temps,
+                          {"youngs_modulus_pa": d.youngs_modulus_pa,
+                           "poisson_ratio": d.poisson_ratio})
+    if model is None:
+        _check_buckling(d)
+        return d, None
+    where = "acoustics.temperature" if "acoustics" in raw else "operating temperature"
+    sigma = operating_stress_pa(model, t_op, d.shape, d.edge, d.size_m, d.thickness_m, where)
+    return replace(d, residual_stress_pa=sigma), model
 
 
 def _check_buckling(d: Diaphragm) -> None:
@@ -349,6 +372,7 @@ def parse_design(raw: dict, source: str = "<design>") -> Design:
     acoustics = None if a is None else Acoustics(a["back_volume"], a["vent_resistance"],
                                                  a["temperature"], a["static_pressure"])
     air = DEFAULT_AIR if a is None else (a["temperature"], a["static_pressure"])
+    d, thermal = _thermal(raw, d, air[0])
     b = _backplate(raw, d, air)
     e = _section(raw, "electrical") if "electrical" in raw else None
     readout = fill_input_capacitance(raw, e, parse_readout(raw, _section))
@@ -356,6 +380,8 @@ def parse_design(raw: dict, source: str = "<design>") -> Design:
                                                    e["parasitic_capacitance"],
                                                    e["preamp_input_capacitance"])
     n = _section(raw, "analysis")
+    if b.perforated and n["temperatures"]:
+        check_hole_knudsen(n["temperatures"], air[1], b.hole_radius_m, MAX_HOLE_KNUDSEN)
     return Design(
         name=raw.get("name", _TOP["name"].default),
         description=raw.get("description", ""),
@@ -363,9 +389,11 @@ def parse_design(raw: dict, source: str = "<design>") -> Design:
         backplate=b,
         acoustics=acoustics,
         electrical=electrical,
-        analysis=Analysis(n["accuracy"], n["max_memory"], n["static_pressures"]),
+        analysis=Analysis(n["accuracy"], n["max_memory"], n["static_pressures"],
+                          tuple(sorted(n["temperatures"]))),
         raw=_freeze(raw),
         readout=readout,
+        thermal=thermal,
     )
 
 

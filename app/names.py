@@ -280,6 +280,23 @@ _ROWS = [
     _n("large_deflection.thd_10pct_spl_db_quasistatic", "10 % THD point (quasi-static)", "dB SPL",
        "dB SPL", 1.0, "from the nonlinear quasi-static transfer: stiffening, electrostatic force "
        "and C(x) up to contact"),
+    # ---- drift over the operating temperatures (one entry per temperature)
+    _n("temperature_sweep.temperature_k", "temperature", "K", "K", 1.0,
+       "operating temperature of the point (air and diaphragm)"),
+    _n("temperature_sweep.residual_stress_pa", "residual stress at temperature", "Pa", "MPa",
+       1e-6, "σ0 − E/(1−ν)(α_film − α_substrate)(T − T0), tensile positive"),
+    _n("temperature_sweep.sensitivity_db_v_per_pa", "sensitivity at 1 kHz", "dB re 1 V/Pa",
+       "dB re 1 V/Pa", 1.0, "open-circuit output level at 1 kHz at this temperature"),
+    _n("temperature_sweep.resonance_hz", "resonance in air (lumped model)", "Hz", "kHz", 1e-3,
+       "resonance of the lumped model at this temperature"),
+    _n("temperature_sweep.pull_in_voltage_v", "pull-in voltage", "V", "V", 1.0,
+       "FE pull-in voltage at this temperature"),
+    _n("temperature_sweep.noise_dba_spl", "noise floor", "dB(A) SPL", "dB(A) SPL", 1.0,
+       "A-weighted input-referred noise at this temperature"),
+    _n("temperature_sweep.natural_frequency_hz", "natural frequency in vacuum (mode 1, no bias)",
+       "Hz", "kHz", 1e-3, "FE mode-1 frequency at this temperature's stress"),
+    _n("temperature_sweep.critical_stress_pa", "buckling stress (compressive)", "Pa", "MPa",
+       1e-6, "compressive stress at which the flat diaphragm buckles (Timoshenko & Gere)"),
     # ---- response.csv columns
     _n("response_csv.frequency_hz", "frequency", "Hz", "Hz", 1.0, "frequency"),
     _n("response_csv.magnitude_db_v_per_pa", "response magnitude", "dB re 1 V/Pa", "dB re 1 V/Pa",
@@ -343,6 +360,10 @@ _INPUTS = {
     "readout.full_scale_spl": ("full-scale SPL", "dB SPL", "dB SPL", 1.0),
     "readout.charge_pump_resistance": ("charge-pump source resistance", "Ω", "MΩ", 1e-6),
     "readout.charge_pump_noise": ("charge-pump noise density", "V/√Hz", "nV/√Hz", 1e9),
+    "diaphragm.thermal_expansion": ("diaphragm thermal expansion", "1/K", "ppm/K", 1e6),
+    "diaphragm.stress_reference_temperature": ("temperature of the given residual stress", "K",
+                                               "K", 1.0),
+    "substrate.thermal_expansion": ("substrate thermal expansion", "1/K", "ppm/K", 1e6),
 }
 INPUT_NAMES: dict[str, Name] = {
     k: Name(k, label, si, unit, scale, f"design input {k}")

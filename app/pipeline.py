@@ -203,6 +203,10 @@ def run_design(design: Design, max_memory_b: float | None = None) -> RunResult:
                                large_deflection_stage, lumped_model, response_stage)
 
     check_run_size(design, max_memory_b)
+    from diagap.thermal import point_designs, temperature_sweep
+
+    for point in point_designs(design):  # σ(T) changes the plate model and its meshes
+        check_run_size(point, max_memory_b)
     result = RunResult(design)
     acc = design.analysis.accuracy
     problem = plate_problem(design)
@@ -232,4 +236,6 @@ def run_design(design: Design, max_memory_b: float | None = None) -> RunResult:
             design, result.sections["response"], result.sections.get("large_deflection"))
     sections = {k: v.to_summary() for k, v in result.sections.items()}
     _stage(result, "audit", audit_design, design, sections)
+    if design.thermal is not None and design.analysis.temperatures_k:
+        _stage(result, "temperature_sweep", temperature_sweep, design, es)
     return result

@@ -7,7 +7,7 @@ conditions) whose meshes stay within reach; :mod:`diagap.budget` bounds the run 
 from __future__ import annotations
 
 from diagap.fem.constants import ROOM_TEMPERATURE_K, STANDARD_PRESSURE_PA
-from diagap.materials import MATERIALS
+from diagap.materials import MATERIALS, SUBSTRATES
 from diagap.quantities import Field
 
 __all__ = ["SCHEMA", "OPTIONAL_SECTIONS", "DEFAULT_AIR", "MIN_SLENDERNESS", "MAX_HOLE_KNUDSEN",
@@ -38,6 +38,10 @@ SCHEMA: dict[str, dict[str, Field]] = {
         "density": _range("kg/m^3", 100.0, 30000.0),
         "residual_stress": _range("Pa", -10e9, 10e9, default=0.0),
         "edge": Field(choices=("clamped", "simply-supported"), default="clamped"),
+        # thermal data (optional): α of the film and the temperature at which residual_stress
+        # holds; see diagap.thermal_model
+        "thermal_expansion": _range("1/K", -1e-4, 1e-3, example="2.8e-6 1/K"),
+        "stress_reference_temperature": _range("K", 73.15, 1473.15, example="20 degC"),
     },
     "backplate": {
         "gap": _length(0.1e-6, 1e-3, required=True),
@@ -83,6 +87,13 @@ SCHEMA: dict[str, dict[str, Field]] = {
         "max_memory": _range("B", 50e6, 1e12, example="4 GB"),
         # large-deflection pressures: + toward the backplate, − away from it (a list)
         "static_pressures": _range("Pa", -1e6, 1e6, default=(), example="100 Pa"),
+        # operating temperatures of the drift analysis (a list; diagap.thermal)
+        "temperatures": _range("K", 173.15, 473.15, default=(), example="-40 degC"),
+    },
+    # what the diaphragm is anchored to (optional; thermal expansion only)
+    "substrate": {
+        "material": Field(choices=tuple(SUBSTRATES)),
+        "thermal_expansion": _range("1/K", -1e-4, 1e-3, example="2.6e-6 1/K"),
     },
 }
 #: sections a design may leave out; the analyses that need them are skipped

@@ -90,8 +90,9 @@ def _rim_points(design: Design, n: int = 64):
         np.concatenate([np.full(n, half), np.full(n, -half), s, s])
 
 
-def electrostatics_stage(design: Design, mech) -> Section:
-    """Cell capacitance density c(g), rim fringing and the device C(x) on the static shape."""
+def electrostatics_stage(design: Design, mech, density=None, rim=None) -> Section:
+    """Cell capacitance density c(g), rim fringing and the device C(x) on the static shape
+    (``density``, ``rim``: those of an earlier run of the same geometry, reused)."""
     from diagap.fem.field.device import device_capacitance
     from diagap.fem.field.cell_table import capacitance_density_table
     from diagap.fem.field.rim import rim_fringing
@@ -99,12 +100,14 @@ def electrostatics_stage(design: Design, mech) -> Section:
     d, b, acc = design.diaphragm, design.backplate, design.analysis.accuracy
     g = b.gap_m
     lattice = b.hole_lattice
-    density = capacitance_density_table(GAP_TABLE[0] * g, GAP_TABLE[1] * g, b.hole_radius_m,
-                                        b.hole_pitch_m, lattice, b.thickness_m, acc)
+    if density is None:
+        density = capacitance_density_table(GAP_TABLE[0] * g, GAP_TABLE[1] * g, b.hole_radius_m,
+                                            b.hole_pitch_m, lattice, b.thickness_m, acc)
     half = d.shape == "square"
-    rim = rim_fringing((0.5 if half else 1.0) * b.electrode_size_m,
-                       (0.5 if half else 1.0) * d.size_m, g, b.thickness_m, shape=d.shape,
-                       accuracy=acc, gap_span=RIM_SPAN)
+    if rim is None:
+        rim = rim_fringing((0.5 if half else 1.0) * b.electrode_size_m,
+                           (0.5 if half else 1.0) * d.size_m, g, b.thickness_m, shape=d.shape,
+                           accuracy=acc, gap_span=RIM_SPAN)
     x, y, w = electrode_quadrature(design)
     phi = mech.static_shape(x, y)
     phi_rim = float(np.mean(mech.static_shape(*_rim_points(design))))

@@ -152,4 +152,7 @@ def summary_table(summary: dict) -> str:
     if audit:
         lines.append("[audit of the simple-model assumptions; thresholds are common practice]")
         lines += audit_lines(audit)
+    from diagap.report.temperature_tables import temperature_lines
+
+    lines += temperature_lines(summary)
     return "\n".join(lines)

@@ -19,6 +19,7 @@ from diagap.names import lookup
 from diagap.report.breakdown_table import breakdown_html
 from diagap.scope import response_scope, scope_text
 from diagap.report.html_tables import SECTION_TITLES, audit_counts, audit_table, design_table, results_tables
+from diagap.report.temperature_tables import SECTION_ID, TITLE, temperature_section
 
 __all__ = ["report_html", "write_report_html", "CAUTION_TEXT", "png_size"]
 
@@ -162,6 +163,8 @@ def report_html(result, plots, files: list[str] = ()) -> str:
     for sec, title in SECTION_TITLES.items():
         if sec in summary:
             sections.append(f'<li><a href="#res-{sec}">{html.escape(title)}</a></li>')
+    if summary.get("temperature_sweep"):
+        sections.append(f'<li><a href="#{SECTION_ID}">{html.escape(TITLE)}</a></li>')
     body = [
         f"<h1>diagap report: {name}</h1>",
         f'<p class="sub">{html.escape(design.description)} — diagap {html.escape(_version())}, '
@@ -197,6 +200,7 @@ def report_html(result, plots, files: list[str] = ()) -> str:
         if sec == "response":
             body.append(breakdown_html(summary))
         body.extend(by_section.get(sec, []))
+    body.append(temperature_section(summary, by_section.get("temperature_sweep", [])))
     body += ['<h2 id="files">Output files</h2>', _files_list(list(files))]
     return ("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"
             f"<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">"

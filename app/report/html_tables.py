@@ -14,6 +14,7 @@ import math
 from diagap.names import lookup
 from diagap.table import ROWS, absent_reason
 from diagap.table import UNCERTAINTY_ALIAS as _UNCERTAINTY_ALIAS
+from diagap.report.temperature_tables import thermal_design_rows
 
 __all__ = ["design_table", "results_tables", "audit_table", "audit_counts", "display_unit",
            "format_value"]
@@ -138,6 +139,7 @@ def _design_rows(design) -> list[tuple[str, str, str]]:
              if r.charge_pump_noise_v_per_rthz is None else
              f"{r.charge_pump_noise_v_per_rthz * 1e9:.4g} nV/√Hz", ""),
         ]
+    rows += thermal_design_rows(design)
     rows += [
         ("analysis", "accuracy", design.analysis.accuracy, ""),
     ]

@@ -5,7 +5,8 @@ calls each producer on a path in a temporary folder and moves the files into OUT
 have succeeded. Files:
 
 response.csv, model.cir   lumped response table and SPICE netlist (stable bias point only)
-plots/<name>.png          the report plots (:mod:`diagap.report.plots`)
+plots/<name>.png          the report plots (:mod:`diagap.report.plots`; temperature_drift.png
+                          with [analysis] temperatures, :mod:`diagap.report.plots_temperature`)
 report.html               the self-contained report page (:mod:`diagap.report.html`)
 fields.vtu                diaphragm mesh, deflection and mode shapes (:mod:`diagap.report.vtu`)
 cell_potential.vtu        unit-cell potential and |E| (perforated backplate only)
@@ -31,6 +32,8 @@ FIXED_OUTPUTS = ("summary.json", "report.html", "response.csv", "model.cir", "fi
                  "cell_potential.vtu")
 _PLOT_STEMS = ("bias_branch", "capacitance", "cell_field", "deflection", "mode_maps",
                "mode_profiles", "noise", "response", "squeeze_film", "thd", "noise_breakdown")
+               "mode_profiles", "noise", "response", "squeeze_film", "thd",
+               "temperature_drift")
 _PLOT_SUFFIXES = (".png", ".svg")
 
 

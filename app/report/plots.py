@@ -129,6 +129,7 @@ def report_plots(result, cell=None) -> list[Plot]:
     from diagap.report.plots_mech import mech_plots
     from diagap.report.plots_overload import overload_plots
     from diagap.report.plots_response import response_plots
+    from diagap.report.plots_temperature import temperature_plots
 
     s = result.sections
     plots: list[Plot] = []
@@ -138,4 +139,5 @@ def report_plots(result, cell=None) -> list[Plot]:
     plots += response_plots(result.design, s.get("damping"), s.get("response"))
     plots += overload_plots(s.get("large_deflection"))
     plots += breakdown_plots(s.get("response"))
+    plots += temperature_plots(s.get("temperature_sweep"))
     return plots
