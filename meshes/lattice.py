@@ -5,9 +5,8 @@ with an explicit hex array of holes, in scaled coordinates (lengths in units of 
   (the unit square [−½, ½]², one hole at the centre) or of a hexagonal (triangular) lattice
   (the rectangle [−½, ½] × [−√3/2, √3/2], a hole at the centre and a quarter hole at each
   corner, i.e. two holes per cell). Hole radius ``r`` (0: no holes).
-* :func:`perforated_disk_mesh` — the disk of radius ``R`` with holes of radius ``r`` on the
-  hex lattice of unit pitch centred on the origin, every hole whose rim stays at least
-  ``edge_margin`` inside the disk.
+* :func:`perforated_strip_mesh` — a strip of n hex period cells side by side with every hole
+  explicit (for checks of the homogenised plate).
 
 Both are linear triangles (gmsh, OpenCASCADE booleans) with a uniform target size ``h`` and
 ``h_hole`` on the hole rims. Meshes are cached on disk (:mod:`diagap.meshes.cache`). This module
@@ -23,8 +22,7 @@ from skfem import MeshTri
 from diagap.meshes._gmsh import gmsh_session, triangles
 from diagap.meshes.cache import cached_arrays
 
-__all__ = ["LATTICES", "lattice_cell_mesh", "cell_half_sides", "hex_hole_centres",
-           "perforated_disk_mesh"]
+__all__ = ["LATTICES", "lattice_cell_mesh", "cell_half_sides", "perforated_strip_mesh"]
 
 LATTICES = ("square", "hex")
 
@@ -104,38 +102,29 @@ def lattice_cell_mesh(lattice: str, hole_radius: float, h: float,
     return MeshTri(arr["p"], arr["t"])
 
 
-def hex_hole_centres(radius: float, hole_radius: float, edge_margin: float) -> np.ndarray:
-    """(2, n) centres of the hex lattice (pitch 1, a hole at the origin) whose holes lie at
-    least ``edge_margin`` inside the disk of ``radius``."""
-    n = int(math.ceil(radius)) + 2
-    i, j = np.meshgrid(np.arange(-n, n + 1), np.arange(-2 * n, 2 * n + 1), indexing="ij")
-    x = i + 0.5 * (j % 2)
-    y = j * 0.5 * math.sqrt(3.0)
-    keep = np.hypot(x, y) + hole_radius <= radius - edge_margin + 1e-12
-    return np.vstack([x[keep], y[keep]])
-
-
-def _disk_arrays(radius, r, margin, h, h_hole):
-    centres = hex_hole_centres(radius, r, margin).T
-    with gmsh_session("perforated-disk") as gmsh:
+def _strip_arrays(n_cells, r, h, h_hole):
+    X, Y = cell_half_sides("hex")
+    centres = [(i + 0.5, 0.0) for i in range(n_cells)] + \
+        [(float(i), sy * Y) for i in range(n_cells + 1) for sy in (-1, 1)]
+    with gmsh_session("perforated-strip") as gmsh:
         occ = gmsh.model.occ
-        disk = occ.addDisk(0.0, 0.0, 0.0, radius, radius)
+        rect = occ.addRectangle(0.0, -Y, 0.0, float(n_cells), 2 * Y)
         holes = [(2, occ.addDisk(cx, cy, 0.0, r, r)) for cx, cy in centres]
-        occ.cut([(2, disk)], holes)
+        occ.cut([(2, rect)], holes)
         occ.synchronize()
-        curves = [c for _, c in gmsh.model.getEntities(1)
-                  if not _on_circle(gmsh, c, 0.0, 0.0, radius, 1e-6)]
-        _sizes(gmsh, h, h_hole, curves)
+        _sizes(gmsh, h, h_hole, _hole_curves(gmsh, centres, r))
         gmsh.model.mesh.generate(2)
         p, t = triangles(gmsh)
     return {"p": p, "t": t}
 
 
-def perforated_disk_mesh(radius: float, hole_radius: float, edge_margin: float, h: float,
-                         h_hole: float | None = None) -> MeshTri:
-    """Disk of ``radius`` (pitch 1) with the holes of :func:`hex_hole_centres`."""
+def perforated_strip_mesh(n_cells: int, hole_radius: float, h: float,
+                          h_hole: float | None = None) -> MeshTri:
+    """The strip [0, n] × [−√3/2, √3/2] of ``n_cells`` hex period cells (pitch 1) side by side
+    along x, holes of radius ``hole_radius`` at the lattice points (x = i + ½ on the centre line,
+    x = i on the long edges, cut there in half)."""
     h_hole = 0.5 * h if h_hole is None else h_hole
-    key = {"R": float(radius), "r": float(hole_radius),
-           "margin": float(edge_margin), "h": float(h), "h_hole": float(h_hole)}
-    arr = cached_arrays("perforated-disk", key, lambda: _disk_arrays(radius, hole_radius, edge_margin, h, h_hole))
+    key = {"n": int(n_cells), "r": float(hole_radius), "h": float(h), "h_hole": float(h_hole)}
+    arr = cached_arrays("perforated-strip", key,
+                        lambda: _strip_arrays(int(n_cells), hole_radius, h, h_hole))
     return MeshTri(arr["p"], arr["t"])
