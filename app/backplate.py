@@ -89,11 +89,17 @@ class MechanicsWithBackplate:
 
 def solve_backplate_mechanics(design, mech):
     """Wrap the diaphragm's result ``mech`` with the compliant backplate's plate solution."""
-    from diagap.fem.plate.solver import solve_plate
+    from diagap.design import DesignError
+    from diagap.fem.plate.solver import BucklingError, solve_plate
 
     homog = backplate_plate(design)
     problem = backplate_problem(design, homog)
-    res = solve_plate(problem, accuracy=design.analysis.accuracy)
+    try:
+        res = solve_plate(problem, accuracy=design.analysis.accuracy)
+    except BucklingError:
+        raise DesignError(f"backplate.residual_stress = {design.backplate.plate.residual_stress_pa:g}"
+                          " Pa: compressive stress at or beyond the buckling load of the "
+                          "perforated backplate; must be less compressive") from None
     return MechanicsWithBackplate(mech, res, homog, problem)
 
 

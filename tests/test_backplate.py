@@ -150,3 +150,31 @@ def test_backplate_outputs_are_named_and_reported(results, runs, tmp_path):
     html = (tmp_path / "out" / "report.html").read_text(encoding="utf-8")
     assert lookup("coupled.backplate_center_deflection_m").label in html
     assert lookup("mechanics.backplate_natural_frequencies_hz").label in html
+
+
+def test_buckled_backplate_is_a_one_line_design_error():
+    from diagap.pipeline import run_design
+
+    d = with_overrides(demo_design().with_accuracy("draft"),
+                       {"backplate.material": "polysilicon", "backplate.residual_stress": "-2 GPa"})
+    with pytest.raises(DesignError, match="backplate.residual_stress"):
+        run_design(d)
+
+
+def test_backplate_plate_carries_the_homogenised_properties():
+    # the PlateProblem handed to the plate solver reproduces D_eq, ν_eq, the scaled residual
+    # tension σ0·h·(biaxial stiffness ratio) and ρh(1 − φ) exactly
+    from diagap.backplate import backplate_plate, backplate_problem
+
+    d = load_design(EXAMPLE)
+    hp = backplate_plate(d, "draft")
+    pr = backplate_problem(d, hp)
+    b = d.backplate
+    assert pr.bending_stiffness == pytest.approx(hp.bending_stiffness_nm, rel=1e-12, abs=0)
+    assert pr.poisson_ratio == hp.bending_poisson_ratio
+    assert pr.tension_n_per_m == pytest.approx(
+        b.plate.residual_stress_pa * b.thickness_m * hp.tension_ratio, rel=1e-12, abs=0)
+    phi = 2 * math.pi * (b.hole_radius_m / b.hole_pitch_m) ** 2 / math.sqrt(3)  # hex cell
+    assert pr.areal_density == pytest.approx(b.plate.density_kg_m3 * b.thickness_m * (1 - phi),
+                                             rel=1e-12, abs=0)
+    assert pr.size_m == d.diaphragm.size_m and pr.edge == "clamped"
