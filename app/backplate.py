@@ -16,6 +16,10 @@ and the electrostatic spring by the slope factor s = ∫π(δw_d + δw_b)dA / �
 response to a pressure at bias (for two springs in series s = k_b/(k_b − k_e)), and the bias
 point is taken at the centre gap closure x_b = w_d(0) + w_b(0) on the diaphragm's static shape.
 With a rigid backplate s = 1 and w_b = 0, and everything is as without this module.
+
+Not covered: the distributed frequency-response reference assumes a rigid backplate and is left
+out for a compliant one; the large-deflection analysis and the distortion model's C(x) curve
+keep the rigid backplate (the backplate's static deflection at bias is reported beside them).
 """
 from __future__ import annotations
 
