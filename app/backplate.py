@@ -101,8 +101,8 @@ def solve_backplate_mechanics(design, mech):
     try:
         res = solve_plate(problem, accuracy=design.analysis.accuracy)
     except BucklingError:
-        raise DesignError(f"backplate.residual_stress = {design.backplate.plate.residual_stress_pa:g}"
-                          " Pa: compressive stress at or beyond the buckling load of the "
+        sigma = design.backplate.plate.residual_stress_pa
+        raise DesignError(f"backplate.residual_stress = {sigma:g} Pa: compressive stress at or beyond the buckling load of the "
                           "perforated backplate; must be less compressive") from None
     return MechanicsWithBackplate(mech, res, homog, problem)
 
@@ -210,10 +210,9 @@ def coupled_pair(design, problem, bp_problem, density, mech) -> PairResult:
     return PairResult(res, data, unc, 1.0 if collapsed else fine.compliance_m_per_pa[2], closure)
 
 
-def lumped_bias(cp, x_b_m: float) -> tuple[float, float]:
+def lumped_bias(pair: PairResult | None, x_b_m: float) -> tuple[float, float]:
     """(bias centre position on the C(x) curve, slope factor) for the lumped model: the centre
-    closure and s with a compliant backplate, (x_b, 1) without."""
-    pair = cp.objects.get("backplate")
+    closure and s with a compliant backplate (``pair``), (x_b, 1) without (None)."""
     if pair is None:
         return x_b_m, 1.0
     return pair.closure_m, pair.slope_factor

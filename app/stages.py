@@ -165,8 +165,7 @@ def coupled_stage(design: Design, problem, es: Section, mech) -> Section:
         from diagap.backplate import lumped_bias
 
         k = mech.static_shape_stiffness_n_per_m
-        x_b, s_b = lumped_bias(Section({}, objects={"backplate": pair}),
-                               res.bias_center_deflection_m or 0.0)
+        x_b, s_b = lumped_bias(pair, res.bias_center_deflection_m or 0.0)
         k_e = s_b * electrostatic_spring(design, es, x_b)
         data["softened_stiffness_n_per_m"] = k - k_e
         data["electrostatic_stiffness_n_per_m"] = k_e
@@ -267,7 +266,8 @@ def lumped_model(design: Design, mech, es: Section, cp: Section, damp: Section):
     g = design.backplate.gap_m
     from diagap.backplate import lumped_bias
 
-    x_b, s_b = lumped_bias(cp, res.bias_center_deflection_m or 0.0)  # (x_b, 1): rigid backplate
+    x_b, s_b = lumped_bias(cp.objects.get("backplate"),  # (x_b, 1) for a rigid backplate
+                           res.bias_center_deflection_m or 0.0)
     k = mech.static_shape_stiffness_n_per_m
     k_e = s_b * electrostatic_spring(design, es, x_b)
     xs = _curve_points(design, es)
@@ -278,7 +278,8 @@ def lumped_model(design: Design, mech, es: Section, cp: Section, damp: Section):
         stiffness_n_per_m=k, electrostatic_stiffness_n_per_m=k_e, mass_kg=mech.static_shape_mass_kg,
         area_m2=mech.static_shape_area_m2, damping_n_s_per_m=sq.damping_n_s_per_m,
         back_volume_m3=ac.back_volume_m3, vent_resistance_pa_s_per_m3=ac.vent_resistance_pa_s_per_m3,
-        rest_capacitance_f=float(dev(x_b)), capacitance_slope_f_per_m=s_b * float(dev.slope(x_b)),
+        rest_capacitance_f=float(dev(x_b)),
+        capacitance_slope_f_per_m=s_b * float(dev.slope(x_b)),
         bias_resistance_ohm=e.bias_resistance_ohm, bias_voltage_v=e.bias_voltage_v, gap_m=g,
         parasitic_capacitance_f=e.parasitic_capacitance_f,
         preamp_input_capacitance_f=e.preamp_input_capacitance_f, capacitance_curve=curve,

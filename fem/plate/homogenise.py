@@ -36,8 +36,8 @@ Effective constants are the cell averages ⟨σ⟩ = (1/|cell|) ∫_S σ dA per 
 hole rims are polygons, so both converge as O(h²) in the averages (the boundary-approximation
 error; observed: membrane 2, bending between 0.6 and 2 with mesh noise of ~1e-4), and the error
 estimate of each constant is Richardson's between two meshes h and h/2
-(:mod:`diagap.fem.richardson`; order 2 for membrane, :data:`BENDING_ORDER` for bending). With no holes the fluctuation is zero and the solid plate is
-returned exactly (up to round-off).
+(:mod:`diagap.fem.richardson`; order 2 for membrane, :data:`BENDING_ORDER` for bending). With
+no holes the fluctuation is zero and the solid plate is returned exactly (up to round-off).
 
 Isotropic equivalent. Hex lattices are in-plane isotropic (c*₆₆ = (c*₁₁ − c*₁₂)/2, checked in the
 tests). Square lattices are not; for an isotropic (axisymmetric) plate model the orientation
