@@ -72,6 +72,7 @@ class Backplate:
     hole_radius_m: float
     hole_pitch_m: float
     stopper_height_m: float | None = None  # bumps on the backplate: contact at gap − height
+    plate: "BackplatePlate | None" = None  # compliant backplate (None: rigid)
 
     @property
     def clearance_m(self) -> float:
@@ -81,6 +82,19 @@ class Backplate:
     @property
     def perforated(self) -> bool:
         return self.hole_lattice != "none"
+
+
+@dataclass(frozen=True)
+class BackplatePlate:
+    """The backplate as a compliant perforated plate spanning the diaphragm's outline (same
+    shape and radius/side, its own edge condition); its thickness and holes are the backplate's."""
+
+    youngs_modulus_pa: float
+    poisson_ratio: float
+    density_kg_m3: float
+    residual_stress_pa: float
+    edge: str
+    material: str | None = None
 
 
 @dataclass(frozen=True)
@@ -130,6 +144,8 @@ class Design:
             d.pop("readout", None)
         if d.get("thermal") is None:
             d.pop("thermal", None)
+        if d["backplate"].get("plate", 0) is None:  # rigid backplate: no entry
+            d["backplate"].pop("plate")
         # the size is named for what it is, as in the design file: radius or side
         size = "radius" if self.diaphragm.shape == "circle" else "side"
         d["diaphragm"] = {(f"{size}_m" if k == "size_m" else k): v
@@ -333,7 +349,33 @@ def _backplate(raw: dict, d: Diaphragm, air: tuple[float, float] = DEFAULT_AIR) 
     if v["stopper_height"] is not None and v["stopper_height"] >= v["gap"]:
         raise DesignError(f"backplate.stopper_height = {v['stopper_height']:g} m: must be "
                           f"smaller than the gap ({v['gap']:g} m)")
-    return Backplate(v["gap"], v["thickness"], el, lattice, r_h, pitch, v["stopper_height"])
+    return Backplate(v["gap"], v["thickness"], el, lattice, r_h, pitch, v["stopper_height"],
+                     _backplate_plate(v))
+
+
+_PLATE_KEYS = ("material", "youngs_modulus", "poisson_ratio", "density", "residual_stress", "edge")
+
+
+def _backplate_plate(v: dict) -> "BackplatePlate | None":
+    """The compliant-backplate material when any of its keys is given, else None (rigid)."""
+    if all(v[k] is None for k in _PLATE_KEYS):
+        return None
+    preset = MATERIALS.get(v["material"]) if v["material"] else None
+    props = {}
+    for key, attr in (("youngs_modulus", "youngs_modulus_pa"), ("poisson_ratio", "poisson_ratio"),
+                      ("density", "density_kg_m3")):
+        if v[key] is not None:
+            props[attr] = v[key]
+        elif preset is not None:
+            props[attr] = getattr(preset, attr)
+        else:
+            f = SCHEMA["backplate"][key]
+            raise DesignError(f"backplate.{key}: missing (a compliant backplate needs it"
+                              f"{' in ' + f.unit if f.unit else ''}, or a backplate.material "
+                              f"preset: {', '.join(MATERIALS)})")
+    return BackplatePlate(props["youngs_modulus_pa"], props["poisson_ratio"],
+                          props["density_kg_m3"], v["residual_stress"] or 0.0,
+                          v["edge"] or "clamped", v["material"])
 
 
 def parse_design(raw: dict, source: str = "<design>") -> Design:

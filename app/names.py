@@ -120,6 +120,39 @@ _ROWS = [
     _n("coupled.mode_1_electrostatic_stiffness_n_per_m", "electrostatic spring (mode 1)", "N/m",
        "N/m", 1.0, "the softening seen by mode 1 (from the bias shift of its frequency), for "
        "comparison with the static-shape spring"),
+    # ---- compliant backplate (only with a backplate material)
+    _n("mechanics.backplate_natural_frequencies_hz", "backplate natural frequencies (vacuum)",
+       "Hz", "kHz", 1e-3, "FE natural frequencies of the homogenised perforated backplate, no "
+       "bias"),
+    _n("mechanics.backplate_center_compliance_m_per_pa", "backplate centre compliance", "m/Pa",
+       "nm/Pa", 1e9, "backplate centre deflection per pascal of uniform pressure on it"),
+    _n("mechanics.backplate_plate.open_fraction", "backplate open fraction", "", "", 1.0,
+       "hole area over backplate area (homogenised plate)"),
+    _n("mechanics.backplate_plate.bending_stiffness_ratio", "backplate bending stiffness ratio",
+       "", "", 1.0, "homogenised (isotropic equivalent) over solid bending stiffness"),
+    _n("mechanics.backplate_plate.bending_poisson_ratio", "backplate bending Poisson ratio", "",
+       "", 1.0, "Poisson ratio of the homogenised bending law"),
+    _n("mechanics.backplate_plate.membrane_modulus_ratio", "backplate membrane modulus ratio", "",
+       "", 1.0, "homogenised in-plane Young's modulus over the solid's"),
+    _n("mechanics.backplate_plate.membrane_poisson_ratio", "backplate membrane Poisson ratio",
+       "", "", 1.0, "Poisson ratio of the homogenised in-plane law"),
+    _n("mechanics.backplate_plate.tension_ratio", "backplate residual tension ratio", "", "",
+       1.0, "residual tension of the perforated over the solid film (biaxial stiffness ratio)"),
+    _n("mechanics.backplate_plate.bending_anisotropy", "backplate bending anisotropy", "", "",
+       1.0, "directional bending stiffness at 45° over 0° (1: isotropic, hex lattices)"),
+    _n("mechanics.backplate_plate.membrane_anisotropy", "backplate membrane anisotropy", "", "",
+       1.0, "directional in-plane stiffness at 45° over 0° (1: isotropic, hex lattices)"),
+    _n("coupled.backplate_center_deflection_m", "backplate centre deflection at bias", "m", "nm",
+       1e9, "static backplate centre deflection towards the diaphragm under the bias voltage"),
+    _n("coupled.backplate_pull_in_center_deflection_m", "backplate centre deflection at pull-in",
+       "m", "nm", 1e9, "backplate centre deflection towards the diaphragm at the pull-in fold"),
+    _n("coupled.backplate_compliance_at_bias_m_per_pa", "backplate motion per pascal at bias",
+       "m/Pa", "nm/Pa", 1e9, "backplate centre motion towards the diaphragm per pascal on the "
+       "diaphragm (through the electrostatic force)"),
+    _n("coupled.backplate_slope_factor", "backplate slope factor", "", "", 1.0,
+       "gap change over diaphragm motion at bias, weighted by the field (1: rigid backplate)"),
+    _n("coupled.backplate_resonance_at_bias_hz", "backplate resonance at bias (vacuum)", "Hz",
+       "kHz", 1e-3, "lowest coupled mode carried mainly by the backplate, with the bias"),
     # ---- damping (squeeze film)
     _n("damping.damping_n_s_per_m", "squeeze-film damping", "N·s/m", "µN·s/m", 1e6,
        "low-frequency damping of the air film referred to the centre velocity"),
@@ -324,6 +357,7 @@ KEY_OUTPUTS = (
 
 #: text (non-numeric) summary keys, shown as they are
 TEXT_KEYS = ("mechanics.model", "mechanics.accuracy", "damping.perforation.lattice",
+             "mechanics.backplate_plate.lattice",
              "response.thd_limit_note", "coupled.note", "response.scope",
              "response.aop_limited_by", "response.aop_note")
 
@@ -342,6 +376,8 @@ _INPUTS = {
     "backplate.electrode_side": ("electrode side", "m", "µm", 1e6),
     "backplate.hole_radius": ("hole radius", "m", "µm", 1e6),
     "backplate.hole_pitch": ("hole pitch", "m", "µm", 1e6),
+    "backplate.youngs_modulus": ("backplate Young's modulus", "Pa", "GPa", 1e-9),
+    "backplate.residual_stress": ("backplate residual stress", "Pa", "MPa", 1e-6),
     "acoustics.back_volume": ("back volume", "m³", "mm³", 1e9),
     "acoustics.vent_resistance": ("vent resistance", "Pa·s/m³", "Pa·s/m³", 1.0),
     "acoustics.temperature": ("temperature", "K", "K", 1.0),

@@ -146,6 +146,7 @@ SKIP_REASONS = {
     "no_acoustics": "no [acoustics] section (back volume, vent): the lumped model needs it",
     "no_electrical": "no [electrical] section (bias voltage, bias resistor): needs a bias point",
     "collapsed": "the bias is at or above pull-in: there is no stable bias point",
+    "compliant_backplate": "the distributed reference assumes a rigid backplate",
 }
 
 
@@ -211,6 +212,12 @@ def run_design(design: Design, max_memory_b: float | None = None) -> RunResult:
     acc = design.analysis.accuracy
     problem = plate_problem(design)
     mech = _stage(result, "mechanics", solve_plate, problem, accuracy=acc)
+    if design.backplate.plate is not None:  # compliant backplate: its plate joins mechanics
+        from diagap.backplate import solve_backplate_mechanics
+
+        t0 = time.perf_counter()
+        mech = result.sections["mechanics"] = solve_backplate_mechanics(design, mech)
+        result.timings_s["mechanics"] += time.perf_counter() - t0
     es = _stage(result, "electrostatics", electrostatics_stage, design, mech)
     cp = _stage(result, "coupled", coupled_stage, design, problem, es, mech)
     coupled = cp.objects["coupled"]
@@ -223,6 +230,9 @@ def run_design(design: Design, max_memory_b: float | None = None) -> RunResult:
         model = lumped_model(design, mech, es, cp, damp)
         dist = response_inputs(design, es.objects["density"], es.objects["rim"],
                                damp.objects["air"])
+        if design.backplate.plate is not None:  # the distributed reference has a rigid backplate
+            dist = None
+            result.skipped["response.distributed"] = SKIP_REASONS["compliant_backplate"]
         _stage(result, "response", response_stage, model, result.summary()["uncertainty"],
                dist, acc, readout=design.readout)
     resp = result.sections["response"].to_summary() if "response" in result.sections else None

@@ -52,6 +52,13 @@ SCHEMA: dict[str, dict[str, Field]] = {
         "hole_radius": _length(0.1e-6, 5e-3),
         "hole_pitch": _length(0.5e-6, 20e-3),
         "stopper_height": _length(1e-9, 1e-3),
+        # a compliant backplate: any of these makes it a plate (absent: rigid)
+        "material": Field(choices=tuple(MATERIALS)),
+        "youngs_modulus": _range("Pa", 1e5, 2e12, example="160 GPa"),
+        "poisson_ratio": Field("", low=-1.0, high=0.5),
+        "density": _range("kg/m^3", 100.0, 30000.0),
+        "residual_stress": _range("Pa", -10e9, 10e9, example="50 MPa"),
+        "edge": Field(choices=("clamped", "simply-supported")),
     },
     "acoustics": {
         "back_volume": _range("m^3", 1e-12, 1e-3, required=True),

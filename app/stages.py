@@ -21,6 +21,11 @@ by the mode's participation (A₁/k₁ over c0: 1.045 at τ = 0, 1.10 at τ = 17
 i.e. +0.4 to +0.9 dB of sensitivity (and THD, and SNR) — an error in the band where the
 microphone is used. The static shape is therefore chosen. The residual model error of
 the reduction is measured against the distributed solve (:mod:`fem.response`) in the audit.
+
+A compliant backplate (:mod:`diagap.backplate`) keeps the one shape: the backplate follows the
+diaphragm quasi-statically, so the bias point is read at the centre gap closure and both the
+capacitance slope and the electrostatic spring are multiplied by the FE slope factor
+s = ∫π(δw_d + δw_b)/∫π δw_d at bias (s = 1 for a rigid backplate).
 """
 from __future__ import annotations
 
@@ -139,18 +144,32 @@ def coupled_stage(design: Design, problem, es: Section, mech) -> Section:
 
     b = design.backplate
     bias = design.electrical.bias_voltage_v if design.electrical is not None else 0.0
-    res = solve_coupled(problem, design.analysis.accuracy, b.electrode_size_m, b.gap_m, bias,
-                        es.objects["density"])
+    pair = None
+    if b.plate is not None:  # compliant backplate: the two-plate solve (diagap.backplate)
+        from diagap.backplate import coupled_pair
+
+        pair = coupled_pair(design, problem, mech.backplate_problem, es.objects["density"], mech)
+        res = pair.coupled
+    else:
+        res = solve_coupled(problem, design.analysis.accuracy, b.electrode_size_m, b.gap_m,
+                            bias, es.objects["density"])
     data = res.to_summary()
     unc = dict(res.uncertainty)
+    if pair is not None:
+        data.update(pair.data)
+        unc.update(pair.uncertainty)
     if design.electrical is None:  # pull-in only: no bias point without a bias voltage
         data = {k: data[k] for k in ("pull_in_voltage_v", "pull_in_center_deflection_m",
-                                     "branch")}
+                                     "branch", "backplate_pull_in_center_deflection_m")
+                if k in data}
         unc = {k: v for k, v in unc.items() if k.startswith("pull_in")}
-        return Section(data, unc, {"coupled": res, "no_bias": True})
+        return Section(data, unc, {"coupled": res, "no_bias": True, "backplate": pair})
     if not res.collapsed:
+        from diagap.backplate import lumped_bias
+
         k = mech.static_shape_stiffness_n_per_m
-        k_e = electrostatic_spring(design, es, res.bias_center_deflection_m or 0.0)
+        x_b, s_b = lumped_bias(pair, res.bias_center_deflection_m or 0.0)
+        k_e = s_b * electrostatic_spring(design, es, x_b)
         data["softened_stiffness_n_per_m"] = k - k_e
         data["electrostatic_stiffness_n_per_m"] = k_e
         data["mode_1_electrostatic_stiffness_n_per_m"] = mech.effective_stiffness_n_per_m * (
@@ -159,7 +178,7 @@ def coupled_stage(design: Design, problem, es: Section, mech) -> Section:
             mech.uncertainty.get("static_shape_stiffness_n_per_m", 0.0)
             + abs(k_e / (k - k_e)) * (es.uncertainty.get("capacitance_slope_f_per_m", 0.0)
                                       + unc.get("bias_center_deflection_m", 0.0)))
-    return Section(data, unc, {"coupled": res})
+    return Section(data, unc, {"coupled": res, "backplate": pair})
 
 
 def damping_stage(design: Design, mech, resonance_hz: float) -> Section:
@@ -249,9 +268,12 @@ def lumped_model(design: Design, mech, es: Section, cp: Section, damp: Section):
     air = damp.objects["air"]
     sq = damp.objects["squeeze"]
     g = design.backplate.gap_m
-    x_b = res.bias_center_deflection_m or 0.0
+    from diagap.backplate import lumped_bias
+
+    x_b, s_b = lumped_bias(cp.objects.get("backplate"),  # (x_b, 1) for a rigid backplate
+                           res.bias_center_deflection_m or 0.0)
     k = mech.static_shape_stiffness_n_per_m
-    k_e = electrostatic_spring(design, es, x_b)
+    k_e = s_b * electrostatic_spring(design, es, x_b)
     xs = _curve_points(design, es)
     curve = tuple((float(x), float(dev(x))) for x in xs)
     e, ac = design.electrical, design.acoustics
@@ -260,7 +282,8 @@ def lumped_model(design: Design, mech, es: Section, cp: Section, damp: Section):
         stiffness_n_per_m=k, electrostatic_stiffness_n_per_m=k_e, mass_kg=mech.static_shape_mass_kg,
         area_m2=mech.static_shape_area_m2, damping_n_s_per_m=sq.damping_n_s_per_m,
         back_volume_m3=ac.back_volume_m3, vent_resistance_pa_s_per_m3=ac.vent_resistance_pa_s_per_m3,
-        rest_capacitance_f=float(dev(x_b)), capacitance_slope_f_per_m=float(dev.slope(x_b)),
+        rest_capacitance_f=float(dev(x_b)),
+        capacitance_slope_f_per_m=s_b * float(dev.slope(x_b)),
         bias_resistance_ohm=bias_leg_resistance_ohm(design), bias_voltage_v=e.bias_voltage_v,
         gap_m=g,
         parasitic_capacitance_f=e.parasitic_capacitance_f,

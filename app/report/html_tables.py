@@ -37,6 +37,10 @@ EXTRA_ROWS = [
     ("large_deflection", "contact_pressure_at_bias_pa"),
     ("large_deflection", "contact_spl_db_at_bias"),
     ("large_deflection", "thd_10pct_spl_db_quasistatic"),
+    ("mechanics", "backplate_natural_frequencies_hz"),
+    ("coupled", "backplate_center_deflection_m"),
+    ("coupled", "backplate_resonance_at_bias_hz"),
+    ("coupled", "backplate_slope_factor"),
 ]
 _TEXT_LABELS = {"mechanics.model": "plate model"}
 SECTION_TITLES = {"mechanics": "Diaphragm mechanics (vacuum, no bias)",

@@ -31,8 +31,7 @@ MANIFEST = ".diagap-outputs.json"
 FIXED_OUTPUTS = ("summary.json", "report.html", "response.csv", "model.cir", "fields.vtu",
                  "cell_potential.vtu")
 _PLOT_STEMS = ("bias_branch", "capacitance", "cell_field", "deflection", "mode_maps",
-               "mode_profiles", "noise", "response", "squeeze_film", "thd", "noise_breakdown")
-               "mode_profiles", "noise", "response", "squeeze_film", "thd",
+               "mode_profiles", "noise", "response", "squeeze_film", "thd", "noise_breakdown",
                "temperature_drift")
 _PLOT_SUFFIXES = (".png", ".svg")
 
