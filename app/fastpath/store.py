@@ -18,21 +18,33 @@ import numpy as np
 
 from diagap.fastpath.grid import Axis, TensorTable
 
-__all__ = ["table_arrays", "table_from_arrays", "cached_table", "source_hash"]
+__all__ = ["table_arrays", "table_from_arrays", "cached_table", "source_hash", "VALUE_MODULES"]
+
+
+#: application modules whose code shapes tabulated values (the pipeline's stages and inputs,
+#: and the fast path's own table code); other application modules (CLI, reports) do not
+VALUE_MODULES = ("stages.py", "pipeline.py", "extract.py", "design.py", "schema.py",
+                 "materials.py", "quantities.py", "sweep/point.py", "fastpath/grid.py",
+                 "fastpath/refine.py", "fastpath/plate.py", "fastpath/study.py")
 
 
 @lru_cache(maxsize=None)
 def source_hash() -> str:
-    """SHA-256 over the source of diagap.meshes, diagap.fem, diagap.lumped and the
-    application package (the producers of every tabulated value)."""
+    """SHA-256 over the source of diagap.meshes, diagap.fem, diagap.lumped and the application
+    modules in :data:`VALUE_MODULES` (the producers of every tabulated value)."""
+    import hashlib
     from importlib import import_module
 
     from diagap.meshes.cache import code_hash, tree_hash
 
     roots = {n: Path(import_module(f"diagap.{n}").__file__).parent
              for n in ("meshes", "fem", "lumped")}
-    roots["app"] = Path(import_module("diagap").__file__).parent
-    return tree_hash(roots) + code_hash("diagap.fem")[:16]
+    h = hashlib.sha256(tree_hash(roots).encode())
+    app = Path(import_module("diagap").__file__).parent
+    for name in VALUE_MODULES:
+        h.update(name.encode() + b"\0" + (app / name).read_bytes() + b"\0")
+    h.update(code_hash("diagap.fem").encode())
+    return h.hexdigest()
 
 
 def table_arrays(table: TensorTable, facts: dict) -> dict:
