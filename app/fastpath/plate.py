@@ -101,13 +101,13 @@ def plate_table(accuracy: str = "normal", *, tol: float = 1e-3, mapper=None,
         Random held-out points checked after the refinement.
     """
     from diagap.fastpath.refine import build_table, mapper_for
-    from diagap.fastpath.store import cached_table
+    from diagap.fastpath.store import held_table
 
     def build():
         return build_table(partial(scaled_plate, accuracy), [plate_axis(accuracy)], tol=tol,
                            mapper=mapper or mapper_for(), validate=validate)
 
-    return cached_table("fastpath-plate", {"accuracy": accuracy, "tol": tol,
+    return held_table("fastpath-plate", {"accuracy": accuracy, "tol": tol,
                                            "validate": validate}, build)
 
 

@@ -134,7 +134,8 @@ def _check_points(axes, k, lo, hi) -> list:
 
 def build_table(func: Callable, axes: Sequence[Axis], *, tol: float = 1e-3,
                 max_splits: int = 3, mapper: Callable = serial_mapper, validate: int = 0,
-                seed: int = 0) -> tuple[TensorTable, dict]:
+                seed: int = 0, drive: Callable[[str], bool] | None = None
+                ) -> tuple[TensorTable, dict]:
     """Tabulate ``func`` on ``axes`` until every held-out check is within ``tol``.
 
     Parameters
@@ -154,6 +155,9 @@ def build_table(func: Callable, axes: Sequence[Axis], *, tol: float = 1e-3,
         Number of random held-out points checked after the refinement.
     seed : int
         Seed of the validation points.
+    drive : callable, optional
+        ``drive(name)`` is True for the outputs whose errors make a segment split (default:
+        all). The others are certified where they meet ``tol`` and left uncertified otherwise.
 
     Returns
     -------
@@ -178,7 +182,7 @@ def build_table(func: Callable, axes: Sequence[Axis], *, tol: float = 1e-3,
                 err = np.max([scaled_error(names, table.evaluate_mapped(u), ref.vector(u, names))
                               for u in pts], axis=0)
                 bad = [n for n, e in zip(names, err) if e > tol and n not in uncertified]
-                if bad and depth < max_splits:
+                if any(drive is None or drive(n) for n in bad) and depth < max_splits:
                     i = list(axes[k].breaks).index(lo)
                     axes[k] = axes[k].split(i)
                     mid = 0.5 * (lo + hi)

@@ -18,7 +18,10 @@ import numpy as np
 
 from diagap.fastpath.grid import Axis, TensorTable
 
-__all__ = ["table_arrays", "table_from_arrays", "cached_table", "source_hash", "VALUE_MODULES"]
+__all__ = ["table_arrays", "table_from_arrays", "cached_table", "source_hash",
+           "VALUE_MODULES", "held_table"]
+
+_HELD: dict = {}  # tables already read in this process, by kind and parameters
 
 
 #: application modules whose code shapes tabulated values (the pipeline's stages and inputs,
@@ -68,7 +71,8 @@ def table_from_arrays(arrays: dict) -> tuple[TensorTable, dict]:
     return table, meta["facts"]
 
 
-def cached_table(kind: str, params: dict, build: Callable[[], tuple]) -> tuple[TensorTable, dict]:
+def cached_table(kind: str, params: dict,
+                 build: Callable[[], tuple]) -> tuple[TensorTable, dict]:
     """The table ``(kind, params)`` from the cache, built by ``build() -> (table, facts)`` on a
     miss or when the stored entry is damaged."""
     from diagap.meshes.cache import cached_arrays
@@ -79,3 +83,13 @@ def cached_table(kind: str, params: dict, build: Callable[[], tuple]) -> tuple[T
 
     key = dict(params, source=source_hash())
     return table_from_arrays(cached_arrays(kind, key, make, module="diagap.fastpath"))
+
+
+def held_table(kind: str, params: dict,
+               build: Callable[[], tuple]) -> tuple[TensorTable, dict]:
+    """:func:`cached_table`, kept in memory after the first read in this process (a fast-path
+    evaluation then costs no disk access)."""
+    key = (kind, json.dumps(params, sort_keys=True, default=str))
+    if key not in _HELD:
+        _HELD[key] = cached_table(kind, params, build)
+    return _HELD[key]

@@ -21,10 +21,21 @@ import numpy as np
 
 from diagap.design import Design, with_overrides
 
-__all__ = ["StudyBox", "study_table", "design_value", "pipeline_outputs", "SECTIONS"]
+__all__ = ["StudyBox", "study_table", "design_value", "pipeline_outputs", "SECTIONS",
+           "DRIVING_OUTPUTS"]
 
 #: summary sections the study tables hold
 SECTIONS = ("mechanics", "electrostatics", "coupled", "damping", "response")
+#: the outputs whose held-out errors refine a study table (what studies constrain and optimise);
+#: every other output is reported where it meets the tolerance and left out otherwise
+DRIVING_OUTPUTS = (
+    "response.sensitivity_db_v_per_pa", "response.sensitivity_v_per_pa",
+    "response.noise_dba_spl", "response.snr_db", "response.resonance_hz",
+    "coupled.pull_in_voltage_v", "coupled.bias_margin", "coupled.bias_center_deflection_m",
+    "coupled.resonance_at_bias_hz", "electrostatics.rest_capacitance_f",
+    "electrostatics.capacitance_slope_f_per_m", "mechanics.natural_frequencies_hz_1",
+    "mechanics.center_compliance_m_per_pa", "damping.damping_n_s_per_m",
+)
 _SIZE_KEYS = {"radius": "size_m", "side": "size_m", "electrode_radius": "electrode_size_m",
               "electrode_side": "electrode_size_m"}
 
@@ -129,6 +140,10 @@ def _box_point(box: StudyBox, x) -> dict:
     return pipeline_outputs(box.at(x))
 
 
+def _drives(name: str) -> bool:
+    return name in DRIVING_OUTPUTS
+
+
 def _axis(path: str, lo: float, hi: float, n: int):
     from diagap.fastpath.grid import Axis
 
@@ -161,15 +176,16 @@ def study_table(box: StudyBox, *, tol: float = 1e-3, nodes: int = 5, max_splits:
         The table and its build facts (reference points, uncertified outputs).
     """
     from diagap.fastpath.refine import build_table, mapper_for
-    from diagap.fastpath.store import cached_table
+    from diagap.fastpath.store import held_table
 
     def build():
         axes = [_axis(p, lo, hi, nodes) for p, lo, hi in box.ranges]
         return build_table(partial(_box_point, box), axes, tol=tol, max_splits=max_splits,
-                           mapper=mapper or mapper_for(), validate=validate)
+                           mapper=mapper or mapper_for(), validate=validate, drive=_drives)
 
-    params = dict(box.key(), tol=tol, nodes=nodes, max_splits=max_splits, validate=validate)
-    return cached_table("fastpath-study", params, build)
+    params = dict(box.key(), drive=list(DRIVING_OUTPUTS), tol=tol, nodes=nodes,
+                  max_splits=max_splits, validate=validate)
+    return held_table("fastpath-study", params, build)
 
 
 def box_coordinates(box: StudyBox, design: Design) -> np.ndarray:
