@@ -6,9 +6,10 @@ Run: ``python tests/bench/bench_fastpath.py [--accuracy normal] [--designs 50] [
    then ``--designs`` random clamped disks (radius 0.2–3 mm, thickness 0.3–20 µm, E 50–300 GPa,
    ν 0–0.45, ρ 1000–8000 kg/m³, stress from −0.85 of buckling to the plate model's limit)
    against :func:`diagap.fem.plate.solver.solve_plate`.
-2. A study box around the demo design (diaphragm thickness ±5 %, gap ±10 %, residual stress
-   ±20 MPa around 10 MPa, i.e. −10 … 30 MPa): built, then ``--designs`` random designs inside it
-   against the full analysis (:func:`diagap.fastpath.study.pipeline_outputs`).
+2. A study box around the demo design (``--box process``: diaphragm thickness ±5 %, gap ±10 %,
+   residual stress ±20 MPa around 10 MPa, i.e. −10 … 30 MPa; ``--box gap``: the gap alone):
+   built, then ``--designs`` random designs inside it against the full analysis
+   (:func:`diagap.fastpath.study.pipeline_outputs`).
 
 Printed: build time and reference points, median time of one fast evaluation, and the worst
 error per output (relative; dB outputs in dB) with the number of outputs above 1e-3 / 0.01 dB.
@@ -81,15 +82,19 @@ def bench_plate(n: int, accuracy: str, mapper) -> None:
     _report(f"scaled clamped disk, {accuracy}, {n} designs", build, facts, times, _worst(rows))
 
 
-def bench_study(n: int, accuracy: str, mapper) -> None:
+#: study boxes around the demo design: process spread of thickness, gap and stress, or the gap
+BOXES = {"process": (("diaphragm.thickness", 0.95e-6, 1.05e-6), ("backplate.gap", 3.6e-6, 4.4e-6),
+                     ("diaphragm.residual_stress", -10e6, 30e6)),
+         "gap": (("backplate.gap", 3.6e-6, 4.4e-6),)}
+
+
+def bench_study(n: int, accuracy: str, mapper, which: str = "process") -> None:
     from diagap import demo_design, with_overrides
     from diagap.fastpath import StudyBox, fast_summary
     from diagap.fastpath.study import pipeline_outputs, study_table
 
     base = demo_design().with_accuracy(accuracy)
-    box = StudyBox(base, (("diaphragm.thickness", 0.95e-6, 1.05e-6),
-                          ("backplate.gap", 3.6e-6, 4.4e-6),
-                          ("diaphragm.residual_stress", -10e6, 30e6)))
+    box = StudyBox(base, BOXES[which])
     t0 = time.perf_counter()
     _, facts = study_table(box, mapper=mapper)
     build = time.perf_counter() - t0
@@ -102,7 +107,7 @@ def bench_study(n: int, accuracy: str, mapper) -> None:
         fast = fast_summary(design, box)
         times.append(time.perf_counter() - t)
         rows.append((fast, pipeline_outputs(design)))
-    _report(f"study box around the demo, {accuracy}, {n} designs", build, facts, times,
+    _report(f"study box {which!r} around the demo, {accuracy}, {n} designs", build, facts, times,
             _worst(rows))
 
 
@@ -114,12 +119,13 @@ def main() -> None:
     ap.add_argument("--designs", type=int, default=50)
     ap.add_argument("--workers", type=int, default=None)
     ap.add_argument("--only", choices=("plate", "study"), default=None)
+    ap.add_argument("--box", choices=tuple(BOXES), default="process")
     args = ap.parse_args()
     mapper = mapper_for(args.workers)
     if args.only in (None, "plate"):
         bench_plate(args.designs, args.accuracy, mapper)
     if args.only in (None, "study"):
-        bench_study(args.designs, args.accuracy, mapper)
+        bench_study(args.designs, args.accuracy, mapper, args.box)
 
 
 if __name__ == "__main__":
