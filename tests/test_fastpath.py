@@ -194,3 +194,17 @@ def test_tables_are_reused_and_damaged_ones_rebuilt(tmp_path, monkeypatch):
     assert len(calls) > built  # the damaged entry was discarded and the table built again
     np.testing.assert_allclose(rebuilt.values, first.values, rtol=1e-14, atol=0)
     assert isinstance(rebuilt, TensorTable)
+
+
+def test_tables_build_on_a_dask_client_as_in_this_process():
+    """The same table from a Dask client's workers as from the serial mapper."""
+    distributed = pytest.importorskip("distributed")
+    from diagap.fastpath.refine import mapper_for
+
+    axes = [Axis("x", True, (math.log(0.5), math.log(2.0)), 5)]
+    serial, _ = build_table(_cubic, axes, tol=1e-6)
+    with distributed.Client(processes=False, n_workers=1, threads_per_worker=1,
+                            dashboard_address=None) as client:
+        remote, _ = build_table(_cubic, axes, tol=1e-6, mapper=mapper_for(client=client))
+    assert [a.breaks for a in remote.axes] == [a.breaks for a in serial.axes]
+    np.testing.assert_allclose(remote.values, serial.values, rtol=1e-14, atol=0)
