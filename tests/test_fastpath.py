@@ -54,6 +54,8 @@ def test_decibel_levels_are_measured_in_decibels():
                        [-47.005, 20.02], [-47.0, 20.0])
     assert err[0] == pytest.approx(0.5e-3, rel=1e-9, abs=0)  # 0.005 dB = half of 0.01 dB
     assert err[1] == pytest.approx(1e-3, rel=1e-9, abs=0)
+    group = scaled_error(["response.noise_contributions_dba_spl.vent"], [17.004], [17.0])
+    assert group[0] == pytest.approx(0.4e-3, rel=1e-9, abs=0)
 
 
 # ----------------------------------------------------------------------------- the scaled disk

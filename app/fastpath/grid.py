@@ -32,9 +32,9 @@ DB_SCALE = 0.01 / 1e-3
 
 
 def is_level_db(name: str) -> bool:
-    """True for outputs stated in decibels (their error is measured in dB, not relatively)."""
-    last = name.rsplit(".", 1)[-1]
-    return "_db" in last or last.endswith("db") or "_dba" in last
+    """True for outputs stated in decibels (their error is measured in dB, not relatively),
+    also the entries of a dB-valued group (``noise_contributions_dba_spl.vent``)."""
+    return any("_db" in part or part.endswith("db") for part in name.split("."))
 
 
 def chebyshev_nodes(lo: float, hi: float, n: int) -> np.ndarray:
