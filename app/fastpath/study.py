@@ -1,0 +1,209 @@
+"""Tables of the whole summary over a box of design values around one design.
+
+A study (tolerances, optimisation, fitting) varies a few design values of one design within
+bounds. The summary outputs of the full analysis — mechanics, electrostatics, coupled, damping
+and response, computed by exactly the stages and in the order of
+:func:`diagap.pipeline.run_design` — are tabulated over those values with
+:func:`diagap.fastpath.refine.build_table` (positive values on log axes, Chebyshev segments
+halved where a held-out point is off by more than the tolerance, random held-out validation
+points at the end) and cached on disk. Every table point is one full FE analysis, so the table's
+error is measured against the full FE itself; the large-deflection section and the audit are not
+tabulated.
+"""
+from __future__ import annotations
+
+import json
+import math
+from dataclasses import dataclass, fields
+from functools import partial
+
+import numpy as np
+
+from diagap.design import Design, with_overrides
+
+__all__ = ["StudyBox", "study_table", "design_value", "pipeline_outputs", "SECTIONS",
+           "DRIVING_OUTPUTS"]
+
+#: summary sections the study tables hold
+SECTIONS = ("mechanics", "electrostatics", "coupled", "damping", "response")
+#: the outputs whose held-out errors refine a study table (what studies constrain and optimise);
+#: every other output is reported where it meets the tolerance and left out otherwise
+DRIVING_OUTPUTS = (
+    "response.sensitivity_db_v_per_pa", "response.sensitivity_v_per_pa",
+    "response.noise_dba_spl", "response.snr_db", "response.resonance_hz",
+    "coupled.pull_in_voltage_v", "coupled.bias_margin", "coupled.bias_center_deflection_m",
+    "coupled.resonance_at_bias_hz", "electrostatics.rest_capacitance_f",
+    "electrostatics.capacitance_slope_f_per_m", "mechanics.natural_frequencies_hz_1",
+    "mechanics.center_compliance_m_per_pa", "damping.damping_n_s_per_m",
+)
+_SIZE_KEYS = {"radius": "size_m", "side": "size_m", "electrode_radius": "electrode_size_m",
+              "electrode_side": "electrode_size_m"}
+
+
+def design_value(design: Design, path: str) -> float:
+    """The SI value of design key ``path`` (``"section.key"`` as in a design file)."""
+    from diagap.fastpath import FastPathUnavailable
+
+    section, _, key = path.partition(".")
+    obj = getattr(design, section, None)
+    if obj is None or not key:
+        raise FastPathUnavailable(f"{path}: not a numeric design value of this design")
+    name = _SIZE_KEYS.get(key)
+    if name is None:
+        name = next((f.name for f in fields(obj)
+                     if f.name == key or f.name.startswith(key + "_")), None)
+    value = getattr(obj, name, None) if name else None
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        raise FastPathUnavailable(f"{path}: not a numeric design value of this design")
+    return float(value)
+
+
+@dataclass(frozen=True)
+class StudyBox:
+    """One design and the bounds (SI) of the design values a study varies.
+
+    Parameters
+    ----------
+    design : Design
+        The nominal design; every value not in ``ranges`` is held at its value.
+    ranges : tuple of (path, low, high)
+        Design keys (``"diaphragm.thickness"``) and their SI bounds, low < high.
+    """
+
+    design: Design
+    ranges: tuple
+
+    def __post_init__(self):
+        from diagap.fastpath import FastPathUnavailable
+
+        for path, lo, hi in self.ranges:
+            design_value(self.design, path)
+            if not (math.isfinite(lo) and math.isfinite(hi) and lo < hi):
+                raise FastPathUnavailable(f"{path}: bounds ({lo!r}, {hi!r}) must be finite with "
+                                          "low < high")
+
+    @property
+    def paths(self) -> tuple:
+        return tuple(p for p, _, _ in self.ranges)
+
+    def key(self) -> dict:
+        d = self.design.to_dict()
+        return {"design": json.dumps(d, sort_keys=True, default=str),
+                "ranges": [[p, float(lo), float(hi)] for p, lo, hi in self.ranges]}
+
+    def at(self, x) -> Design:
+        """The nominal design with the varied values set to ``x`` (SI)."""
+        return with_overrides(self.design, {p: float(v) for p, v in zip(self.paths, x)})
+
+
+def _sections(design: Design) -> dict:
+    """The summary sections of :func:`diagap.pipeline.run_design` up to the response."""
+    from diagap.extract import plate_problem, response_inputs
+    from diagap.fem.plate.solver import solve_plate
+    from diagap.pipeline import RunResult, _skipped
+    from diagap.stages import (coupled_stage, damping_stage, electrostatics_stage, lumped_model,
+                               response_stage)
+
+    result = RunResult(design)
+    acc = design.analysis.accuracy
+    problem = plate_problem(design)
+    mech = result.sections["mechanics"] = solve_plate(problem, accuracy=acc)
+    es = result.sections["electrostatics"] = electrostatics_stage(design, mech)
+    cp = result.sections["coupled"] = coupled_stage(design, problem, es, mech)
+    coupled = cp.objects["coupled"]
+    result.collapsed = design.electrical is not None and bool(coupled.collapsed)
+    f_res = (coupled.resonance_at_bias_hz if design.electrical is not None else None) or \
+        mech.natural_frequencies_hz[0]
+    damp = result.sections["damping"] = damping_stage(design, mech, f_res)
+    result.skipped = _skipped(design, result.collapsed)
+    if "response" not in result.skipped:
+        model = lumped_model(design, mech, es, cp, damp)
+        dist = response_inputs(design, es.objects["density"], es.objects["rim"],
+                               damp.objects["air"])
+        result.sections["response"] = response_stage(model, result.summary()["uncertainty"],
+                                                     dist, acc)
+    return result.summary()
+
+
+def pipeline_outputs(design: Design) -> dict:
+    """Flat numeric outputs (``section.key``, lists as ``key_1, key_2, …``) of the full FE
+    analysis of ``design``, sections :data:`SECTIONS`, without mesh sizes and flags."""
+    from diagap.sweep.point import flatten_summary
+
+    flat, _ = flatten_summary(_sections(design))
+    return {k: v for k, v in flat.items()
+            if k.split(".", 1)[0] in SECTIONS and "_dofs" not in k
+            and not isinstance(v, bool) and v is not None}
+
+
+def _box_point(box: StudyBox, x) -> dict:
+    return pipeline_outputs(box.at(x))
+
+
+def _drives(name: str) -> bool:
+    return name in DRIVING_OUTPUTS
+
+
+def _axis(path: str, lo: float, hi: float, n: int):
+    from diagap.fastpath.grid import Axis
+
+    if lo > 0:
+        return Axis(path, True, (math.log(lo), math.log(hi)), n)
+    return Axis(path, False, (float(lo), float(hi)), n)
+
+
+def study_table(box: StudyBox, *, tol: float = 1e-3, nodes: int = 5, max_splits: int = 2,
+                validate: int = 4, mapper=None):
+    """The table of the summary outputs over ``box`` (cached; built on demand).
+
+    Parameters
+    ----------
+    box : StudyBox
+    tol : float
+        Allowed error at held-out points (relative; 0.01 dB per 1e-3 for decibel levels).
+    nodes : int
+        Chebyshev–Lobatto nodes per axis segment.
+    max_splits : int
+        How often an axis segment may be halved.
+    validate : int
+        Random held-out points checked at the end.
+    mapper : callable, optional
+        :func:`diagap.fastpath.refine.mapper_for` (local processes or a Dask client).
+
+    Returns
+    -------
+    (TensorTable, dict)
+        The table and its build facts (reference points, uncertified outputs).
+    """
+    from diagap.fastpath.refine import build_table, mapper_for
+    from diagap.fastpath.store import held_table
+
+    def build():
+        axes = [_axis(p, lo, hi, nodes) for p, lo, hi in box.ranges]
+        return build_table(partial(_box_point, box), axes, tol=tol, max_splits=max_splits,
+                           mapper=mapper or mapper_for(), validate=validate, drive=_drives)
+
+    params = dict(box.key(), drive=list(DRIVING_OUTPUTS), tol=tol, nodes=nodes,
+                  max_splits=max_splits, validate=validate)
+    return held_table("fastpath-study", params, build)
+
+
+def box_coordinates(box: StudyBox, design: Design) -> np.ndarray:
+    """The varied values of ``design`` (SI), after checking that it differs from the box's
+    design only in them."""
+    from diagap.fastpath import FastPathUnavailable
+
+    x = np.array([design_value(design, p) for p in box.paths])
+    nominal = box.design.to_dict()
+    same = with_overrides(design, {p: design_value(box.design, p) for p in box.paths})
+    mine = same.to_dict()
+    for d in (nominal, mine):
+        d.pop("name", None)
+        d.pop("description", None)
+    if mine != nominal:
+        diff = sorted(f"{s}.{k}" for s in nominal if isinstance(nominal[s], dict)
+                      for k in nominal[s] if (mine.get(s) or {}).get(k) != nominal[s][k])
+        raise FastPathUnavailable(
+            f"the design differs from the tabulated one outside the varied values "
+            f"({', '.join(box.paths)}): {', '.join(diff) or 'sections present'}")
+    return x
