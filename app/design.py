@@ -12,6 +12,7 @@ import difflib
 import math
 from dataclasses import asdict, dataclass, replace
 from pathlib import Path
+from typing import Any
 
 
 try:  # Python >= 3.11
@@ -112,11 +113,16 @@ class Design:
     electrical: Electrical | None  # None: no [electrical]; bias-point results are skipped
     analysis: Analysis
     raw: tuple = ()  # the parsed TOML as nested (key, value) pairs, for overrides in sweeps
+    layers: Any = None  # GapLayers of [layers] (diagap.dielectrics), None: no layers
+    electret: Any = None  # Electret of [electret] (diagap.dielectrics), None: no electret
 
     def to_dict(self) -> dict:
         """The normalised design in SI (keys carry units), for summary.json."""
         d = asdict(self)
         d.pop("raw", None)
+        for key in ("layers", "electret"):  # optional sections: listed only when present
+            if d.get(key) is None:
+                d.pop(key, None)
         # the size is named for what it is, as in the design file: radius or side
         size = "radius" if self.diaphragm.shape == "circle" else "side"
         d["diaphragm"] = {(f"{size}_m" if k == "size_m" else k): v
@@ -345,10 +351,13 @@ def parse_design(raw: dict, source: str = "<design>") -> Design:
                                                  a["temperature"], a["static_pressure"])
     air = DEFAULT_AIR if a is None else (a["temperature"], a["static_pressure"])
     b = _backplate(raw, d, air)
-    e = _section(raw, "electrical") if "electrical" in raw else None
+    layers, electret, raw_e, no_supply = _dielectrics(raw, b)
+    e = _section(raw_e, "electrical") if "electrical" in raw else None
     electrical = None if e is None else Electrical(e["bias_voltage"], e["bias_resistance"],
                                                    e["parasitic_capacitance"],
                                                    e["preamp_input_capacitance"])
+    if no_supply:
+        electrical = replace(electrical, bias_voltage_v=0.0)
     n = _section(raw, "analysis")
     return Design(
         name=raw.get("name", _TOP["name"].default),
@@ -359,7 +368,25 @@ def parse_design(raw: dict, source: str = "<design>") -> Design:
         electrical=electrical,
         analysis=Analysis(n["accuracy"], n["max_memory"], n["static_pressures"]),
         raw=_freeze(raw),
+        layers=layers,
+        electret=electret,
     )
+
+
+def _dielectrics(raw: dict, b: Backplate):
+    """[layers] and [electret] (:mod:`diagap.dielectrics`), and the raw table for [electrical]
+    (an electret capsule may leave out the bias supply: bias_voltage is then 0 V; a placeholder
+    passes the schema's range check and is replaced), and whether the supply was left out."""
+    from diagap.dielectrics import parse_electret, parse_layers
+
+    layers = parse_layers(_section(raw, "layers") if "layers" in raw else None, b.gap_m,
+                          b.thickness_m)
+    electret = parse_electret(_section(raw, "electret") if "electret" in raw else None, layers)
+    raw_e, no_supply = raw, False
+    table = raw.get("electrical")
+    if electret is not None and isinstance(table, dict) and "bias_voltage" not in table:
+        raw_e, no_supply = {**raw, "electrical": {"bias_voltage": 1.0, **table}}, True
+    return layers, electret, raw_e, no_supply
 
 
 def _loads(text: str, source: str) -> dict:
