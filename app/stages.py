@@ -97,7 +97,6 @@ def electrostatics_stage(design: Design, mech) -> Section:
     from diagap.fem.field.rim import rim_fringing
 
     from diagap.dielectrics import table_lower_fraction
-    from diagap.fem.field.layers import rim_with_layers
 
     d, b, acc = design.diaphragm, design.backplate, design.analysis.accuracy
     g = b.gap_m
@@ -108,9 +107,9 @@ def electrostatics_stage(design: Design, mech) -> Section:
                                         GAP_TABLE[1] * g, b.hole_radius_m, b.hole_pitch_m,
                                         lattice, t_el, acc, layers=layers)
     half = d.shape == "square"
-    rim = rim_with_layers(lambda gap: rim_fringing(
-        (0.5 if half else 1.0) * b.electrode_size_m, (0.5 if half else 1.0) * d.size_m, gap,
-        t_el, shape=d.shape, accuracy=acc, gap_span=RIM_SPAN), g, layers)
+    rim = rim_fringing((0.5 if half else 1.0) * b.electrode_size_m,
+                       (0.5 if half else 1.0) * d.size_m, g, t_el, shape=d.shape,
+                       accuracy=acc, gap_span=RIM_SPAN, layers=layers)
     x, y, w = electrode_quadrature(design)
     phi = mech.static_shape(x, y)
     phi_rim = float(np.mean(mech.static_shape(*_rim_points(design))))

@@ -18,8 +18,9 @@ region that is not a film is the subdomain ``"open"``.
 
 The mesh is graded towards the hole rim (the points (a, z2), (a, z3), (a, z4)) with the size law
 of :class:`diagap.meshes.cell.MeshSizes`; inside a film the size is at most the film thickness
-(never below ``h_rim``), so that thin films get well-shaped elements, and it grows with the
-grading away from the film. Cached on disk. This module knows nothing of physics: names refer to
+(but not below ``h_rim`` or ``h_gap``/10: away from the rims the field in a thin film is normal
+to it and linear in z, which flat elements carry exactly), and it grows with the grading away
+from the film. Cached on disk. This module knows nothing of physics: names refer to
 geometry only.
 """
 from __future__ import annotations
@@ -125,10 +126,10 @@ def _size_law(geo: LayeredCellGeometry, sizes: MeshSizes) -> str:
         rims = [z3, z4] + ([z2] if geo.upper_film > 0 else [])
         terms.append(f"{_num(sizes.h_rim)} + {gr}*({_nested_min(rims, a)})")
     if geo.lower_film > 0:
-        cap = max(geo.lower_film, sizes.h_rim)
+        cap = max(geo.lower_film, sizes.h_rim, 0.1 * sizes.h_gap)
         terms.append(f"{_num(cap)} + {gr}*Max(0, y - {_num(z1)})")
     if geo.upper_film > 0:
-        cap = max(geo.upper_film, sizes.h_rim)
+        cap = max(geo.upper_film, sizes.h_rim, 0.1 * sizes.h_gap)
         terms.append(f"{_num(cap)} + {gr}*(Max(0, {_num(z2)} - y) + Max(0, y - {_num(z3)}))")
     return _nested(terms)
 

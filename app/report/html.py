@@ -141,9 +141,9 @@ def _dielectric_notes(design) -> list[str]:
 
     notes = []
     if getattr(design, "layers", None) is not None:
-        notes.append("dielectric layers: in the unit-cell field, the force, pull-in and C(x); the "
-                     "rim fringing is read at the electrical gap (air gap + thickness / "
-                     "permittivity); the layers add no mass or stiffness to the diaphragm")
+        notes.append("dielectric layers: in the unit-cell and rim fields, the force, pull-in and "
+                     "C(x); the gap is the air gap between the layers; the layers add no mass "
+                     "or stiffness to the diaphragm")
     if getattr(design, "electret", None) is not None:
         notes.append(f"electret: equivalent bias {electret_bias_v(design):.4g} V in series with "
                      f"the supply; {ELECTRET_NOTE}")

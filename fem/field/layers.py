@@ -30,11 +30,10 @@ V_PI = √(8 k g_e³ / (27 ε0 A)).
 
 Rim fringing
 ------------
-The rim model (:mod:`diagap.fem.field.rim`) has no layers. With layers it is evaluated at the
-electrical gap g_e (each layer replaced by air of thickness t/ε_r, exact for the field normal to
-the plates); the fringing field that leaves the overlap sees the layers' geometric thickness
-instead, so the model-reduction error is estimated as |dC_rim/dg|·(t_d + t_b − t_e), the change
-of C_rim between the two readings, and added to the rim's error.
+The rim model (:mod:`diagap.fem.field.rim`) carries the layers as subdomains of the electrode
+pair (the diaphragm's layer over the diaphragm electrode, the backplate's under the backplate
+electrode) and subtracts the series stack ε0 A/g_e of the overlap, so C_rim is the edge
+fringing of the layered pair.
 
 Electret
 --------
@@ -64,7 +63,6 @@ import math
 import time
 from dataclasses import dataclass
 
-import numpy as np
 from skfem import ElementTriP2
 
 from diagap.meshes.cell import MeshSizes
@@ -75,7 +73,7 @@ from diagap.fem.richardson import relative_error
 from diagap.fem.validate import Checks
 
 __all__ = ["GapLayers", "electret_equivalent_bias_v", "layered_cell_capacitance",
-           "rim_with_layers", "ELECTRET_SIDES"]
+           "ELECTRET_SIDES"]
 
 #: the layer that carries electret charge
 ELECTRET_SIDES = ("backplate", "diaphragm")
@@ -228,53 +226,3 @@ def layered_cell_capacitance(gap_m: float, hole_radius_m: float, pitch_m: float,
         cell_area_m2=float("nan") if lattice == "none" else cell_area_m2(pitch_m, lattice),
         model="axisymmetric", lattice=lattice, levels=tuple(levels),
         runtime_s=time.perf_counter() - start, _solution=solution)
-
-
-@dataclass(frozen=True)
-class _ShiftedRim:
-    """A rim model read at the electrical gap: C_rim(g + t_e) (module docstring)."""
-
-    rim: object
-    shift_m: float
-    model_error_f: float
-
-    def __call__(self, gap_m):
-        return self.rim(np.asarray(gap_m, dtype=float) + self.shift_m)
-
-    def derivative(self, gap_m):
-        return self.rim.derivative(np.asarray(gap_m, dtype=float) + self.shift_m)
-
-    def __getattr__(self, name):  # capacitance_f, per_length_f_per_m, gaps_m, ... of the rim
-        if name.startswith("__") or name == "rim":
-            raise AttributeError(name)
-        return getattr(self.rim, name)
-
-    @property
-    def abs_error_f(self) -> float:
-        return float(self.rim.abs_error_f) + self.model_error_f
-
-    @property
-    def rel_error(self) -> float:
-        return self.abs_error_f / abs(self.rim.capacitance_f)
-
-    @property
-    def derivative_abs_error_f_per_m(self) -> float:
-        return float(self.rim.derivative_abs_error_f_per_m) * (1.0 + self.model_error_f
-                                                               / abs(self.rim.capacitance_f))
-
-
-def rim_with_layers(rim_factory, gap_m: float, layers: GapLayers | None):
-    """The rim fringing model for an air gap ``gap_m`` with ``layers``.
-
-    ``rim_factory(gap_m)`` builds a :class:`diagap.fem.field.rim.RimResult` at a given rest gap
-    (the caller fixes the other arguments). Without layers it is called at ``gap_m``; with
-    layers at the electrical gap g + t_e and read at local air gaps shifted by t_e, with the
-    model-reduction error |dC_rim/dg|·(t_d + t_b − t_e) added (module docstring).
-    """
-    if layers is None or not layers.present:
-        return rim_factory(gap_m)
-    t_e = layers.electrical_thickness_m
-    rim = rim_factory(gap_m + t_e)
-    err = abs(float(rim.derivative(gap_m + t_e))) * (layers.geometric_thickness_m - t_e)
-    return _ShiftedRim(rim, t_e, err)
-
