@@ -143,7 +143,8 @@ def _dielectric_notes(design) -> list[str]:
     if getattr(design, "layers", None) is not None:
         notes.append("dielectric layers: in the unit-cell and rim fields, the force, pull-in and "
                      "C(x); the gap is the air gap between the layers; the layers add no mass "
-                     "or stiffness to the diaphragm")
+                     "or stiffness to the diaphragm; the unit-cell field figure shows the cell "
+                     "without them")
     if getattr(design, "electret", None) is not None:
         notes.append(f"electret: equivalent bias {electret_bias_v(design):.4g} V in series with "
                      f"the supply; {ELECTRET_NOTE}")
