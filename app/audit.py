@@ -191,7 +191,7 @@ def audit_design(design, s: dict) -> Audit:
                              "the diaphragm reaches the backplate (or stopper) at this level; "
                              "fe = the clearance", label="contact at this level"))
     if es:
-        pp = analytic.parallel_plate_capacitance(el_area, b.gap_m)
+        pp = analytic.parallel_plate_capacitance(el_area, _electrical_gap(design))
         fe = es["rest_capacitance_f"]
         rows.append(_row("parallel-plate capacitance", "rest capacitance (F)", pp, fe, _rel(pp, fe),
                          "eps0 A / g over FE - 1", 0.02, 0.10,
@@ -213,9 +213,10 @@ def audit_design(design, s: dict) -> Audit:
                              ratio, ratio, "bias deflection / gap", 0.02, 0.10,
                              label="bias deflection / gap"))
         if "pull_in_voltage_v" in cp and e is not None:
-            v_pi = analytic.piston_pull_in_voltage(mech["effective_stiffness_n_per_m"], b.gap_m,
+            v_pi = analytic.piston_pull_in_voltage(mech["effective_stiffness_n_per_m"],
+                                                   _electrical_gap(design),
                                                    mech["effective_area_m2"])
-            margin = e.bias_voltage_v / cp["pull_in_voltage_v"]
+            margin = cp.get("bias_voltage_v", e.bias_voltage_v) / cp["pull_in_voltage_v"]
             rows.append(AuditRow(
                 "pull-in margin", "pull-in voltage (V)", v_pi, cp["pull_in_voltage_v"],
                 margin, "bias / FE pull-in voltage", 0.6, 0.8, verdict(margin, 0.6, 0.8),
@@ -346,3 +347,9 @@ def _linear_capacitance_row(design, mech, es, resp) -> AuditRow:
     return _row("linear C(x)", f"capacitance at {spl:.0f} dB SPL deflection (F)", c_lin, c_fe, dev,
                 "(linear - FE) / FE capacitance change", 0.01, 0.10,
                 label="linear vs FE capacitance change")
+
+
+def _electrical_gap(design) -> float:
+    """g + Σ t/ε_r of the dielectric layers (the air gap g without layers), m."""
+    layers = getattr(design, "layers", None)
+    return design.backplate.gap_m + (layers.electrical_thickness_m if layers is not None else 0.0)

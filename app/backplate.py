@@ -143,7 +143,9 @@ def coupled_pair(design, problem, bp_problem, density, mech) -> PairResult:
     from diagap.fem.richardson import relative_error
 
     b = design.backplate
-    bias = design.electrical.bias_voltage_v if design.electrical is not None else 0.0
+    from diagap.dielectrics import effective_bias_v
+
+    bias = abs(effective_bias_v(design))  # supply + electret equivalent; force ∝ its square
     acc = COUPLING_MESHES.get(design.analysis.accuracy, design.analysis.accuracy)
     plates, ratio = plate_levels(problem, acc, b.electrode_size_m)
     load = load_from_density(density, b.gap_m)

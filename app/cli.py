@@ -204,6 +204,11 @@ def _cmd_run(args) -> int:
         if design.acoustics is None:
             print("assumed: air at 20 degC and 101.325 kPa for the damping (no [acoustics])")
         print(f"\noutputs written to {Path(args.out)}/")
+    if design.electret is not None:
+        from diagap.dielectrics import ELECTRET_NOTE, electret_bias_v
+
+        print(f"electret: equivalent bias {electret_bias_v(design):.4g} V; {ELECTRET_NOTE}",
+              file=sys.stderr if args.json else sys.stdout)
     code = EXIT_OK
     if result.collapsed:
         cp = summary["coupled"]

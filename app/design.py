@@ -135,15 +135,16 @@ class Design:
     # thermal data (None: none given; the residual stress is then used at every temperature);
     # with it, diaphragm.residual_stress_pa is the stress at the operating temperature
     thermal: ThermalModel | None = None
+    layers: Any = None  # GapLayers of [layers] (diagap.dielectrics), None: no layers
+    electret: Any = None  # Electret of [electret] (diagap.dielectrics), None: no electret
 
     def to_dict(self) -> dict:
         """The normalised design in SI (keys carry units), for summary.json."""
         d = asdict(self)
         d.pop("raw", None)
-        if d.get("readout") is None:
-            d.pop("readout", None)
-        if d.get("thermal") is None:
-            d.pop("thermal", None)
+        for key in ("readout", "thermal", "layers", "electret"):  # listed only when present
+            if d.get(key) is None:
+                d.pop(key, None)
         if d["backplate"].get("plate", 0) is None:  # rigid backplate: no entry
             d["backplate"].pop("plate")
         # the size is named for what it is, as in the design file: radius or side
@@ -416,11 +417,14 @@ def parse_design(raw: dict, source: str = "<design>") -> Design:
     air = DEFAULT_AIR if a is None else (a["temperature"], a["static_pressure"])
     d, thermal = _thermal(raw, d, air[0])
     b = _backplate(raw, d, air)
-    e = _section(raw, "electrical") if "electrical" in raw else None
-    readout = fill_input_capacitance(raw, e, parse_readout(raw, _section))
+    layers, electret, raw_e, no_supply = _dielectrics(raw, b)
+    e = _section(raw_e, "electrical") if "electrical" in raw else None
+    readout = fill_input_capacitance(raw_e, e, parse_readout(raw, _section))
     electrical = None if e is None else Electrical(e["bias_voltage"], e["bias_resistance"],
                                                    e["parasitic_capacitance"],
                                                    e["preamp_input_capacitance"])
+    if no_supply:
+        electrical = replace(electrical, bias_voltage_v=0.0)
     n = _section(raw, "analysis")
     if b.perforated and n["temperatures"]:
         check_hole_knudsen(n["temperatures"], air[1], b.hole_radius_m, MAX_HOLE_KNUDSEN)
@@ -436,7 +440,25 @@ def parse_design(raw: dict, source: str = "<design>") -> Design:
         raw=_freeze(raw),
         readout=readout,
         thermal=thermal,
+        layers=layers,
+        electret=electret,
     )
+
+
+def _dielectrics(raw: dict, b: Backplate):
+    """[layers] and [electret] (:mod:`diagap.dielectrics`), and the raw table for [electrical]
+    (an electret capsule may leave out the bias supply: bias_voltage is then 0 V; a placeholder
+    passes the schema's range check and is replaced), and whether the supply was left out."""
+    from diagap.dielectrics import parse_electret, parse_layers
+
+    layers = parse_layers(_section(raw, "layers") if "layers" in raw else None, b.gap_m,
+                          b.thickness_m)
+    electret = parse_electret(_section(raw, "electret") if "electret" in raw else None, layers)
+    raw_e, no_supply = raw, False
+    table = raw.get("electrical")
+    if electret is not None and isinstance(table, dict) and "bias_voltage" not in table:
+        raw_e, no_supply = {**raw, "electrical": {"bias_voltage": 1.0, **table}}, True
+    return layers, electret, raw_e, no_supply
 
 
 def _loads(text: str, source: str) -> dict:

@@ -42,6 +42,7 @@ def film_coefficients(design, air):
 def response_inputs(design, density, rim, air):
     """:class:`fem.response.coupled.ResponseInputs` of ``design`` (film, back volume, vent,
     baffled-piston front, bias circuit with charge feedback)."""
+    from diagap.dielectrics import effective_bias_v
     from diagap.fem.response.coupled import ResponseInputs
     from diagap.readout_design import bias_leg_resistance_ohm
 
@@ -52,5 +53,5 @@ def response_inputs(design, density, rim, air):
         back_volume_m3=a.back_volume_m3, vent_resistance_pa_s_per_m3=a.vent_resistance_pa_s_per_m3,
         gamma=air.heat_capacity_ratio, static_pressure_pa=a.static_pressure_pa, radiation=True,
         air_density_kg_m3=air.density_kg_per_m3, sound_speed_m_s=air.speed_of_sound_m_per_s,
-        bias_voltage_v=e.bias_voltage_v, bias_resistance_ohm=bias_leg_resistance_ohm(design),
+        bias_voltage_v=effective_bias_v(design), bias_resistance_ohm=bias_leg_resistance_ohm(design),
         shunt_capacitance_f=e.parasitic_capacitance_f + e.preamp_input_capacitance_f)

@@ -95,12 +95,28 @@ _ROWS = [
        1.0, "estimated relative discretisation error", diagnostic=True),
     _n("electrostatics.capacitance_slope_rel_error", "dC/dx error (relative)", "", "", 1.0,
        "estimated relative discretisation error", diagnostic=True),
+    # ---- dielectric layers on the electrodes (diagap.dielectrics)
+    _n("electrostatics.layers.backplate_thickness_m", "backplate layer thickness", "m", "µm",
+       1e6, "insulating layer on the gap side of the backplate electrode"),
+    _n("electrostatics.layers.backplate_permittivity", "backplate layer permittivity", "", "",
+       1.0, "relative permittivity of the backplate's layer"),
+    _n("electrostatics.layers.diaphragm_thickness_m", "diaphragm layer thickness", "m", "µm",
+       1e6, "insulating layer on the gap side of the diaphragm electrode"),
+    _n("electrostatics.layers.diaphragm_permittivity", "diaphragm layer permittivity", "", "",
+       1.0, "relative permittivity of the diaphragm's layer"),
+    _n("electrostatics.layers.electrical_thickness_m", "layers' electrical thickness", "m",
+       "µm", 1e6, "sum of thickness / permittivity of the layers: the electrical gap is the "
+       "air gap plus this"),
+    _n("coupled.electret_equivalent_bias_v", "electret equivalent bias", "V", "V", 1.0,
+       "bias voltage equivalent to the electret charge (sigma t / (eps0 eps_r)), in series "
+       "with the supply; it decays with temperature and humidity"),
     # ---- coupled (bias and pull-in)
     _n("coupled.pull_in_voltage_v", "pull-in voltage", "V", "V", 1.0,
        "bias voltage at which the FE diaphragm snaps to the backplate"),
     _n("coupled.pull_in_center_deflection_m", "centre deflection at pull-in", "m", "nm", 1e9,
        "centre deflection at the pull-in fold"),
-    _n("coupled.bias_voltage_v", "bias voltage", "V", "V", 1.0, "the design's bias voltage"),
+    _n("coupled.bias_voltage_v", "bias voltage", "V", "V", 1.0, "the design's bias voltage "
+       "(with an electret: supply plus the electret's equivalent bias)"),
     _n("coupled.bias_margin", "bias / pull-in voltage", "", "", 1.0,
        "bias voltage over pull-in voltage (1 or more: the diaphragm collapses)"),
     _n("coupled.collapsed", "collapsed", "", "", 1.0, "bias at or above pull-in",
@@ -400,6 +416,11 @@ _INPUTS = {
     "diaphragm.stress_reference_temperature": ("temperature of the given residual stress", "K",
                                                "K", 1.0),
     "substrate.thermal_expansion": ("substrate thermal expansion", "1/K", "ppm/K", 1e6),
+    "layers.backplate_thickness": ("backplate layer thickness", "m", "µm", 1e6),
+    "layers.backplate_permittivity": ("backplate layer permittivity", "", "", 1.0),
+    "layers.diaphragm_thickness": ("diaphragm layer thickness", "m", "µm", 1e6),
+    "layers.diaphragm_permittivity": ("diaphragm layer permittivity", "", "", 1.0),
+    "electret.charge_density": ("electret charge density", "C/m²", "mC/m²", 1e3),
 }
 INPUT_NAMES: dict[str, Name] = {
     k: Name(k, label, si, unit, scale, f"design input {k}")

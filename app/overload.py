@@ -37,10 +37,13 @@ def audit_pressure_pa(resp: dict | None) -> tuple[float, float]:
 
 
 def _density_ext(density, g_lo: float, g_hi: float):
-    """c(ĝ) with the parallel-plate extension c ∝ 1/ĝ outside [g_lo, g_hi]."""
+    """c(ĝ) with the parallel-plate extension c ∝ 1/(ĝ + t_e) outside [g_lo, g_hi] (t_e the
+    electrical thickness of dielectric layers, 0 without)."""
+    off = float(getattr(density, "electrical_offset_m", 0.0))
+
     def c(g):
         gc = np.clip(g, g_lo, g_hi)
-        return density(gc) * gc / g
+        return density(gc) * (gc + off) / (g + off)
     return c
 
 
@@ -52,6 +55,7 @@ def _capacitance(res, i, xq, yq, wq, c, gap_m):
 def large_deflection_section(design, problem, es, resp: dict | None = None,
                              with_bias: bool = True):
     """The ``large_deflection`` summary section (a :class:`diagap.stages.Section`)."""
+    from diagap.dielectrics import effective_bias_v
     from diagap.fem.coupling.plate import load_from_density
     from diagap.fem.plate.large_deflection import ElectrostaticBias, solve_large_deflection
     from diagap.lumped.quasistatic import QuasiStaticTransfer, pa_to_spl
@@ -80,7 +84,7 @@ def large_deflection_section(design, problem, es, resp: dict | None = None,
         return Section(data, unc, {"plain": plain})
     density = es.objects["density"]
     rng = (density.gap_min_m, density.gap_max_m)
-    bias = ElectrostaticBias(b.electrode_size_m, b.gap_m, e.bias_voltage_v,
+    bias = ElectrostaticBias(b.electrode_size_m, b.gap_m, effective_bias_v(design),
                              load_from_density(density, b.gap_m), rng)
     biased = solve_large_deflection(problem, [0.0], acc, clearance_m=clearance, bias=bias)
     xq, yq, wq = electrode_quadrature(design)
@@ -92,7 +96,8 @@ def large_deflection_section(design, problem, es, resp: dict | None = None,
     shunt = es.data.get("rim_fringing_capacitance_f", 0.0) + e.parasitic_capacitance_f + \
         e.preamp_input_capacitance_f
     transfer = QuasiStaticTransfer(tuple(p_b[stable]), tuple(np.array(caps)[stable]),
-                                   e.bias_voltage_v, shunt, None, biased.contact_pressure_pa)
+                                   effective_bias_v(design), shunt, None,
+                                   biased.contact_pressure_pa)
     thd_point = transfer.thd_point_spl_db(0.10)
     data.update({
         "contact_pressure_at_bias_pa": biased.contact_pressure_pa,

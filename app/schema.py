@@ -102,6 +102,19 @@ SCHEMA: dict[str, dict[str, Field]] = {
         "material": Field(choices=tuple(SUBSTRATES)),
         "thermal_expansion": _range("1/K", -1e-4, 1e-3, example="2.6e-6 1/K"),
     },
+    # dielectric layers on the gap side of the electrodes (optional section; see
+    # diagap.dielectrics): the backplate's layer is part of backplate.thickness
+    "layers": {
+        "backplate_thickness": _length(1e-9, 1e-3, example="0.2 um"),
+        "backplate_permittivity": _range("", 1.0, 100.0, example="7"),
+        "diaphragm_thickness": _length(1e-9, 1e-3, example="0.2 um"),
+        "diaphragm_permittivity": _range("", 1.0, 100.0, example="7"),
+    },
+    # fixed charge on one layer's gap-side surface (optional section; see diagap.dielectrics)
+    "electret": {
+        "charge_density": _range("C/m^2", -0.05, 0.05, required=True, example="-0.5 mC/m^2"),
+        "layer": Field(choices=("backplate", "diaphragm"), default="backplate"),
+    },
 }
 #: sections a design may leave out; the analyses that need them are skipped
 OPTIONAL_SECTIONS = ("acoustics", "electrical", "readout")

@@ -102,17 +102,22 @@ def electrostatics_stage(design: Design, mech, density=None, rim=None) -> Sectio
     from diagap.fem.field.cell_table import capacitance_density_table
     from diagap.fem.field.rim import rim_fringing
 
+    from diagap.dielectrics import table_lower_fraction
+
     d, b, acc = design.diaphragm, design.backplate, design.analysis.accuracy
     g = b.gap_m
     lattice = b.hole_lattice
+    layers = design.layers  # dielectric layers: the electrode is the backplate less its layer
+    t_el = b.thickness_m - (layers.backplate_thickness_m if layers is not None else 0.0)
     if density is None:
-        density = capacitance_density_table(GAP_TABLE[0] * g, GAP_TABLE[1] * g, b.hole_radius_m,
-                                            b.hole_pitch_m, lattice, b.thickness_m, acc)
+        density = capacitance_density_table(table_lower_fraction(design, GAP_TABLE[0]) * g,
+                                            GAP_TABLE[1] * g, b.hole_radius_m, b.hole_pitch_m,
+                                            lattice, t_el, acc, layers=layers)
     half = d.shape == "square"
     if rim is None:
         rim = rim_fringing((0.5 if half else 1.0) * b.electrode_size_m,
-                           (0.5 if half else 1.0) * d.size_m, g, b.thickness_m, shape=d.shape,
-                           accuracy=acc, gap_span=RIM_SPAN)
+                           (0.5 if half else 1.0) * d.size_m, g, t_el, shape=d.shape,
+                           accuracy=acc, gap_span=RIM_SPAN, layers=layers)
     x, y, w = electrode_quadrature(design)
     phi = mech.static_shape(x, y)
     phi_rim = float(np.mean(mech.static_shape(*_rim_points(design))))
@@ -127,6 +132,8 @@ def electrostatics_stage(design: Design, mech, density=None, rim=None) -> Sectio
         "rim_fringing_capacitance_f": rim.abs_error_f / max(rim.capacitance_f, 1e-300),
     }
     data = dev.to_summary()
+    if layers is not None:
+        data["layers"] = layers.to_summary()
     return Section(data, unc, {"device": dev, "density": density, "rim": rim,
                                "phi_max": float(np.max(phi)), "phi_rim": phi_rim})
 
@@ -140,10 +147,13 @@ def coupled_stage(design: Design, problem, es: Section, mech) -> Section:
     cross-check. The lumped model's own electrostatic spring is the static-shape one,
     ½V²C''(x_b) (:func:`electrostatic_spring`); ``softened_stiffness_n_per_m`` and
     ``electrostatic_stiffness_n_per_m`` are those of the static shape."""
+    from diagap.dielectrics import effective_bias_v, electret_bias_v
     from diagap.fem.coupling.plate import solve_coupled
 
     b = design.backplate
-    bias = design.electrical.bias_voltage_v if design.electrical is not None else 0.0
+    # supply + electret equivalent (diagap.dielectrics); the force goes with its square, so
+    # the coupled solve takes its magnitude
+    bias = abs(effective_bias_v(design))
     pair = None
     if b.plate is not None:  # compliant backplate: the two-plate solve (diagap.backplate)
         from diagap.backplate import coupled_pair
@@ -154,14 +164,16 @@ def coupled_stage(design: Design, problem, es: Section, mech) -> Section:
         res = solve_coupled(problem, design.analysis.accuracy, b.electrode_size_m, b.gap_m,
                             bias, es.objects["density"])
     data = res.to_summary()
+    if design.electret is not None:
+        data["electret_equivalent_bias_v"] = electret_bias_v(design)
     unc = dict(res.uncertainty)
     if pair is not None:
         data.update(pair.data)
         unc.update(pair.uncertainty)
     if design.electrical is None:  # pull-in only: no bias point without a bias voltage
         data = {k: data[k] for k in ("pull_in_voltage_v", "pull_in_center_deflection_m",
-                                     "branch", "backplate_pull_in_center_deflection_m")
-                if k in data}
+                                     "branch", "backplate_pull_in_center_deflection_m",
+                                     "electret_equivalent_bias_v") if k in data}
         unc = {k: v for k, v in unc.items() if k.startswith("pull_in")}
         return Section(data, unc, {"coupled": res, "no_bias": True, "backplate": pair})
     if not res.collapsed:
@@ -215,9 +227,12 @@ def damping_stage(design: Design, mech, resonance_hz: float) -> Section:
 def _curve_points(design: Design, es: Section) -> np.ndarray:
     """Centre displacements (m) of the C(x) samples: every local gap stays inside the c(g) table
     and the rim model's range."""
+    from diagap.dielectrics import table_lower_fraction
+
     g = design.backplate.gap_m
     pm, pr = max(es.objects["phi_max"], 1e-9), max(es.objects["phi_rim"], 1e-9)
-    x_hi = 0.999 * min(NONLINEAR_TRAVEL * g, (1 - GAP_TABLE[0]) * g / pm, RIM_SPAN * g / pr)
+    low = table_lower_fraction(design, GAP_TABLE[0])
+    x_hi = 0.999 * min(NONLINEAR_TRAVEL * g, (1 - low) * g / pm, RIM_SPAN * g / pr)
     x_lo = -0.999 * min(0.4 * g, (GAP_TABLE[1] - 1) * g / pm, RIM_SPAN * g / pr)
     return np.linspace(x_lo, x_hi, 111)
 
@@ -225,11 +240,12 @@ def _curve_points(design: Design, es: Section) -> np.ndarray:
 def electrostatic_spring(design: Design, es: Section, x_b_m: float) -> float:
     """Constant-voltage electrostatic spring ½V_b²C''(x_b) on the static shape (N/m), C''
     from the elastance spline of :class:`lumped.model.CapacitanceCurve` through C(x)."""
+    from diagap.dielectrics import effective_bias_v
     from diagap.lumped.model import CapacitanceCurve
 
     xs = _curve_points(design, es)
     curve = CapacitanceCurve(xs, es.objects["device"](xs))
-    return float(0.5 * design.electrical.bias_voltage_v**2 * curve.curvature(x_b_m))
+    return float(0.5 * effective_bias_v(design)**2 * curve.curvature(x_b_m))
 
 
 def _piston_radius(design: Design) -> float:
@@ -260,6 +276,7 @@ def _film_table(design: Design, mech, air, sq):
 
 def lumped_model(design: Design, mech, es: Section, cp: Section, damp: Section):
     """The one-degree-of-freedom model at the bias point (see :mod:`diagap.lumped.model`)."""
+    from diagap.dielectrics import effective_bias_v
     from diagap.lumped.model import FilmTable, LumpedModel
     from diagap.readout_design import bias_leg_resistance_ohm
 
@@ -284,8 +301,8 @@ def lumped_model(design: Design, mech, es: Section, cp: Section, damp: Section):
         back_volume_m3=ac.back_volume_m3, vent_resistance_pa_s_per_m3=ac.vent_resistance_pa_s_per_m3,
         rest_capacitance_f=float(dev(x_b)),
         capacitance_slope_f_per_m=s_b * float(dev.slope(x_b)),
-        bias_resistance_ohm=bias_leg_resistance_ohm(design), bias_voltage_v=e.bias_voltage_v,
-        gap_m=g,
+        bias_resistance_ohm=bias_leg_resistance_ohm(design),
+        bias_voltage_v=effective_bias_v(design), gap_m=g,
         parasitic_capacitance_f=e.parasitic_capacitance_f,
         preamp_input_capacitance_f=e.preamp_input_capacitance_f, capacitance_curve=curve,
         film_damping=film, bias_displacement_m=x_b, air_density_kg_m3=air.density_kg_per_m3,

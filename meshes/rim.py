@@ -11,7 +11,11 @@ inside a half disk of radius ``outer_radius`` centred at the middle of the gap. 
   and its bottom, side and top form the group ``"upper"``;
 * optionally a solid ring [upper_radius, ring_radius] x [1, 1 + thickness] (the part of a
   backplate beyond its electrode) as subdomain ``"ring"``;
-* the outer arc as boundary group ``"outer"``.
+* the outer arc as boundary group ``"outer"``;
+* optionally a film on each electrode's facing side: [0, lower_radius] x [0, lower_film]
+  (subdomain ``"lower_film"``) and [0, upper_radius] x [z_u − upper_film, z_u] under the upper
+  electrode (subdomain ``"upper_film"``). The gap of 1 is then the distance between the films:
+  the upper electrode's bottom is at z_u = lower_film + 1 + upper_film (1 without films).
 
 The mesh is graded towards the electrode edges (points (lower_radius, 0), (upper_radius, 1) and
 (upper_radius, 1 + thickness)) with the law of :class:`diagap.meshes.cell.MeshSizes`, capped at
@@ -39,16 +43,27 @@ class PairGeometry:
     thickness: float
     outer_radius: float
     ring_radius: float = 0.0
+    lower_film: float = 0.0
+    upper_film: float = 0.0
+
+    @property
+    def upper_bottom(self) -> float:
+        """z of the upper electrode's bottom face: lower film + gap + upper film."""
+        return self.lower_film + 1.0 + self.upper_film
 
     def as_dict(self) -> dict:
-        return {"rl": self.lower_radius, "ru": self.upper_radius, "t": self.thickness,
-                "R": self.outer_radius, "rb": self.ring_radius}
+        out = {"rl": self.lower_radius, "ru": self.upper_radius, "t": self.thickness,
+               "R": self.outer_radius, "rb": self.ring_radius}
+        if self.lower_film or self.upper_film:
+            out.update({"fl": self.lower_film, "fu": self.upper_film})
+        return out
 
     def check(self) -> None:
         rl, ru, t, R = self.lower_radius, self.upper_radius, self.thickness, self.outer_radius
-        ok = rl > 0 and ru > 0 and t >= 0 and R > 2 * max(rl, ru, 1 + t)
+        ok = rl > 0 and ru > 0 and t >= 0 and R > 2 * max(rl, ru, self.upper_bottom + t)
         ok = ok and (self.ring_radius == 0 or (t > 0 and self.ring_radius > ru))
         ok = ok and self.ring_radius < 0.5 * R
+        ok = ok and self.lower_film >= 0 and self.upper_film >= 0
         if not ok:
             raise ValueError(
                 f"electrode pair must satisfy radii > 0, thickness >= 0, outer radius > 2x the "
@@ -58,6 +73,7 @@ class PairGeometry:
 
 def _classify(gmsh, geo: PairGeometry) -> None:
     rl, ru, t = geo.lower_radius, geo.upper_radius, geo.thickness
+    zu = geo.upper_bottom
     tol = 1e-7 * max(1.0, geo.outer_radius)
     groups = {"lower": [], "upper": [], "outer": []}
     for dim, tag in gmsh.model.getEntities(1):
@@ -67,7 +83,7 @@ def _classify(gmsh, geo: PairGeometry) -> None:
             continue  # on the axis / mid-line
         if abs(y0) < 10 * tol and abs(y1) < 10 * tol and x1 <= rl + 10 * tol:
             groups["lower"].append(tag)
-        elif y0 > 1 - 10 * tol and y1 < 1 + t + 10 * tol and x1 <= ru + 10 * tol:
+        elif y0 > zu - 10 * tol and y1 < zu + t + 10 * tol and x1 <= ru + 10 * tol:
             groups["upper"].append(tag)
         elif x1 > 0.9 * geo.outer_radius:
             groups["outer"].append(tag)
@@ -79,30 +95,52 @@ def _classify(gmsh, geo: PairGeometry) -> None:
         ring = []
         for dim, tag in gmsh.model.getEntities(2):
             x0, y0, _, x1, y1, _ = gmsh.model.getBoundingBox(dim, tag)
-            if x0 > ru - 10 * tol and x1 < geo.ring_radius + 10 * tol and y0 > 1 - 10 * tol:
+            if x0 > ru - 10 * tol and x1 < geo.ring_radius + 10 * tol and y0 > zu - 10 * tol:
                 ring.append(tag)
         if len(ring) != 1:
             raise ValueError(f"electrode pair ring selection found {len(ring)} surfaces")
         gmsh.model.addPhysicalGroup(2, ring, name="ring")
+    _film_groups(gmsh, geo, 10 * tol)
+
+
+def _film_groups(gmsh, geo: PairGeometry, tol: float) -> None:
+    """Subdomains ``"lower_film"`` and ``"upper_film"`` (those with a thickness > 0)."""
+    boxes = {"lower_film": (geo.lower_radius, 0.0, geo.lower_film),
+             "upper_film": (geo.upper_radius, geo.lower_film + 1.0, geo.upper_bottom)}
+    for name, (radius, z0, z1) in boxes.items():
+        if z1 <= z0:
+            continue
+        tags = []
+        for dim, tag in gmsh.model.getEntities(2):
+            x0, y0, _, x1, y1, _ = gmsh.model.getBoundingBox(dim, tag)
+            if x1 < radius + tol and y0 > z0 - tol and y1 < z1 + tol:
+                tags.append(tag)
+        if len(tags) != 1:
+            raise ValueError(f"electrode pair {name} selection found {len(tags)} surfaces")
+        gmsh.model.addPhysicalGroup(2, tags, name=name)
 
 
 def _size_expr(geo: PairGeometry, sizes: MeshSizes) -> str:
     rl, ru, t = geo.lower_radius, geo.upper_radius, geo.thickness
-    rims = [(rl, 0.0), (ru, 1.0)] + ([(ru, 1.0 + t)] if t > 0 else [])
+    zu, fl, fu = geo.upper_bottom, geo.lower_film, geo.upper_film
+    rims = [(rl, 0.0), (ru, zu)] + ([(ru, zu + t)] if t > 0 else [])
+    rims += ([(rl, fl)] if fl > 0 else []) + ([(ru, zu - fu)] if fu > 0 else [])
     d = [f"Sqrt((x-{_num(x)})^2 + (y-{_num(y)})^2)" for x, y in rims]
     dist = d[0]
     for term in d[1:]:
         dist = f"Min({dist}, {term})"
     inner = min(rl, ru)
-    box = f"(Max(0, x-{_num(inner)}) + Max(0, -y) + Max(0, y-{_num(1 + t)}))"
+    box = f"(Max(0, x-{_num(inner)}) + Max(0, -y) + Max(0, y-{_num(zu + t)}))"
     gr = _num(sizes.grading)
-    return (f"Min({_num(sizes.h_max)}, Min({_num(sizes.h_rim)} + {gr}*{dist}, "
-            f"{_num(sizes.h_gap)} + {gr}*{box}))")
+    out = (f"Min({_num(sizes.h_max)}, Min({_num(sizes.h_rim)} + {gr}*{dist}, "
+           f"{_num(sizes.h_gap)} + {gr}*{box}))")
+    return out
 
 
 def _build(geo: PairGeometry, sizes: MeshSizes) -> dict:
     rl, ru, t, R = geo.lower_radius, geo.upper_radius, geo.thickness, geo.outer_radius
-    zc = 0.5 * (1.0 + t)
+    zu, fl, fu = geo.upper_bottom, geo.lower_film, geo.upper_film
+    zc = 0.5 * (zu + t)
     with gmsh_session("electrode-pair") as gmsh:
         occ = gmsh.model.occ
         disk = occ.addDisk(0, zc, 0, R, R)
@@ -110,11 +148,15 @@ def _build(geo: PairGeometry, sizes: MeshSizes) -> dict:
         dom, _ = occ.intersect([(2, disk)], [(2, half)])
         tools = [(1, occ.addLine(occ.addPoint(0, 0, 0), occ.addPoint(rl, 0, 0)))]
         if t == 0:
-            tools.append((1, occ.addLine(occ.addPoint(0, 1, 0), occ.addPoint(ru, 1, 0))))
+            tools.append((1, occ.addLine(occ.addPoint(0, zu, 0), occ.addPoint(ru, zu, 0))))
         else:
-            dom, _ = occ.cut(dom, [(2, occ.addRectangle(0, 1, 0, ru, t))])
+            dom, _ = occ.cut(dom, [(2, occ.addRectangle(0, zu, 0, ru, t))])
             if geo.ring_radius > 0:
-                tools.append((2, occ.addRectangle(ru, 1, 0, geo.ring_radius - ru, t)))
+                tools.append((2, occ.addRectangle(ru, zu, 0, geo.ring_radius - ru, t)))
+        if fl > 0:
+            tools.append((2, occ.addRectangle(0, 0, 0, rl, fl)))
+        if fu > 0:
+            tools.append((2, occ.addRectangle(0, zu - fu, 0, ru, fu)))
         occ.fragment(dom, tools)
         occ.synchronize()
         _classify(gmsh, geo)

@@ -131,10 +131,27 @@ def _omitted(result) -> str:
     if not result.design.backplate.perforated:
         notes.append("unit-cell field around a hole: the backplate is unperforated, the gap field "
                      "is the uniform V/g")
+    notes += _dielectric_notes(result.design)
     if not notes:
         return ""
     items = "".join(f"<li>{html.escape(n)}</li>" for n in notes)
     return f'<div class="omitted"><b>Not computed or assumed:</b><ul>{items}</ul></div>'
+
+
+def _dielectric_notes(design) -> list[str]:
+    """What the report assumes about dielectric layers and electret charge (if present)."""
+    from diagap.dielectrics import ELECTRET_NOTE, electret_bias_v
+
+    notes = []
+    if getattr(design, "layers", None) is not None:
+        notes.append("dielectric layers: in the unit-cell and rim fields, the force, pull-in and "
+                     "C(x); the gap is the air gap between the layers; the layers add no mass "
+                     "or stiffness to the diaphragm; the unit-cell field figure shows the cell "
+                     "without them")
+    if getattr(design, "electret", None) is not None:
+        notes.append(f"electret: equivalent bias {electret_bias_v(design):.4g} V in series with "
+                     f"the supply; {ELECTRET_NOTE}")
+    return notes
 
 
 def _files_list(files: list[str]) -> str:

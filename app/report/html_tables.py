@@ -144,9 +144,29 @@ def _design_rows(design) -> list[tuple[str, str, str]]:
              f"{r.charge_pump_noise_v_per_rthz * 1e9:.4g} nV/√Hz", ""),
         ]
     rows += thermal_design_rows(design)
+    rows += _dielectric_rows(design)
     rows += [
         ("analysis", "accuracy", design.analysis.accuracy, ""),
     ]
+    return rows
+
+
+def _dielectric_rows(design) -> list[tuple[str, str, str]]:
+    """[layers] and [electret] rows, when the design has them."""
+    rows, layers, el = [], getattr(design, "layers", None), getattr(design, "electret", None)
+    if layers is not None:
+        for side in ("backplate", "diaphragm"):
+            t = getattr(layers, f"{side}_thickness_m")
+            if t > 0:
+                rows += [("layers", f"{side} layer thickness", t * 1e6, "µm"),
+                         ("layers", f"{side} layer permittivity",
+                          getattr(layers, f"{side}_permittivity"), "")]
+    if el is not None:
+        from diagap.dielectrics import electret_bias_v
+
+        rows += [("electret", "charge density", el.charge_density_c_per_m2 * 1e3, "mC/m²"),
+                 ("electret", "charged layer", el.layer, ""),
+                 ("electret", "equivalent bias", electret_bias_v(design), "V")]
     return rows
 
 

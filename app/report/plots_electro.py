@@ -191,6 +191,6 @@ def electro_plots(design, es, cp, cell) -> list[Plot]:
             "of the bias voltage (no sound pressure). The voltage peaks at pull-in; beyond it "
             "the equilibria are unstable.",
             lambda: draw_bias_branch(cp.data, design.backplate.gap_m,
-                                     design.electrical.bias_voltage_v
+                                     cp.data.get("bias_voltage_v")  # supply + electret
                                      if design.electrical is not None else None)))
     return out

@@ -107,7 +107,8 @@ def check_cell_inputs(gap_m, hole_radius_m, pitch_m, lattice, backplate_thicknes
 
 
 def solve_potential(mesh, element, potentials: dict, weight: str = "axisymmetric",
-                    iterative: bool = False, ring_permittivity: float = 1.0):
+                    iterative: bool = False, ring_permittivity: float = 1.0,
+                    permittivities: dict | None = None):
     """Solve Laplace's equation with Dirichlet values on named mesh boundaries.
 
     Parameters
@@ -124,6 +125,8 @@ def solve_potential(mesh, element, potentials: dict, weight: str = "axisymmetric
         CG with a smoothed-aggregation AMG preconditioner instead of a direct solve.
     ring_permittivity : float
         Relative permittivity of the subdomain ``"ring"`` if the mesh has one (else 1).
+    permittivities : dict, optional
+        Subdomain name → relative permittivity for further dielectric subdomains (others 1).
 
     Returns
     -------
@@ -137,6 +140,9 @@ def solve_potential(mesh, element, potentials: dict, weight: str = "axisymmetric
     if ring_permittivity != 1.0 and "ring" in subdomains:
         ring = Basis(mesh, element, elements=subdomains["ring"])
         K = K + (ring_permittivity - 1.0) * form.assemble(ring)
+    for name, eps_r in (permittivities or {}).items():
+        if eps_r != 1.0 and name in subdomains:
+            K = K + (eps_r - 1.0) * form.assemble(Basis(mesh, element, elements=subdomains[name]))
     x = np.zeros(basis.N)
     fixed = []
     for name, value in potentials.items():
@@ -269,7 +275,7 @@ def _solve_level(geo, lattice, s, model):
 def cell_capacitance(gap_m: float, hole_radius_m: float, pitch_m: float, lattice: str,
                      backplate_thickness_m: float, accuracy: str = "normal",
                      model: str = "axisymmetric", air_height_m: float | None = None,
-                     mesh_scale: float | None = None) -> CellResult:
+                     mesh_scale: float | None = None, layers=None) -> CellResult:
     """Capacitance density of one cell of the backplate hole lattice.
 
     Parameters
@@ -291,11 +297,21 @@ def cell_capacitance(gap_m: float, hole_radius_m: float, pitch_m: float, lattice
     mesh_scale : float, optional
         Overrides ``accuracy``: the two levels use mesh scale factors 2·mesh_scale and
         mesh_scale (element sizes proportional to the factor; "normal" is 1).
+    layers : GapLayers, optional
+        Dielectric layers on the electrodes (:mod:`diagap.fem.field.layers`; axisymmetric cell
+        only); ``gap_m`` is then the air gap between the layer surfaces.
 
     Returns
     -------
     CellResult
     """
+    if layers is not None and layers.present:
+        from diagap.fem.field.layers import layered_cell_capacitance
+
+        _check.require(model == "axisymmetric", "dielectric layers need model = 'axisymmetric'")
+        return layered_cell_capacitance(gap_m, hole_radius_m, pitch_m, lattice,
+                                        backplate_thickness_m, layers, accuracy, air_height_m,
+                                        mesh_scale)
     check_cell_inputs(gap_m, hole_radius_m, pitch_m, lattice, backplate_thickness_m, accuracy,
                       model)
     if air_height_m is not None:

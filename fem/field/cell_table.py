@@ -13,6 +13,12 @@ terms absorb the slow change of the fringing field with g. The fit error is the 
 residual at the samples (more samples than coefficients, so the residual is a genuine check of
 the model). A cubic spline of P(g) through the same samples is kept as a second interpolant:
 the difference of the two slopes estimates the uncertainty of dc/dg.
+
+With dielectric layers on the electrodes (:mod:`diagap.fem.field.layers`) g stays the air gap
+but the fit is made in the electrical gap g_e = g + t_e (t_e = Σ t/ε_r of the layers): the
+factor P = c·g_e/ε0 and ĝ = g_e/g_mid, g_mid the geometric mean of the range in g_e, so that the
+layered flat plate, c = ε0/g_e, is P ≡ 1 and is fitted exactly. ``electrical_offset_m`` = t_e
+(0 without layers, which is the model above).
 """
 from __future__ import annotations
 
@@ -57,6 +63,8 @@ class CapacitanceDensity:
     open_area_fraction : float
     lattice : str
     runtime_s : float
+    electrical_offset_m : float
+        t_e [m]: the fit variable is g + t_e (0 without dielectric layers).
     """
 
     gap_min_m: float
@@ -71,6 +79,7 @@ class CapacitanceDensity:
     open_area_fraction: float
     lattice: str
     runtime_s: float
+    electrical_offset_m: float = 0.0
 
     def _check(self, g: np.ndarray) -> None:
         lo, hi = self.gap_min_m * (1 - _RANGE_TOL), self.gap_max_m * (1 + _RANGE_TOL)
@@ -81,21 +90,22 @@ class CapacitanceDensity:
                 f"[{self.gap_min_m!r}, {self.gap_max_m!r}] m")
 
     def perforation_factor(self, gap_m):
-        """P(g) = c(g)·g/ε0 from the fit (dimensionless; scalar or array of gaps [m])."""
+        """P(g) = c(g)·(g + t_e)/ε0 from the fit (dimensionless; scalar or array of gaps [m])."""
         g = np.asarray(gap_m, dtype=float)
         self._check(g)
-        out = _basis(np.atleast_1d(g).ravel() / self.gap_mid_m) @ self.coefficients
+        out = _basis((np.atleast_1d(g).ravel() + self.electrical_offset_m) / self.gap_mid_m) \
+            @ self.coefficients
         return out.reshape(g.shape) if g.ndim else float(out[0])
 
     def __call__(self, gap_m):
         """c(g) [F/m²] (scalar or array of gaps [m])."""
         g = np.asarray(gap_m, dtype=float)
-        return EPSILON_0_F_PER_M * self.perforation_factor(g) / g
+        return EPSILON_0_F_PER_M * self.perforation_factor(g) / (g + self.electrical_offset_m)
 
     def _scaled(self, gap_m):
         g = np.asarray(gap_m, dtype=float)
         self._check(g)
-        return g, np.atleast_1d(g).ravel() / self.gap_mid_m
+        return g, (np.atleast_1d(g).ravel() + self.electrical_offset_m) / self.gap_mid_m
 
     @staticmethod
     def _shape(values, g):
@@ -104,7 +114,8 @@ class CapacitanceDensity:
     def derivative(self, gap_m):
         """dc/dg [F/m³] (scalar or array of gaps [m]).
 
-        With c = (ε0/g_mid)(A/ĝ + C_f + k1 ln ĝ + k2 ĝ): dc/dg = (ε0/g_mid²)(−A/ĝ² + k1/ĝ + k2).
+        With c = (ε0/g_mid)(A/ĝ + C_f + k1 ln ĝ + k2 ĝ): dc/dg = (ε0/g_mid²)(−A/ĝ² + k1/ĝ + k2)
+        (dĝ/dg = 1/g_mid also with layers).
         """
         g, gh = self._scaled(gap_m)
         A, _, k1, k2 = self.coefficients
@@ -124,9 +135,10 @@ class CapacitanceDensity:
         """dc/dg [F/m³] from a cubic spline of P(g) through the samples (cross-check)."""
         g = np.asarray(gap_m, dtype=float)
         self._check(g)
-        P = self.density_f_per_m2 * self.gaps_m / EPSILON_0_F_PER_M
+        ge, ge_s = g + self.electrical_offset_m, self.gaps_m + self.electrical_offset_m
+        P = self.density_f_per_m2 * ge_s / EPSILON_0_F_PER_M
         sp = CubicSpline(self.gaps_m, P)
-        return EPSILON_0_F_PER_M * (sp(g, 1) / g - sp(g) / g**2)
+        return EPSILON_0_F_PER_M * (sp(g, 1) / ge - sp(g) / ge**2)
 
 
 def _chebyshev_gaps(g0: float, g1: float, n: int) -> np.ndarray:
@@ -135,7 +147,7 @@ def _chebyshev_gaps(g0: float, g1: float, n: int) -> np.ndarray:
     return 0.5 * (g0 + g1) - 0.5 * (g1 - g0) * np.cos(np.pi * k / (n - 1))
 
 
-def _samples(gaps, hole_radius_m, pitch_m, lattice, t_m, accuracy, air_height_m):
+def _samples(gaps, hole_radius_m, pitch_m, lattice, t_m, accuracy, air_height_m, layers=None):
     """Cell capacitance densities and their error estimates at ``gaps``, cached on disk (keyed
     by the inputs and a hash of the solver source; the solutions are reused across the points
     of a sweep that keeps the hole pattern)."""
@@ -143,13 +155,15 @@ def _samples(gaps, hole_radius_m, pitch_m, lattice, t_m, accuracy, air_height_m)
 
     def build():
         cells = [cell_capacitance(g, hole_radius_m, pitch_m, lattice, t_m, accuracy,
-                                  air_height_m=air_height_m) for g in gaps]
+                                  air_height_m=air_height_m, layers=layers) for g in gaps]
         return {"c": np.array([r.capacitance_density_f_per_m2 for r in cells]),
                 "err": np.array([r.rel_error for r in cells]),
                 "open": np.array([cells[0].open_area_fraction])}
 
     params = {"gaps": [float(g) for g in gaps], "r": hole_radius_m, "p": pitch_m,
               "lattice": lattice, "t": t_m, "acc": accuracy, "H": air_height_m}
+    if layers is not None and layers.present:
+        params["layers"] = layers.to_summary()
     arr = cached_arrays("cell-table-solution", params, build)
     return arr["c"], arr["err"], float(arr["open"][0])
 
@@ -157,7 +171,8 @@ def _samples(gaps, hole_radius_m, pitch_m, lattice, t_m, accuracy, air_height_m)
 def capacitance_density_table(gap_min_m: float, gap_max_m: float, hole_radius_m: float,
                               pitch_m: float, lattice: str, backplate_thickness_m: float,
                               accuracy: str = "normal",
-                              air_height_m: float | None = None) -> CapacitanceDensity:
+                              air_height_m: float | None = None,
+                              layers=None) -> CapacitanceDensity:
     """Sample c(g) with the axisymmetric cell and fit the smooth model (module docstring).
 
     Parameters
@@ -166,6 +181,8 @@ def capacitance_density_table(gap_min_m: float, gap_max_m: float, hole_radius_m:
         Gap range [m], 0 < gap_min_m < gap_max_m.
     hole_radius_m, pitch_m, lattice, backplate_thickness_m, accuracy, air_height_m
         As for :func:`diagap.fem.field.cell.cell_capacitance`.
+    layers : GapLayers, optional
+        Dielectric layers (:mod:`diagap.fem.field.layers`); the gaps are air gaps.
 
     Returns
     -------
@@ -179,10 +196,11 @@ def capacitance_density_table(gap_min_m: float, gap_max_m: float, hole_radius_m:
     start = time.perf_counter()
     gaps = _chebyshev_gaps(gap_min_m, gap_max_m, _SAMPLES[accuracy])
     c, errs, open_area = _samples(gaps, hole_radius_m, pitch_m, lattice, backplate_thickness_m,
-                                  accuracy, air_height_m)
-    P = c * gaps / EPSILON_0_F_PER_M
-    g_mid = float(np.sqrt(gap_min_m * gap_max_m))
-    M = _basis(gaps / g_mid)
+                                  accuracy, air_height_m, layers)
+    offset = layers.electrical_thickness_m if layers is not None else 0.0
+    P = c * (gaps + offset) / EPSILON_0_F_PER_M
+    g_mid = float(np.sqrt((gap_min_m + offset) * (gap_max_m + offset)))
+    M = _basis((gaps + offset) / g_mid)
     coef, *_ = np.linalg.lstsq(M / P[:, None], np.ones_like(P), rcond=None)
     fit_error = float(np.max(np.abs(M @ coef - P) / P))
     return CapacitanceDensity(
@@ -191,4 +209,4 @@ def capacitance_density_table(gap_min_m: float, gap_max_m: float, hole_radius_m:
         coefficients=coef, gap_mid_m=g_mid, fit_error=fit_error,
         rel_error=float(np.max(errs)),
         open_area_fraction=open_area, lattice=lattice,
-        runtime_s=time.perf_counter() - start)
+        runtime_s=time.perf_counter() - start, electrical_offset_m=float(offset))

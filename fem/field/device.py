@@ -49,7 +49,8 @@ class DeviceCapacitance:
     capacitance_slope_f_per_m : float
         dC/dx at x = 0 [F/m].
     parallel_plate_capacitance_f : float
-        ε0·A_el/g [F], A_el = Σ w_q.
+        ε0·A_el/g_e [F], A_el = Σ w_q, g_e the electrical gap (g without dielectric layers,
+        g + Σ t/ε_r with them, :mod:`diagap.fem.field.layers`).
     rim_fringing_capacitance_f : float
         C_rim at the rest gap [F] (0 without a rim model).
     x_m, capacitance_f : ndarray
@@ -177,6 +178,7 @@ def device_capacitance(weights_m2, phi, c_density, rest_gap_m: float, rim=None,
     C, dC = _evaluate(*model, x)
     C0, S0 = _evaluate(*model, 0.0)
     area = float(w.sum())
+    g_e = gap + float(getattr(c_density, "electrical_offset_m", 0.0))  # electrical gap (layers)
     c_rel = float(getattr(c_density, "rel_error", 0.0)) + float(
         getattr(c_density, "fit_error", 0.0))
     rim_c = 0.0 if rim is None else float(rim(gap))
@@ -190,9 +192,9 @@ def device_capacitance(weights_m2, phi, c_density, rest_gap_m: float, rim=None,
     slope_err = c_rel * abs(S0) + spline_dev + rim_slope_err
     return DeviceCapacitance(
         rest_capacitance_f=C0, capacitance_slope_f_per_m=S0,
-        parallel_plate_capacitance_f=EPSILON_0_F_PER_M * area / gap, rim_fringing_capacitance_f=rim_c,
+        parallel_plate_capacitance_f=EPSILON_0_F_PER_M * area / g_e, rim_fringing_capacitance_f=rim_c,
         x_m=x, capacitance_f=np.asarray(C), rest_gap_m=gap, electrode_area_m2=area,
-        perforation_factor=float(c_density(gap) * gap / EPSILON_0_F_PER_M),
+        perforation_factor=float(c_density(gap) * g_e / EPSILON_0_F_PER_M),
         open_area_fraction=float(getattr(c_density, "open_area_fraction", 0.0)),
         rel_error=(c_rel * area_part + rim_err) / C0, slope_rel_error=slope_err / abs(S0),
         fit_error=float(getattr(c_density, "fit_error", 0.0)), _model=model)

@@ -17,6 +17,12 @@ the pair capacitance above the parallel-plate value of the overlap. Holes are ig
 perforated interior is the business of the cell model, and the two effects are assumed additive
 (the holes next to the rim are treated as in the interior).
 
+Dielectric layers (:mod:`diagap.fem.field.layers`): a layer of thickness t_d, ε_d on the
+diaphragm electrode (0 <= z <= t_d, r <= R_d) and one of t_b, ε_b under the backplate electrode
+(r <= R_e) are subdomains of relative permittivity ε_d, ε_b; the gap g is then the air gap
+between the layers and the parallel-plate part of the overlap is ε0 π min(R_d, R_e)²/g_e with
+g_e = g + t_d/ε_d + t_b/ε_b (the series stack), so C_rim = C_pair − ε0 π min(R_d, R_e)²/g_e.
+
 Square electrodes (side 2·R_e on a diaphragm of side 2·R_d): the same section is solved as a
 plane 2D problem per unit length (two strips of half-widths R_d and R_e), which gives the rim
 fringing per length of straight edge f = C'_half − ε0 R_e/g, and C_rim = f × perimeter (8 R_e).
@@ -62,29 +68,37 @@ def _sizes(geo: PairGeometry, s: float) -> MeshSizes:
 
 
 def pair_capacitance(geo: PairGeometry, s: float, axisymmetric: bool = True,
-                     ring_permittivity: float = 1.0) -> tuple[float, int]:
+                     ring_permittivity: float = 1.0,
+                     film_permittivities: tuple = (1.0, 1.0)) -> tuple[float, int]:
     """Scaled capacitance (energy at 1 V) of an electrode pair at mesh scale s, and the DOFs.
 
     Axisymmetric: C = ε0·g·Ĉ; plane: C' = ε0·Ĉ per unit length (full pair: 2Ĉ). Solutions are
     cached on disk (:mod:`diagap.meshes.cache`, keyed by the inputs and a hash of the
-    solver source) so that sweeps reuse them.
+    solver source) so that sweeps reuse them. ``film_permittivities`` are the relative
+    permittivities of the lower and upper films of ``geo`` (if it has them).
     """
     from diagap.meshes.cache import cached_arrays
 
     params = {"geo": geo.as_dict(), "s": s, "axi": axisymmetric, "eps": ring_permittivity}
+    films = tuple(float(e) for e in film_permittivities)
+    if films != (1.0, 1.0):
+        params["films"] = films
     arr = cached_arrays("electrode-pair-solution", params, lambda: dict(zip(
         ("e", "n"), map(np.atleast_1d, _pair_capacitance(geo, s, axisymmetric,
-                                                        ring_permittivity)))))
+                                                        ring_permittivity, films)))))
     return float(arr["e"][0]), int(arr["n"][0])
 
 
 def _pair_capacitance(geo: PairGeometry, s: float, axisymmetric: bool = True,
-                     ring_permittivity: float = 1.0) -> tuple[float, int]:
+                     ring_permittivity: float = 1.0,
+                     films: tuple = (1.0, 1.0)) -> tuple[float, int]:
     """The uncached solve behind :func:`pair_capacitance`."""
     mesh = electrode_pair_mesh(geo, _sizes(geo, s))
     weight = "axisymmetric" if axisymmetric else "plane"
     basis, u, energy = solve_potential(mesh, ElementTriP2(), {"lower": 0.0, "upper": 1.0},
-                                       weight, ring_permittivity=ring_permittivity)
+                                       weight, ring_permittivity=ring_permittivity,
+                                       permittivities={"lower_film": films[0],
+                                                       "upper_film": films[1]})
     return energy, int(basis.N)
 
 
@@ -169,19 +183,31 @@ class RimResult:
         return (b / (g / self.gap_m) + c) / self.gap_m
 
 
-def _geometry(re, rd, g, t, rb, outer_scale=1.0) -> PairGeometry:
+def _geometry(re, rd, g, t, rb, outer_scale=1.0, layers=None) -> PairGeometry:
     ring = rb / g if rb > re else 0.0
     size = max(rd, re, rb) / g
-    return PairGeometry(rd / g, re / g, t / g, _OUTER * outer_scale * max(size, 1 + t / g),
-                        ring)
+    fl = fu = 0.0
+    if layers is not None:
+        fl, fu = layers.diaphragm_thickness_m / g, layers.backplate_thickness_m / g
+    return PairGeometry(rd / g, re / g, t / g,
+                        _OUTER * outer_scale * max(size, 1 + fl + fu + t / g), ring, fl, fu)
 
 
-def _extra(energy: float, geo: PairGeometry, g: float, circle: bool) -> float:
-    """C_rim [F] (circle) or per unit length [F/m] (square) from the scaled energy."""
+def _films(layers) -> tuple:
+    """(ε_d, ε_b) of the lower (diaphragm) and upper (backplate) films."""
+    if layers is None:
+        return (1.0, 1.0)
+    return (layers.diaphragm_permittivity, layers.backplate_permittivity)
+
+
+def _extra(energy: float, geo: PairGeometry, g: float, circle: bool, layers=None) -> float:
+    """C_rim [F] (circle) or per unit length [F/m] (square) from the scaled energy; the
+    parallel-plate part of the overlap is that of the series stack, ε0 A/(g + t_e)."""
     overlap = min(geo.lower_radius, geo.upper_radius)
+    stack = 1.0 + (layers.electrical_thickness_m / g if layers is not None else 0.0)
     if circle:
-        return EPSILON_0_F_PER_M * g * (energy - math.pi * overlap**2)
-    return EPSILON_0_F_PER_M * (energy - overlap)
+        return EPSILON_0_F_PER_M * g * (energy - math.pi * overlap**2 / stack)
+    return EPSILON_0_F_PER_M * (energy - overlap / stack)
 
 
 def _check_inputs(re, rd, g, t, shape, rb, eps_r, accuracy, span) -> None:
@@ -209,7 +235,7 @@ def rim_fringing(electrode_radius_m: float, diaphragm_radius_m: float, gap_m: fl
                  backplate_thickness_m: float, shape: str = "circle",
                  backplate_radius_m: float | None = None,
                  backplate_relative_permittivity: float = 1.0, accuracy: str = "normal",
-                 gap_span: float = 1.0 / 3.0) -> RimResult:
+                 gap_span: float = 1.0 / 3.0, layers=None) -> RimResult:
     """Rim fringing capacitance of the electrode pair (see :func:`rim_fringing_direct`).
 
     Pairs larger than ``MAX_SIZE_RATIO`` times the smallest sampled gap are modelled at that size
@@ -223,7 +249,7 @@ def rim_fringing(electrode_radius_m: float, diaphragm_radius_m: float, gap_m: fl
     rb = electrode_radius_m if backplate_radius_m is None else backplate_radius_m
     size = max(electrode_radius_m, diaphragm_radius_m, rb)
     kw = dict(shape=shape, backplate_relative_permittivity=backplate_relative_permittivity,
-              accuracy=accuracy, gap_span=gap_span)
+              accuracy=accuracy, gap_span=gap_span, layers=layers)
     g_small = gap_m * (1.0 - gap_span) if 0 < gap_span < 1 else gap_m  # smallest sampled gap
     if not (size > MAX_SIZE_RATIO * g_small > 0):
         return rim_fringing_direct(electrode_radius_m, diaphragm_radius_m, gap_m,
@@ -262,7 +288,7 @@ def rim_fringing_direct(electrode_radius_m: float, diaphragm_radius_m: float, ga
                  backplate_thickness_m: float, shape: str = "circle",
                  backplate_radius_m: float | None = None,
                  backplate_relative_permittivity: float = 1.0, accuracy: str = "normal",
-                 gap_span: float = 1.0 / 3.0) -> RimResult:
+                 gap_span: float = 1.0 / 3.0, layers=None) -> RimResult:
     """Rim fringing capacitance of the diaphragm/backplate electrode pair.
 
     Parameters
@@ -285,6 +311,8 @@ def rim_fringing_direct(electrode_radius_m: float, diaphragm_radius_m: float, ga
     accuracy : {"draft", "normal", "fine"}
     gap_span : float
         C_rim is sampled over uniform gaps g(1 ± gap_span).
+    layers : GapLayers, optional
+        Dielectric layers on the electrodes (module docstring); ``gap_m`` is the air gap.
 
     Returns
     -------
@@ -296,13 +324,13 @@ def rim_fringing_direct(electrode_radius_m: float, diaphragm_radius_m: float, ga
     start = time.perf_counter()
     circle = shape == "circle"
     args = (electrode_radius_m, diaphragm_radius_m)
-    geo = _geometry(*args, gap_m, backplate_thickness_m, rb)
+    geo = _geometry(*args, gap_m, backplate_thickness_m, rb, layers=layers)
     coarse, fine = _LEVELS[accuracy]
-    eps = backplate_relative_permittivity
-    e_c, _ = pair_capacitance(geo, coarse, circle, eps)
-    e_f, dofs = pair_capacitance(geo, fine, circle, eps)
-    half = _geometry(*args, gap_m, backplate_thickness_m, rb, outer_scale=0.5)
-    e_h, _ = pair_capacitance(half, coarse, circle, eps)
+    eps, films = backplate_relative_permittivity, _films(layers)
+    e_c, _ = pair_capacitance(geo, coarse, circle, eps, films)
+    e_f, dofs = pair_capacitance(geo, fine, circle, eps, films)
+    half = _geometry(*args, gap_m, backplate_thickness_m, rb, outer_scale=0.5, layers=layers)
+    e_h, _ = pair_capacitance(half, coarse, circle, eps, films)
     order = 3.0 if circle else 2.0
     perimeter = 2 * math.pi * electrode_radius_m if circle else 8 * electrode_radius_m
     to_total = 1.0 if circle else perimeter
@@ -313,18 +341,19 @@ def rim_fringing_direct(electrode_radius_m: float, diaphragm_radius_m: float, ga
     samples = []
     for g in gaps:
         if math.isclose(g, gap_m, rel_tol=1e-12):
-            samples.append(_extra(e_f, geo, gap_m, circle) * to_total)
+            samples.append(_extra(e_f, geo, gap_m, circle, layers) * to_total)
             continue
-        geo_g = _geometry(*args, g, backplate_thickness_m, rb)
-        samples.append(_extra(pair_capacitance(geo_g, fine, circle, eps)[0], geo_g, g, circle)
-                       * to_total)
+        geo_g = _geometry(*args, g, backplate_thickness_m, rb, layers=layers)
+        samples.append(_extra(pair_capacitance(geo_g, fine, circle, eps, films)[0], geo_g, g,
+                              circle, layers) * to_total)
     samples = np.array(samples)
     gh = gaps / gap_m
     M = np.column_stack([np.ones_like(gh), np.log(gh), gh])
     coef, *_ = np.linalg.lstsq(M, samples, rcond=None)
-    c_rest = float(_extra(e_f, geo, gap_m, circle) * to_total)
+    c_rest = float(_extra(e_f, geo, gap_m, circle, layers) * to_total)
     fit_abs = float(np.max(np.abs(M @ coef - samples)))
-    parallel = EPSILON_0_F_PER_M * (math.pi if circle else 4.0) * min(args) ** 2 / gap_m
+    g_e = gap_m + (layers.electrical_thickness_m if layers is not None else 0.0)
+    parallel = EPSILON_0_F_PER_M * (math.pi if circle else 4.0) * min(args) ** 2 / g_e
     return RimResult(
         capacitance_f=c_rest, abs_error_f=scale * (mesh_err + trunc_err) + fit_abs,
         pair_capacitance_f=parallel + c_rest, parallel_plate_capacitance_f=parallel,
