@@ -22,6 +22,7 @@ from typing import Any
 
 from diagap.design import Design
 from diagap.extract import plate_problem, response_inputs
+from diagap.scope import response_scope
 
 __all__ = ["RunResult", "run_design", "SCHEMA_VERSION"]
 
@@ -219,7 +220,7 @@ def run_design(design: Design, max_memory_b: float | None = None) -> RunResult:
         dist = response_inputs(design, es.objects["density"], es.objects["rim"],
                                damp.objects["air"])
         _stage(result, "response", response_stage, model, result.summary()["uncertainty"],
-               dist, acc)
+               dist, acc, scope=response_scope(design))
     resp = result.sections["response"].to_summary() if "response" in result.sections else None
     try:
         _stage(result, "large_deflection", large_deflection_stage, design, problem, es, resp,

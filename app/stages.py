@@ -263,7 +263,14 @@ def lumped_model(design: Design, mech, es: Section, cp: Section, damp: Section):
         film_damping=film, bias_displacement_m=x_b, air_density_kg_m3=air.density_kg_per_m3,
         sound_speed_m_s=air.speed_of_sound_m_per_s, static_pressure_pa=ac.static_pressure_pa,
         gamma=air.heat_capacity_ratio, temperature_k=ac.temperature_k,
-        radiation_radius_m=_piston_radius(design))
+        radiation_radius_m=_piston_radius(design), package=_package(design, air))
+
+
+def _package(design: Design, air):
+    """Port, front chamber, lossy back volume, vent channel (None: the capsule alone)."""
+    from diagap.package_design import gas_from_air, package_acoustics
+
+    return package_acoustics(design, gas_from_air(air))
 
 
 def _response_uncertainty(unc: dict) -> dict:
@@ -338,12 +345,33 @@ def distributed_section(model, resp, inputs, accuracy: str) -> tuple[dict, dict,
     return data, unc, res
 
 
+def _package_noise(model, f) -> dict:
+    """Output noise PSDs of every dissipative element of a model with package elements."""
+    from diagap.lumped.circuit import solve_circuit
+
+    return solve_circuit(model, f).thermal_noise_output_psds(model.temperature_k)
+
+
+def _package_data(model) -> dict:
+    """Front-path figures: the loaded Helmholtz resonance (peak of |p_f/p|) and the lossless
+    value (c/2π)√(S/(V_f L_eff)) of port and front chamber alone."""
+    from diagap.lumped.package import front_resonance_hz
+
+    pk = model.package
+    if pk is None or not pk.has_front_path:
+        return {}
+    return {"helmholtz_resonance_hz": front_resonance_hz(model),
+            "helmholtz_lossless_hz": pk.helmholtz_lossless_hz()}
+
+
 def response_stage(model, fe_uncertainty: dict | None = None, distributed=None,
-                   accuracy: str = "normal") -> Section:
-    """Frequency response, noise (mechanical-thermal, bias resistor, vent) and distortion; with
-    ``distributed`` (a :class:`fem.response.coupled.ResponseInputs`) also the distributed
+                   accuracy: str = "normal", scope: str = "capsule") -> Section:
+    """Frequency response, noise (mechanical-thermal, bias resistor, vent; with package elements
+    every dissipative element, :meth:`CircuitSolution.thermal_noise_output_psds`) and distortion;
+    with ``distributed`` (a :class:`fem.response.coupled.ResponseInputs`) also the distributed
     reference and the reduction error, which is added to the reported uncertainty of the
-    sensitivity, the resonance and the noise (relative, on the pressure amplitude)."""
+    sensitivity, the resonance and the noise (relative, on the pressure amplitude). ``scope``
+    ("capsule" | "packaged", :func:`diagap.scope.response_scope`) is reported as given."""
     from diagap.lumped.distortion import distortion_vs_spl
     from diagap.lumped.noise import a_weighted_level_db
     from diagap.lumped.response import (analyse_response, output_noise_psd_damping, output_noise_psd_resistor,
@@ -351,9 +379,12 @@ def response_stage(model, fe_uncertainty: dict | None = None, distributed=None,
 
     resp = analyse_response(model)
     f = resp.response.frequency_hz
-    parts = {"mechanical_thermal": output_noise_psd_damping(model, f),
-             "bias_resistor": output_noise_psd_resistor(model, f),
-             "vent": output_noise_psd_vent(model, f)}
+    if model.package is None:
+        parts = {"mechanical_thermal": output_noise_psd_damping(model, f),
+                 "bias_resistor": output_noise_psd_resistor(model, f),
+                 "vent": output_noise_psd_vent(model, f)}
+    else:
+        parts = _package_noise(model, f)
     total = sum(parts.values())
     p_in = input_referred(model, f, total)
     noise = a_weighted_level_db(f, p_in)
@@ -369,6 +400,8 @@ def response_stage(model, fe_uncertainty: dict | None = None, distributed=None,
     })
     data.update(dist.to_summary())
     data["thd_vs_spl"] = [[float(a), float(b)] for a, b in zip(dist.spl_db, dist.thd)]
+    data.update(_package_data(model))
+    data["scope"] = scope
     unc = _response_uncertainty(fe_uncertainty or {})
     objects = {"response": resp, "distortion": dist, "model": model, "noise_parts": parts,
                "noise_input_psd": p_in}

@@ -39,7 +39,7 @@ import numpy as np
 from diagap.lumped.cavity import Cavity
 from diagap.lumped.tubes import Channel, Gas, TubeError
 
-__all__ = ["PackageAcoustics", "FrontNetwork"]
+__all__ = ["PackageAcoustics", "FrontNetwork", "front_resonance_hz"]
 
 
 @dataclass(frozen=True, eq=False)
@@ -161,3 +161,28 @@ class PackageAcoustics:
         l_eff = port.length_m + 2.0 * port.end_correction_m
         return (self.gas.sound_speed_m_s / (2.0 * math.pi)
                 * math.sqrt(port.area_m2 / (self.front_chamber.volume_m3 * l_eff)))
+
+
+def front_resonance_hz(model, f_low_hz: float = 1e3, f_high_hz: float = 3e5) -> float | None:
+    """Frequency of the peak of |p_f/p|, the pressure at the diaphragm's front per free-field
+    pressure, of a model with a front path (the loaded Helmholtz resonance of port and front
+    chamber); None without a front path or without an interior peak in [f_low, f_high]."""
+    from scipy.optimize import minimize_scalar
+
+    from diagap.lumped.circuit import solve_circuit
+
+    if model.package is None or not model.package.has_front_path:
+        return None
+
+    def gain(f):
+        return np.abs(solve_circuit(model, f).front_pressure(pressure_pa=1.0))
+
+    grid = np.geomspace(f_low_hz, f_high_hz, 241)
+    g = gain(grid)
+    i = int(np.argmax(g))
+    if i == 0 or i == grid.size - 1:
+        return None
+    res = minimize_scalar(lambda lf: -gain([10.0**lf])[0], method="bounded",
+                          bounds=(np.log10(grid[i - 1]), np.log10(grid[i + 1])),
+                          options={"xatol": 1e-10})
+    return float(10.0**res.x)

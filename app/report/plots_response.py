@@ -25,7 +25,10 @@ __all__ = ["response_plots", "draw_squeeze", "draw_response", "draw_noise", "dra
            "reduction_words"]
 
 _NOISE_LABELS = {"mechanical_thermal": "mechanical-thermal (film damping)",
-                 "bias_resistor": "bias resistor", "vent": "vent (leak) resistance"}
+                 "bias_resistor": "bias resistor", "vent": "vent (leak) resistance",
+                 "diaphragm_damping": "mechanical-thermal (film damping)",
+                 "back_volume": "back volume (thermal loss)", "port": "sound port",
+                 "front_chamber": "front chamber (thermal loss)", "radiation": "radiation"}
 
 
 def _hz(f: float) -> str:
@@ -164,8 +167,9 @@ def draw_noise(resp_section):
     for k, (name, psd) in enumerate(resp_section.objects["noise_parts"].items(), start=1):
         level = levels.get(name)
         extra = f": {level:.1f} dB(A)" if level is not None else ""
-        ax.loglog(f, np.sqrt(np.asarray(psd, float) / h2), color=GREYS[k], ls=LINES[k],
-                  marker=MARKERS[k], markevery=25, ms=4,
+        i = k % len(GREYS)
+        ax.loglog(f, np.sqrt(np.asarray(psd, float) / h2), color=GREYS[i], ls=LINES[i],
+                  marker=MARKERS[i], markevery=25, ms=4,
                   label=f"{_NOISE_LABELS.get(name, name)}{extra}")
     ax.set_xlim(f[0], f[-1])
     floor = float(np.sqrt(np.min(total)))
