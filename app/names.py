@@ -200,6 +200,21 @@ _ROWS = [
        "dB(A) SPL", 1.0, "share of the bias resistor in the noise floor"),
     _n("response.noise_contributions_dba_spl.vent", "noise: vent (leak) resistance", "dB(A) SPL",
        "dB(A) SPL", 1.0, "share of the vent in the noise floor"),
+    _n("response.noise_contributions_dba_spl.diaphragm_damping",
+       "noise: mechanical-thermal (film damping)", "dB(A) SPL", "dB(A) SPL", 1.0,
+       "share of the film damping in the noise floor (packaged model)"),
+    _n("response.noise_contributions_dba_spl.back_volume", "noise: back volume (thermal loss)",
+       "dB(A) SPL", "dB(A) SPL", 1.0, "share of the back volume's wall heat exchange"),
+    _n("response.noise_contributions_dba_spl.port", "noise: sound port", "dB(A) SPL",
+       "dB(A) SPL", 1.0, "share of the sound port's viscous and thermal losses"),
+    _n("response.noise_contributions_dba_spl.front_chamber", "noise: front chamber (thermal loss)",
+       "dB(A) SPL", "dB(A) SPL", 1.0, "share of the front chamber's wall heat exchange"),
+    _n("response.noise_contributions_dba_spl.radiation", "noise: radiation", "dB(A) SPL",
+       "dB(A) SPL", 1.0, "share of the radiation resistance (port opening or diaphragm)"),
+    _n("response.helmholtz_resonance_hz", "Helmholtz resonance of port and front chamber", "Hz",
+       "kHz", 1e-3, "peak of the pressure at the diaphragm per free-field pressure"),
+    _n("response.helmholtz_lossless_hz", "Helmholtz resonance, lossless formula", "Hz", "kHz",
+       1e-3, "(c/2π)·√(S/(V·L_eff)) of port and front chamber alone", diagnostic=True),
     _n("response.thd_1pct_spl_db", "1 % THD at", "dB SPL", "dB SPL", 1.0,
        "sound pressure level at which the THD reaches 1 %"),
     _n("response.aop_10pct_spl_db", "10 % THD (acoustic overload) at", "dB SPL", "dB SPL", 1.0,
@@ -280,7 +295,7 @@ KEY_OUTPUTS = (
 
 #: text (non-numeric) summary keys, shown as they are
 TEXT_KEYS = ("mechanics.model", "mechanics.accuracy", "damping.perforation.lattice",
-             "response.thd_limit_note", "coupled.note")
+             "response.thd_limit_note", "coupled.note", "response.scope")
 
 # design inputs (sweep axes): (section.key of the design file) → (label, SI unit, unit, scale)
 _INPUTS = {
@@ -301,6 +316,17 @@ _INPUTS = {
     "acoustics.vent_resistance": ("vent resistance", "Pa·s/m³", "Pa·s/m³", 1.0),
     "acoustics.temperature": ("temperature", "K", "K", 1.0),
     "acoustics.static_pressure": ("static pressure", "Pa", "kPa", 1e-3),
+    "acoustics.back_volume_area": ("back volume wall area", "m²", "mm²", 1e6),
+    "acoustics.vent_radius": ("vent radius", "m", "µm", 1e6),
+    "acoustics.vent_slot_width": ("vent slot width", "m", "µm", 1e6),
+    "acoustics.vent_slot_height": ("vent slot height", "m", "µm", 1e6),
+    "acoustics.vent_length": ("vent length", "m", "µm", 1e6),
+    "port.radius": ("port radius", "m", "mm", 1e3),
+    "port.slot_width": ("port slot width", "m", "mm", 1e3),
+    "port.slot_height": ("port slot height", "m", "mm", 1e3),
+    "port.length": ("port length", "m", "mm", 1e3),
+    "front.volume": ("front chamber volume", "m³", "mm³", 1e9),
+    "front.wall_area": ("front chamber wall area", "m²", "mm²", 1e6),
     "electrical.bias_voltage": ("bias voltage", "V", "V", 1.0),
     "electrical.bias_resistance": ("bias resistance", "Ω", "GΩ", 1e-9),
     "electrical.parasitic_capacitance": ("parasitic capacitance", "F", "pF", 1e12),
