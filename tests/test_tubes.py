@@ -152,3 +152,16 @@ def test_abcd_is_reciprocal_and_lossless_line_is_a_delay():
     # low loss: cosh(ΓL) ≈ cos(kL)
     k = 2 * math.pi * 500.0 / GAS.sound_speed_m_s
     assert m[0, 0].real == pytest.approx(math.cos(k * 0.05), rel=2e-3, abs=0)
+
+
+def test_viscous_end_resistances():
+    """Creeping flow through an aperture in a thin wall: circle 3μ/a³ (Sampson, Phil. Trans. R.
+    Soc. A 182, 1891); slit of half-width c and length w, flux per length πc²Δp/(8μ) (Hasimoto,
+    J. Phys. Soc. Japan 13, 1958 [from memory])."""
+    mu = GAS.viscosity_pa_s
+    assert Channel(1e-6, radius_m=5e-6).end_resistance_pa_s_per_m3(GAS) == pytest.approx(
+        3 * mu / 5e-6**3, rel=1e-12, abs=0)
+    c, w = 1e-6, 3e-4
+    flux = math.pi * c * c / (8 * mu) * w
+    assert Channel(1e-6, slot_m=(2 * c, w)).end_resistance_pa_s_per_m3(GAS) == pytest.approx(
+        1 / flux, rel=1e-12, abs=0)
