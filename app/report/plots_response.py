@@ -20,6 +20,7 @@ import numpy as np
 from diagap.fem.constants import P_REF_PA
 from diagap.names import display_text, lookup
 from diagap.report.plots import GREYS, LINES, MARKERS, Plot, new_figure, prefixed
+from diagap.scope import scope_words
 
 __all__ = ["response_plots", "draw_squeeze", "draw_response", "draw_noise", "draw_thd",
            "reduction_words"]
@@ -230,7 +231,8 @@ def response_plots(design, damp, resp) -> list[Plot]:
         f"Output voltage per pascal of the lumped model at the bias point (bias resistor, "
         f"parasitic and preamp input capacitance, back volume and vent, front radiation mass "
         f"included). Sensitivity at 1 kHz: {r.sensitivity_db_v_per_pa:.2f} dB re 1 V/Pa."
-        + reduction_words(d), lambda: draw_response(r, d.get("distributed_response"))))
+        + reduction_words(d) + scope_words(d),
+        lambda: draw_response(r, d.get("distributed_response"))))
     out.append(Plot(
         "noise", "response", "Noise",
         f"Input-referred noise density and its sources. A-weighted noise floor over 20 Hz – "
