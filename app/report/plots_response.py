@@ -99,9 +99,10 @@ def reduction_words(d: dict) -> str:
     return out + "."
 
 
-def draw_response(resp, distributed=None):
+def draw_response(resp, distributed=None, helmholtz_hz=None):
     """Magnitude and phase of V_out/p with the corners and the resonance; ``distributed``
-    ([[f_hz, dB, phase_deg, rel_err], ...]) overlays the distributed FE solve."""
+    ([[f_hz, dB, phase_deg, rel_err], ...]) overlays the distributed FE solve; ``helmholtz_hz``
+    marks the resonance of a sound port and front chamber."""
     r = resp.response
     f = np.asarray(r.frequency_hz, float)
     fig, (a1, a2) = new_figure(7.6, 5.4, nrows=2, sharex=True, height_ratios=[1.6, 1],
@@ -127,9 +128,14 @@ def draw_response(resp, distributed=None):
                       f"{display_text('response.acoustic_corner_hz', ac)}" if lab else None)
         if resp.resonance_hz:
             q = f", Q = {resp.quality_factor:.3g}" if resp.quality_factor else ""
-            _markers_line(ax, resp.resonance_hz, ":", f"resonance in air (lumped model) "
+            _markers_line(ax, resp.resonance_hz, ":", f"resonance in air (lumped model"
+                          f"{', capsule side' if helmholtz_hz else ''}) "
                           f"{display_text('response.resonance_hz', resp.resonance_hz)}{q}"
                           if lab else None)
+        _markers_line(ax, helmholtz_hz, (0, (6, 2, 1, 2, 1, 2)), "port and front chamber "
+                      "(Helmholtz) "
+                      f"{display_text('response.helmholtz_resonance_hz', helmholtz_hz)}"
+                      if lab and helmholtz_hz else None)
         ax.grid(True, which="major", color="0.85")
     top = float(np.max(r.magnitude_db_v_per_pa))
     a1.set_ylim(max(float(np.min(r.magnitude_db_v_per_pa)), top - 80.0) - 2.0, top + 6.0)
@@ -161,7 +167,9 @@ def draw_noise(resp_section):
     total = np.asarray(resp_section.objects["noise_input_psd"], float)
     data = resp_section.data
     levels = data.get("noise_contributions_dba_spl", {})
-    fig, ax = new_figure(7.6, 5.0, margins_in=(0.9, 0.8, 1.25, 0.2))
+    # legend rows below the axes (two entries a row): room for more than the three sources
+    extra = 0.22 * max(0, math.ceil((len(resp_section.objects["noise_parts"]) + 2) / 2) - 3)
+    fig, ax = new_figure(7.6, 5.0 + extra, margins_in=(0.9, 0.8, 1.25 + extra, 0.2))
     ax.axvspan(20.0, 20e3, color="0.93", lw=0, label="audio band 20 Hz – 20 kHz")
     ax.loglog(f, np.sqrt(total), color="black", lw=2.2,
               label=f"total: {data['noise_dba_spl']:.1f} dB(A) SPL")
@@ -232,7 +240,8 @@ def response_plots(design, damp, resp) -> list[Plot]:
         f"parasitic and preamp input capacitance, back volume and vent, front radiation mass "
         f"included). Sensitivity at 1 kHz: {r.sensitivity_db_v_per_pa:.2f} dB re 1 V/Pa."
         + reduction_words(d) + scope_words(d),
-        lambda: draw_response(r, d.get("distributed_response"))))
+        lambda: draw_response(r, d.get("distributed_response"),
+                              d.get("helmholtz_resonance_hz"))))
     out.append(Plot(
         "noise", "response", "Noise",
         f"Input-referred noise density and its sources. A-weighted noise floor over 20 Hz – "
