@@ -232,3 +232,23 @@ def test_packaged_example_end_to_end_at_draft():
     assert abs(r["reduction_error_db"]) < 0.1
     assert {"port", "front_chamber", "back_volume", "radiation"} <= set(
         r["noise_contributions_dba_spl"])
+
+
+def test_lossless_helmholtz_resonance_of_a_slot():
+    """A 2 mm × 0.5 mm slot 1 mm long into 1 cm³: the same formula with the rectangle's flanged
+    end correction (1/(2πS))∬dA dA'/r (Rayleigh's uniform-velocity piston), written here."""
+    gas = Gas(1.204, 1e-14, 343.2, 1.4, 101325.0)
+    h, w, length, vol = 0.5e-3, 2e-3, 1e-3, 1e-6
+    d = math.hypot(h, w)
+    self_int = 4 * ((h**3 + w**3 - d**3) / 6 + 0.5 * h * w * w * math.asinh(h / w)
+                    + 0.5 * h * h * w * math.asinh(w / h))
+    delta = self_int / (2 * math.pi * h * w)
+    f_ref = 343.2 / (2 * math.pi) * math.sqrt(h * w / (vol * (length + 2 * delta)))
+    pk = PackageAcoustics(gas, port=Channel(length, slot_m=(h, w)), front_chamber=Cavity(vol))
+    gain = lambda lf: -abs(pk.front_network([10**lf]).transfer[0])  # noqa: E731
+    res = minimize_scalar(gain, bounds=(math.log10(f_ref / 2), math.log10(2 * f_ref)),
+                          method="bounded", options={"xatol": 1e-10})
+    assert 10**res.x == pytest.approx(f_ref, rel=0.003, abs=0)
+    net = PackageAcoustics(GAS, port=Channel(length, slot_m=(h, w)),
+                           front_chamber=Cavity(vol, 6e-4)).front_network([100.0, 3e3])
+    assert np.all(np.abs(sum(net.dissipation.values()) / net.impedance.real - 1) < 1e-9)
