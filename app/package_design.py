@@ -24,7 +24,8 @@ from dataclasses import dataclass
 from diagap.quantities import DesignError
 
 __all__ = ["Port", "Front", "VentChannel", "package_sections", "acoustics_extras",
-           "package_acoustics", "gas_of", "gas_from_air", "PackageLoad", "package_loads"]
+           "package_acoustics", "gas_of", "gas_from_air", "PackageLoad", "package_loads",
+           "package_noise", "package_response_data"]
 
 
 @dataclass(frozen=True)
@@ -234,3 +235,22 @@ def package_loads(package) -> dict:
     if package.vent is not None:
         out["vent_impedance"] = PackageLoad(package, "vent")
     return out
+
+
+def package_noise(model, f) -> dict:
+    """Output noise PSDs of every dissipative element of a model with package elements."""
+    from diagap.lumped.circuit import solve_circuit
+
+    return solve_circuit(model, f).thermal_noise_output_psds(model.temperature_k)
+
+
+def package_response_data(model) -> dict:
+    """Front-path figures: the loaded Helmholtz resonance (peak of |p_f/p|) and the lossless
+    value (c/2π)√(S/(V_f L_eff)) of port and front chamber alone."""
+    from diagap.lumped.package import front_resonance_hz
+
+    pk = model.package
+    if pk is None or not pk.has_front_path:
+        return {}
+    return {"helmholtz_resonance_hz": front_resonance_hz(model),
+            "helmholtz_lossless_hz": pk.helmholtz_lossless_hz()}

@@ -345,25 +345,6 @@ def distributed_section(model, resp, inputs, accuracy: str) -> tuple[dict, dict,
     return data, unc, res
 
 
-def _package_noise(model, f) -> dict:
-    """Output noise PSDs of every dissipative element of a model with package elements."""
-    from diagap.lumped.circuit import solve_circuit
-
-    return solve_circuit(model, f).thermal_noise_output_psds(model.temperature_k)
-
-
-def _package_data(model) -> dict:
-    """Front-path figures: the loaded Helmholtz resonance (peak of |p_f/p|) and the lossless
-    value (c/2π)√(S/(V_f L_eff)) of port and front chamber alone."""
-    from diagap.lumped.package import front_resonance_hz
-
-    pk = model.package
-    if pk is None or not pk.has_front_path:
-        return {}
-    return {"helmholtz_resonance_hz": front_resonance_hz(model),
-            "helmholtz_lossless_hz": pk.helmholtz_lossless_hz()}
-
-
 def response_stage(model, fe_uncertainty: dict | None = None, distributed=None,
                    accuracy: str = "normal", scope: str = "capsule") -> Section:
     """Frequency response, noise (mechanical-thermal, bias resistor, vent; with package elements
@@ -374,6 +355,7 @@ def response_stage(model, fe_uncertainty: dict | None = None, distributed=None,
     ("capsule" | "packaged", :func:`diagap.scope.response_scope`) is reported as given."""
     from diagap.lumped.distortion import distortion_vs_spl
     from diagap.lumped.noise import a_weighted_level_db
+    from diagap.package_design import package_noise, package_response_data
     from diagap.lumped.response import (analyse_response, output_noise_psd_damping, output_noise_psd_resistor,
                            output_noise_psd_vent, input_referred)
 
@@ -384,7 +366,7 @@ def response_stage(model, fe_uncertainty: dict | None = None, distributed=None,
                  "bias_resistor": output_noise_psd_resistor(model, f),
                  "vent": output_noise_psd_vent(model, f)}
     else:
-        parts = _package_noise(model, f)
+        parts = package_noise(model, f)
     total = sum(parts.values())
     p_in = input_referred(model, f, total)
     noise = a_weighted_level_db(f, p_in)
@@ -400,7 +382,7 @@ def response_stage(model, fe_uncertainty: dict | None = None, distributed=None,
     })
     data.update(dist.to_summary())
     data["thd_vs_spl"] = [[float(a), float(b)] for a, b in zip(dist.spl_db, dist.thd)]
-    data.update(_package_data(model))
+    data.update(package_response_data(model))
     data["scope"] = scope
     unc = _response_uncertainty(fe_uncertainty or {})
     objects = {"response": resp, "distortion": dist, "model": model, "noise_parts": parts,
