@@ -301,13 +301,17 @@ def _reduction_rows(resp: dict) -> list:
                 resp["sensitivity_db_v_per_pa"], resp["distributed_sensitivity_db_v_per_pa"],
                 resp["reduction_error_db"], "lumped - distributed (dB)", 0.05, 0.5,
                 "distributed: FE plate, film with holes, back volume, radiation and the "
-                "charge-fed electrical node solved together",
+                "charge-fed electrical node solved together"
+                + ("; with the same sound port, front chamber, back volume and vent as the "
+                   "lumped model" if resp.get("scope") == "packaged" else ""),
                 label="lumped − distributed at 1 kHz", unit="dB")]
     if "distributed_peak_frequency_hz" in resp:
         out.append(_row("single-mode reduction", "response peak frequency (Hz)",
                         resp["lumped_peak_frequency_hz"], resp["distributed_peak_frequency_hz"],
                         resp["reduction_error_peak_frequency"], "lumped / distributed - 1",
-                        0.02, 0.10, "the static shape's Rayleigh quotient lies above mode 1",
+                        0.02, 0.10, "the static shape's Rayleigh quotient lies above mode 1"
+                        + ("; packaged: the peak is the resonance of the sound port and front "
+                           "chamber" if resp.get("scope") == "packaged" else ""),
                         label="lumped vs distributed peak frequency"))
         out.append(_row("single-mode reduction", "response peak height (dB re 1 V/Pa)",
                         resp["lumped_peak_db_v_per_pa"], resp["distributed_peak_db_v_per_pa"],

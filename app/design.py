@@ -103,6 +103,10 @@ class Acoustics:
     vent_resistance_pa_s_per_m3: float  # static-pressure equalisation path
     temperature_k: float
     static_pressure_pa: float
+    # lossy back volume and vent channel (diagap.package_design); None: adiabatic, resistance
+    back_volume_area_m2: float | None = None
+    back_volume_box_m: tuple | None = None
+    vent_channel: object | None = None
 
 
 @dataclass(frozen=True)
@@ -137,16 +141,22 @@ class Design:
     thermal: ThermalModel | None = None
     layers: Any = None  # GapLayers of [layers] (diagap.dielectrics), None: no layers
     electret: Any = None  # Electret of [electret] (diagap.dielectrics), None: no electret
+    port: object | None = None  # [port]: diagap.package_design.Port, None without one
+    front: object | None = None  # [front]: diagap.package_design.Front, None without one
 
     def to_dict(self) -> dict:
         """The normalised design in SI (keys carry units), for summary.json."""
         d = asdict(self)
         d.pop("raw", None)
-        for key in ("readout", "thermal", "layers", "electret"):  # listed only when present
-            if d.get(key) is None:
+        for key in ("readout", "thermal", "layers", "electret", "port", "front"):
+            if d.get(key) is None:  # optional sections: listed only when present
                 d.pop(key, None)
         if d["backplate"].get("plate", 0) is None:  # rigid backplate: no entry
             d["backplate"].pop("plate")
+        if d.get("acoustics"):
+            for key in ("back_volume_area_m2", "back_volume_box_m", "vent_channel"):
+                if d["acoustics"].get(key) is None:
+                    d["acoustics"].pop(key, None)
         # the size is named for what it is, as in the design file: radius or side
         size = "radius" if self.diaphragm.shape == "circle" else "side"
         d["diaphragm"] = {(f"{size}_m" if k == "size_m" else k): v
@@ -410,10 +420,15 @@ def parse_design(raw: dict, source: str = "<design>") -> Design:
     for key in _TOP:
         if key in raw and not isinstance(raw[key], str):
             raise DesignError(f"{key} = {_fmt(raw[key])}: must be a string")
+    from diagap.package_design import acoustics_extras, package_sections
+
     d = _diaphragm(raw)
     a = _section(raw, "acoustics") if "acoustics" in raw else None
+    extras = {} if a is None else acoustics_extras(a)  # may fill a["vent_resistance"]
     acoustics = None if a is None else Acoustics(a["back_volume"], a["vent_resistance"],
-                                                 a["temperature"], a["static_pressure"])
+                                                 a["temperature"], a["static_pressure"],
+                                                 **extras)
+    port, front = package_sections(raw, a)
     air = DEFAULT_AIR if a is None else (a["temperature"], a["static_pressure"])
     d, thermal = _thermal(raw, d, air[0])
     b = _backplate(raw, d, air)
@@ -442,6 +457,8 @@ def parse_design(raw: dict, source: str = "<design>") -> Design:
         thermal=thermal,
         layers=layers,
         electret=electret,
+        port=port,
+        front=front,
     )
 
 

@@ -44,9 +44,11 @@ def response_inputs(design, density, rim, air):
     baffled-piston front, bias circuit with charge feedback)."""
     from diagap.dielectrics import effective_bias_v
     from diagap.fem.response.coupled import ResponseInputs
+    from diagap.package_design import gas_from_air, package_acoustics, package_loads
     from diagap.readout_design import bias_leg_resistance_ohm
 
     b, e, a = design.backplate, design.electrical, design.acoustics
+    loads = package_loads(package_acoustics(design, gas_from_air(air)))
     return ResponseInputs(
         problem=plate_problem(design), electrode_size_m=b.electrode_size_m, gap_m=b.gap_m,
         density=density, rim=rim, film=film_coefficients(design, air),
@@ -54,4 +56,4 @@ def response_inputs(design, density, rim, air):
         gamma=air.heat_capacity_ratio, static_pressure_pa=a.static_pressure_pa, radiation=True,
         air_density_kg_m3=air.density_kg_per_m3, sound_speed_m_s=air.speed_of_sound_m_per_s,
         bias_voltage_v=effective_bias_v(design), bias_resistance_ohm=bias_leg_resistance_ohm(design),
-        shunt_capacitance_f=e.parasitic_capacitance_f + e.preamp_input_capacitance_f)
+        shunt_capacitance_f=e.parasitic_capacitance_f + e.preamp_input_capacitance_f, **loads)

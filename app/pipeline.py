@@ -22,6 +22,7 @@ from typing import Any
 
 from diagap.design import Design
 from diagap.extract import plate_problem, response_inputs
+from diagap.scope import response_scope
 
 __all__ = ["RunResult", "run_design", "SCHEMA_VERSION"]
 
@@ -234,7 +235,7 @@ def run_design(design: Design, max_memory_b: float | None = None) -> RunResult:
             dist = None
             result.skipped["response.distributed"] = SKIP_REASONS["compliant_backplate"]
         _stage(result, "response", response_stage, model, result.summary()["uncertainty"],
-               dist, acc, readout=design.readout)
+               dist, acc, readout=design.readout, scope=response_scope(design))
     resp = result.sections["response"].to_summary() if "response" in result.sections else None
     try:
         _stage(result, "large_deflection", large_deflection_stage, design, problem, es, resp,

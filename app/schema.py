@@ -10,7 +10,7 @@ from diagap.fem.constants import ROOM_TEMPERATURE_K, STANDARD_PRESSURE_PA
 from diagap.materials import MATERIALS, SUBSTRATES
 from diagap.quantities import Field
 
-__all__ = ["SCHEMA", "OPTIONAL_SECTIONS", "DEFAULT_AIR", "MIN_SLENDERNESS", "MAX_HOLE_KNUDSEN",
+__all__ = ["SCHEMA", "OPTIONAL_SECTIONS", "PACKAGE_SECTIONS", "DEFAULT_AIR", "MIN_SLENDERNESS", "MAX_HOLE_KNUDSEN",
            "MAX_FILE_BYTES"]
 
 
@@ -62,7 +62,15 @@ SCHEMA: dict[str, dict[str, Field]] = {
     },
     "acoustics": {
         "back_volume": _range("m^3", 1e-12, 1e-3, required=True),
-        "vent_resistance": _range("Pa*s/m^3", 1e3, 1e20, required=True),
+        "vent_resistance": _range("Pa*s/m^3", 1e3, 1e20),
+        # lossy back volume: its wall area, or a box (three lengths); a vent channel instead of
+        # vent_resistance: vent_radius or vent_slot_width + vent_slot_height, and vent_length
+        "back_volume_area": _range("m^2", 1e-12, 1.0),
+        "back_volume_box": _range("m", 1e-6, 0.1, default=(), example="1 mm"),
+        "vent_radius": _length(0.1e-6, 5e-3),
+        "vent_slot_width": _length(0.1e-6, 0.1),
+        "vent_slot_height": _length(0.1e-6, 5e-3),
+        "vent_length": _length(0.1e-6, 0.1),
         "temperature": Field("K", low=173.15, high=473.15, low_open=False, high_open=False,
                              default=ROOM_TEMPERATURE_K),
         "static_pressure": Field("Pa", low=1e3, high=1e6, low_open=False, high_open=False,
@@ -88,6 +96,16 @@ SCHEMA: dict[str, dict[str, Field]] = {
         "charge_pump_resistance": _range("ohm", 0.0, 1e15, default=0.0),
         "charge_pump_noise": Field("V/rtHz", low=0.0, high=1e-3, low_open=False,
                                    high_open=False, example="1 uV/rtHz"),
+    },
+    "port": {  # the sound inlet: a circular tube or a rectangular slot
+        "radius": _length(1e-6, 10e-3),
+        "slot_width": _length(1e-6, 0.1),
+        "slot_height": _length(1e-6, 10e-3),
+        "length": _length(1e-6, 0.1, required=True),
+    },
+    "front": {  # the front chamber between the port and the diaphragm
+        "volume": _range("m^3", 1e-15, 1e-3, required=True),
+        "wall_area": _range("m^2", 1e-12, 1.0),
     },
     "analysis": {
         "accuracy": Field(choices=("draft", "normal", "fine"), default="normal"),
@@ -118,6 +136,8 @@ SCHEMA: dict[str, dict[str, Field]] = {
 }
 #: sections a design may leave out; the analyses that need them are skipped
 OPTIONAL_SECTIONS = ("acoustics", "electrical", "readout")
+#: sections describing the package around the capsule (absent: the capsule alone is analysed)
+PACKAGE_SECTIONS = ("port", "front")
 #: the air of the squeeze film when a design has no [acoustics]: 20 degC, 101.325 kPa
 DEFAULT_AIR = (ROOM_TEMPERATURE_K, STANDARD_PRESSURE_PA)
 #: least diaphragm size / thickness (Kirchhoff thin plate; common practice: a/h >= ~10)

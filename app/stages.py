@@ -308,7 +308,14 @@ def lumped_model(design: Design, mech, es: Section, cp: Section, damp: Section):
         film_damping=film, bias_displacement_m=x_b, air_density_kg_m3=air.density_kg_per_m3,
         sound_speed_m_s=air.speed_of_sound_m_per_s, static_pressure_pa=ac.static_pressure_pa,
         gamma=air.heat_capacity_ratio, temperature_k=ac.temperature_k,
-        radiation_radius_m=_piston_radius(design))
+        radiation_radius_m=_piston_radius(design), package=_package(design, air))
+
+
+def _package(design: Design, air):
+    """Port, front chamber, lossy back volume, vent channel (None: the capsule alone)."""
+    from diagap.package_design import gas_from_air, package_acoustics
+
+    return package_acoustics(design, gas_from_air(air))
 
 
 def _response_uncertainty(unc: dict) -> dict:
@@ -387,18 +394,22 @@ def distributed_section(model, resp, inputs, accuracy: str) -> tuple[dict, dict,
 
 
 def response_stage(model, fe_uncertainty: dict | None = None, distributed=None,
-                   accuracy: str = "normal", readout=None) -> Section:
+                   accuracy: str = "normal", readout=None, scope: str = "capsule") -> Section:
     """Frequency response, noise (every source of :func:`diagap.lumped.breakdown.output_noise_psds`,
     with ``readout`` (a :class:`diagap.lumped.readout.Readout`) its own noise and the bias
     supply's) and distortion; with ``distributed`` (a :class:`fem.response.coupled.ResponseInputs`)
     also the distributed reference and the reduction error, which is added to the reported
     uncertainty of the sensitivity, the resonance and the noise (relative, on the pressure
     amplitude). ``noise_contributions_dba_spl`` keeps the capsule's own sources,
-    ``noise_breakdown_dba`` every source; the noise floor and SNR count them all."""
+    ``noise_breakdown_dba`` every source; the noise floor and SNR count them all. With package
+    elements (``model.package``) the thermal sources are every dissipative element of the
+    circuit. ``scope`` ("capsule" | "packaged", :func:`diagap.scope.response_scope`) is
+    reported as given."""
     from diagap.lumped.breakdown import noise_breakdown, output_noise_psds
     from diagap.lumped.circuit import solve_circuit
     from diagap.lumped.distortion import distortion_vs_spl
     from diagap.lumped.response import analyse_response
+    from diagap.package_design import package_response_data
 
     resp = analyse_response(model)
     f = resp.response.frequency_hz
@@ -419,6 +430,8 @@ def response_stage(model, fe_uncertainty: dict | None = None, distributed=None,
     })
     data.update(dist.to_summary())
     data["thd_vs_spl"] = [[float(a), float(b)] for a, b in zip(dist.spl_db, dist.thd)]
+    data.update(package_response_data(model))
+    data["scope"] = scope
     unc = _response_uncertainty(fe_uncertainty or {})
     objects = {"response": resp, "distortion": dist, "model": model,
                "noise_parts": {k: v for k, v in parts.items() if np.any(v > 0)},

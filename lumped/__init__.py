@@ -9,6 +9,7 @@ _EXPORTS = {
     "distortion_vs_spl": "distortion", "harmonic_balance": "distortion",
     "a_weighting_db": "weighting", "a_weighted_level_db": "noise",
     "mechanical_thermal_noise": "noise", "critical_tension_n_per_m": "buckling",
+    "Channel": "tubes", "Gas": "tubes", "Cavity": "cavity", "PackageAcoustics": "package",
 }
 __all__ = sorted(_EXPORTS)
 

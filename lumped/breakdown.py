@@ -103,9 +103,9 @@ def noise_breakdown(frequency_hz, voltage_per_pa, output_psds: dict,
     return NoiseBreakdown(f, inputs, levels, float(total))
 
 
-def _thermal_fallback(model, frequency_hz) -> dict:
-    """The circuit's thermal sources without a per-element method: film damping, bias leg
-    and vent (:mod:`diagap.lumped.response`)."""
+def _capsule_sources(model, frequency_hz) -> dict:
+    """The thermal sources of a capsule without package elements: film damping, bias leg and
+    vent (:mod:`diagap.lumped.response`)."""
     from diagap.lumped.response import (output_noise_psd_damping, output_noise_psd_resistor,
                                         output_noise_psd_vent)
 
@@ -122,10 +122,10 @@ def output_noise_psds(solution, readout: Readout | None = None) -> dict:
     """
     model = solution.model
     t = model.temperature_k
-    if hasattr(solution, "thermal_noise_output_psds"):
+    if getattr(model, "package", None) is not None:  # every dissipative element of the package
         parts = dict(solution.thermal_noise_output_psds(t))
-    else:
-        parts = _thermal_fallback(model, solution.frequency_hz)
+    else:  # the capsule's own three sources, named as in earlier summaries
+        parts = _capsule_sources(model, solution.frequency_hz)
     if readout is None:
         return parts
     r_total = model.bias_resistance_ohm

@@ -40,11 +40,34 @@ Constant voltage and constant charge are the two limits of the same term (Γ/A)�
 restores k − k_e + Γ²/C_node (constant charge).  The same Y_e gives the electrical high-pass
 v = −(Γ/C_node)·x·jωτ/(1 + jωτ), τ = R·C_node, when the motion is imposed.  Units: SI.
 
+With a :class:`diagap.lumped.package.PackageAcoustics` on the model (all optional): the vent is a
+complex impedance Z_v(ω) (a channel), the back volume an admittance Y_bv(ω) with thermal loss, and
+a front path (port and front chamber) makes the pressure at the diaphragm and at the vent's front
+end that of a Thévenin source p_th = T(ω)·p in series with Z_th(ω) (the diaphragm's own radiation
+load is then dropped: it faces the front chamber).  With the common impedance
+Z_s = Z_th + 1/Y_bv the same elimination gives
+
+    Z = Z_D + Z_sZ_v/(Z_s + Z_v),   H_v = Z_v/(Z_s + Z_v),
+    U = [(p_th + e_f − i_b/Y_bv)·H_v − e_v·(1 − H_v) + f_n/A + (Γ/A)·e_R/(R·Y_e)] / Z,
+
+with Z_D = Z_d (+ Z_rad without front path) + (Γ/A)²/Y_e, e_f a pressure source in series with
+Z_th and i_b a volume-velocity source into the back volume; it reduces to the lines above when
+Z_th = 0, Y_bv = jωC_bv, Z_v = R_v.
+
+Thermal noise (:meth:`CircuitSolution.thermal_noise_output_psds`): fluctuation–dissipation gives
+every dissipative element a source of one-sided PSD 4k_BT·Re Z in series (4k_BT·Re Y in
+parallel for an admittance), mutually uncorrelated: the film's force 4k_BT·b(f), R_bias's
+4k_BT·R, the vent's 4k_BT·Re Z_v, the back volume's 4k_BT·Re Y_bv, the radiation load's
+4k_BT·Re Z_rad, and the front path's shares 4k_BT·P_k (:mod:`diagap.lumped.package`).  Their
+output PSDs add to 4k_BT·Re Z_out, Z_out the impedance of the output node (Nyquist's theorem for
+a passive reciprocal network; checked in tests/test_packaged.py).
+
 :class:`NonlinearTransducer` is the large-signal form of the same two-port (readout q/C_t(x) and
 force ½v²C'(x)) used by :mod:`diagap.lumped.distortion`.
 """
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -110,8 +133,11 @@ class CircuitSolution:
     frequency_hz : (n,)
     branch_impedance : Z, total impedance in the diaphragm branch (Pa·s/m³).
     electrical_admittance : Y_e = 1/R + jωC_node (S).
-    vent_highpass : H_v = jωR_vC_bv/(1 + jωR_vC_bv).
-    back_admittance : Y_b = jωC_bv + 1/R_v (m³/(Pa·s)).
+    vent_highpass : H_v = jωR_vC_bv/(1 + jωR_vC_bv)  (Z_v/(Z_s + Z_v) in general).
+    back_admittance : Y_b = jωC_bv + 1/R_v (m³/(Pa·s))  (1/Z_s + 1/Z_v in general).
+    vent_impedance, back_volume_admittance, diaphragm_impedance : Z_v, Y_bv, Z_D — set only for
+        a model with a ``package`` (None otherwise).
+    front : :class:`diagap.lumped.package.FrontNetwork` of the front path, or None.
     """
 
     frequency_hz: np.ndarray
@@ -120,18 +146,39 @@ class CircuitSolution:
     vent_highpass: np.ndarray
     back_admittance: np.ndarray
     model: LumpedModel
+    vent_impedance: np.ndarray | None = None
+    back_volume_admittance: np.ndarray | None = None
+    diaphragm_impedance: np.ndarray | None = None
+    front: object | None = None
 
     @property
     def omega(self) -> np.ndarray:
         return 2.0 * np.pi * self.frequency_hz
 
+    def _common(self, pressure_pa, front_pressure_pa, back_flow_m3_s):
+        """Pressure of the common source p_th + e_f − i_b/Y_bv (Pa)."""
+        p = pressure_pa if self.front is None else pressure_pa * self.front.transfer
+        y_bv = self.back_volume_admittance
+        if y_bv is None:
+            y_bv = 1j * self.omega * self.model.back_volume_compliance_m3_per_pa
+        return p + front_pressure_pa - back_flow_m3_s / y_bv
+
     def volume_velocity(self, *, pressure_pa=0.0, force_n=0.0, vent_pressure_pa=0.0,
-                        resistor_voltage_v=0.0) -> np.ndarray:
-        """Diaphragm volume velocity U (m³/s) for the given source phasors."""
+                        resistor_voltage_v=0.0, front_pressure_pa=0.0,
+                        back_flow_m3_s=0.0) -> np.ndarray:
+        """Diaphragm volume velocity U (m³/s) for the given source phasors: the free-field
+        pressure, a force on the diaphragm, a pressure in series with the vent, a voltage in
+        series with R_bias, a pressure in series with the front path, a volume velocity into
+        the back volume."""
         m = self.model
         g = m.transduction_n_per_v / m.area_m2
-        rhs = (pressure_pa * self.vent_highpass
-               - vent_pressure_pa / (m.vent_resistance_pa_s_per_m3 * self.back_admittance)
+        if self.vent_impedance is None:
+            vent = vent_pressure_pa / (m.vent_resistance_pa_s_per_m3 * self.back_admittance)
+        else:
+            vent = vent_pressure_pa * (1.0 - self.vent_highpass)
+        common = self._common(pressure_pa, front_pressure_pa, back_flow_m3_s)
+        rhs = (common * self.vent_highpass
+               - vent
                + force_n / m.area_m2
                + g * resistor_voltage_v / (m.bias_resistance_ohm * self.electrical_admittance))
         return rhs / self.branch_impedance
@@ -146,6 +193,58 @@ class CircuitSolution:
     def displacement(self, **sources) -> np.ndarray:
         """Centre displacement x = U/(jωA) (m)."""
         return self.volume_velocity(**sources) / (1j * self.omega * self.model.area_m2)
+
+    def front_pressure(self, **sources) -> np.ndarray:
+        """Pressure at the diaphragm's front (Pa): p_th − Z_th·(U + U_v) with a front path, the
+        free-field pressure without one."""
+        p = sources.get("pressure_pa", 0.0)
+        if self.front is None:
+            return np.broadcast_to(np.asarray(p, complex), self.frequency_hz.shape).copy()
+        m = self.model
+        g = m.transduction_n_per_v / m.area_m2
+        u = self.volume_velocity(**sources)
+        common = self._common(p, sources.get("front_pressure_pa", 0.0),
+                              sources.get("back_flow_m3_s", 0.0))
+        e_d = (sources.get("force_n", 0.0) / m.area_m2 + g * sources.get("resistor_voltage_v", 0.0)
+               / (m.bias_resistance_ohm * self.electrical_admittance))
+        z_s = self.front.impedance + 1.0 / self.back_volume_admittance
+        u_total = (common - self.diaphragm_impedance * u + e_d) / z_s
+        th = p * self.front.transfer + sources.get("front_pressure_pa", 0.0)
+        return th - self.front.impedance * u_total
+
+    def thermal_noise_output_psds(self, temperature_k: float) -> dict[str, np.ndarray]:
+        """One-sided output-voltage PSD (V²/Hz) of each dissipative element's thermal noise.
+
+        Keys, where the element exists: "diaphragm_damping" (film, 4k_BT·b(f) as a force),
+        "bias_resistor", "vent", "back_volume" (lossy back volume), "radiation" (the diaphragm's
+        front load, or the port's outer opening), "port", "front_chamber" (lossy)."""
+        from diagap.fem.constants import BOLTZMANN_J_PER_K
+
+        if not (math.isfinite(temperature_k) and temperature_k > 0):
+            raise LumpedModelError(f"temperature_k = {temperature_k!r}: must be a finite "
+                                   "number > 0")
+        m = self.model
+        kt4 = 4.0 * BOLTZMANN_J_PER_K * temperature_k
+        b, _ = m.film(self.frequency_hz)
+
+        def out(**src):
+            return np.abs(self.output_voltage(**src)) ** 2
+
+        z_v = (np.full(self.frequency_hz.shape, m.vent_resistance_pa_s_per_m3)
+               if self.vent_impedance is None else self.vent_impedance)
+        psd = {"diaphragm_damping": kt4 * b * out(force_n=1.0),
+               "bias_resistor": kt4 * m.bias_resistance_ohm * out(resistor_voltage_v=1.0),
+               "vent": kt4 * z_v.real * out(vent_pressure_pa=1.0)}
+        if self.back_volume_admittance is not None and m.package.back_volume is not None:
+            psd["back_volume"] = kt4 * self.back_volume_admittance.real * out(back_flow_m3_s=1.0)
+        if self.front is not None:
+            h = out(front_pressure_pa=1.0)
+            for name, loss in self.front.dissipation.items():
+                psd[name] = kt4 * loss * h
+        elif m.radiation_radius_m > 0:
+            z_rad = m.radiation_impedance(self.frequency_hz)
+            psd["radiation"] = kt4 * z_rad.real * out(force_n=m.area_m2)
+        return psd
 
 
 def _frequencies(freqs_hz) -> np.ndarray:
@@ -170,7 +269,33 @@ def solve_circuit(model: LumpedModel, freqs_hz) -> CircuitSolution:
     g = model.transduction_n_per_v / a
     z = z_d + model.radiation_impedance(f) + 1.0 / y_b + g**2 / y_e
     h_v = 1j * w * r_v * c_bv / (1.0 + 1j * w * r_v * c_bv)
-    return CircuitSolution(f, z, y_e, h_v, y_b, model)
+    if model.package is None:
+        return CircuitSolution(f, z, y_e, h_v, y_b, model)
+    return _solve_packaged(model, f, z_d, y_e, g)
+
+
+def _solve_packaged(model: LumpedModel, f: np.ndarray, z_d: np.ndarray, y_e: np.ndarray,
+                    g: float) -> CircuitSolution:
+    """The reduction with the package's elements (module docstring)."""
+    pk = model.package
+    w = 2.0 * np.pi * f
+    front = pk.front_network(f)
+    y_bv = pk.back_admittance(f)
+    if y_bv is None:
+        y_bv = 1j * w * model.back_volume_compliance_m3_per_pa
+    z_v = pk.vent_impedance(f)
+    if z_v is None:
+        z_v = np.full(f.shape, complex(model.vent_resistance_pa_s_per_m3))
+    z_s = 1.0 / y_bv
+    if front is None:
+        z_dd = z_d + model.radiation_impedance(f) + g**2 / y_e
+    else:
+        z_dd = z_d + g**2 / y_e
+        z_s = z_s + front.impedance
+    z = z_dd + z_s * z_v / (z_s + z_v)
+    return CircuitSolution(f, z, y_e, z_v / (z_s + z_v), 1.0 / z_s + 1.0 / z_v, model,
+                           vent_impedance=z_v, back_volume_admittance=y_bv,
+                           diaphragm_impedance=z_dd, front=front)
 
 
 class NonlinearTransducer:

@@ -181,6 +181,9 @@ class LumpedModel:
     temperature_k : temperature for thermal noise (K).
     radiation_radius_m : radius a of the baffled piston whose radiation impedance loads the
         front of the diaphragm (Rayleigh; acoustic mass 8ρ/(3π²a) at ka ≪ 1); 0: no load.
+    package : optional :class:`diagap.lumped.package.PackageAcoustics` (sound port and front
+        chamber — which then replace the diaphragm's radiation load —, lossy back volume, vent
+        channel); None: the capsule alone, as above.
     """
 
     stiffness_n_per_m: float
@@ -206,6 +209,7 @@ class LumpedModel:
     gamma: float = 1.4
     temperature_k: float = ROOM_TEMPERATURE_K
     radiation_radius_m: float = 0.0
+    package: object | None = None
 
     def __post_init__(self):
         pos = ("stiffness_n_per_m", "mass_kg", "area_m2", "back_volume_m3",

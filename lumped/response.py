@@ -18,7 +18,10 @@ Figures of merit (all from the same circuit):
   electrical load reflected through Γ); velocity is in phase with the net pressure there;
 * Q = (ω_r / 2R)·|dX/dω| at the resonance, R = Re Z (series-resonance definition; equals
   √(k m)/b for constant m, b, k);
-* the peak frequency of |x/p| when it exists.
+* the peak frequency of |x/p| when it exists;
+* with a sound port and front chamber (``model.package``), the resonance, Q and peak are those of
+  the capsule side (front path removed); the front path's own resonance is
+  :func:`diagap.lumped.package.front_resonance_hz`.
 
 Noise transfer: thermal noise of R_bias (4k_BTR, V²/Hz, Johnson–Nyquist) through the same
 circuit gives the output PSD; dividing by |H|² refers it to the input in Pa²/Hz.  The force noise
@@ -177,7 +180,10 @@ def analyse_response(model: LumpedModel, freqs_hz=None) -> ResponseResult:
     c_d = model.area_m2**2 / model.net_stiffness_n_per_m
     c_bv = model.back_volume_compliance_m3_per_pa
     f_a = 1.0 / (2.0 * np.pi * model.vent_resistance_pa_s_per_m3 * (c_bv + c_d))
-    f_res, q = _resonance(model, 10.0 * max(f_e, f_a))
+    # the diaphragm's own resonance: on the capsule side, without a front path's resonances
+    core = model if model.package is None or not model.package.has_front_path else \
+        model.replace(package=model.package.without_front())
+    f_res, q = _resonance(core, 10.0 * max(f_e, f_a))
     return ResponseResult(
         response=resp,
         sensitivity_v_per_pa=_h_abs(model, REFERENCE_FREQUENCY_HZ),
@@ -186,7 +192,7 @@ def analyse_response(model: LumpedModel, freqs_hz=None) -> ResponseResult:
         lowfreq_minus3db_hz=_lowfreq_3db(model, REFERENCE_FREQUENCY_HZ),
         resonance_hz=f_res,
         quality_factor=q,
-        peak_frequency_hz=_peak(model, f_res),
+        peak_frequency_hz=_peak(core, f_res),
     )
 
 

@@ -11,7 +11,7 @@ from __future__ import annotations
 import html
 
 from diagap.names import lookup
-from diagap.scope import scope_text
+from diagap.scope import scope_text, summary_parts
 
 __all__ = ["breakdown_rows", "breakdown_lines", "breakdown_html", "source_label"]
 
@@ -52,11 +52,11 @@ def breakdown_lines(summary: dict) -> list[str]:
     response)."""
     resp = summary.get("response") or {}
     if "noise_breakdown_dba" not in resp:
-        return [f"[{scope_text(resp.get('scope'))}]"]
+        return [f"[{scope_text(resp.get('scope'), summary_parts(summary))}]"]
     rows = breakdown_rows(resp)
     w = max(len(r[0]) for r in rows)
     head = ["[noise by source: A-weighted, input-referred, 20 Hz - 20 kHz, dB(A) SPL]",
-            f"  ({scope_text(resp.get('scope'))})"]
+            f"  ({scope_text(resp.get('scope'), summary_parts(summary))})"]
     return head + [f"  {a:<{w}}  {b:>6}  {c}".rstrip() for a, b, c in rows]
 
 
@@ -69,7 +69,7 @@ def breakdown_html(summary: dict) -> str:
                      f"<td>{html.escape(c)}</td></tr>" for a, b, c in breakdown_rows(resp))
     note = resp.get("aop_note")
     return (f'<h3 id="noise-breakdown">Noise by source and overload point</h3>\n'
-            f"<p class=small>{html.escape(scope_text(resp.get('scope')))}. Each source's noise is "
+            f"<p class=small>{html.escape(scope_text(resp.get('scope'), summary_parts(summary)))}. Each source's noise is "
             f"referred to the acoustic input through the response at the output node, A-weighted "
             f"(IEC 61672-1) over 20 Hz – 20 kHz; the sources are independent, so their powers "
             f"add.{' Overload point: ' + html.escape(note) + '.' if note else ''}</p>\n"

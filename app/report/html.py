@@ -17,7 +17,7 @@ from pathlib import Path
 
 from diagap.names import lookup
 from diagap.report.breakdown_table import breakdown_html
-from diagap.scope import response_scope, scope_text
+from diagap.scope import package_parts, response_scope, scope_text
 from diagap.report.html_tables import SECTION_TITLES, audit_counts, audit_table, design_table, results_tables
 from diagap.report.temperature_tables import SECTION_ID, TITLE, temperature_section
 
@@ -191,7 +191,7 @@ def report_html(result, plots, files: list[str] = ()) -> str:
         "</div>",
         _collapse_box(summary) if result.collapsed else "",
         _key_figures(summary),
-        f'<p class="sub"><b>{html.escape(scope_text(response_scope(design)).capitalize())}.'
+        f'<p class="sub"><b>{html.escape(scope_text(response_scope(design), package_parts(design)).capitalize())}.'
         f'</b></p>',
         '<nav><b>Contents</b><ul><li><a href="#design">Design</a></li>'
         '<li><a href="#audit">Assumption audit</a></li>' + "".join(sections) +

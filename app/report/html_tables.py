@@ -117,6 +117,7 @@ def _design_rows(design) -> list[tuple[str, str, str]]:
              f"{a.temperature_k:.5g} K ({a.temperature_k - 273.15:.4g} °C)", ""),
             ("acoustics", "static pressure", a.static_pressure_pa * 1e-3, "kPa"),
         ]
+        rows += _package_rows(design)
     if e is None:
         rows += [("electrical", "(no [electrical] section)", "no bias point computed", "")]
     else:
@@ -261,3 +262,29 @@ def audit_table(rows) -> str:
     return '<div class="wide">' + _table(
         ("assumption (quantity: values)", "deviation: what it is, unit", "value", "verdict",
          "threshold on |value| (else fails)", "note"), body, "audit") + "</div>"
+
+
+def _package_rows(design) -> list:
+    """Rows of the sound port, front chamber, lossy back volume and vent channel (if any)."""
+    a, rows = design.acoustics, []
+    if a.back_volume_box_m:
+        rows.append(("acoustics", "back volume box",
+                     " × ".join(f"{v * 1e3:.4g}" for v in a.back_volume_box_m), "mm"))
+    if a.back_volume_area_m2 is not None:
+        rows.append(("acoustics", "back volume wall area", a.back_volume_area_m2 * 1e6, "mm²"))
+    v = a.vent_channel
+    if v is not None:
+        size = (f"radius {v.radius_m * 1e6:.4g}" if v.radius_m is not None else
+                f"slot {v.slot_m[0] * 1e6:.4g} × {v.slot_m[1] * 1e6:.4g}")
+        rows.append(("acoustics", "vent channel", f"{size}, length {v.length_m * 1e6:.4g}", "µm"))
+    p = design.port
+    if p is not None:
+        size = (f"radius {p.radius_m * 1e3:.4g}" if p.radius_m is not None else
+                f"slot {p.slot_m[0] * 1e3:.4g} × {p.slot_m[1] * 1e3:.4g}")
+        rows.append(("port", "sound port", f"{size}, length {p.length_m * 1e3:.4g}", "mm"))
+    f = design.front
+    if f is not None:
+        rows.append(("front", "front chamber volume", f.volume_m3 * 1e9, "mm³"))
+        if f.wall_area_m2 is not None:
+            rows.append(("front", "front chamber wall area", f.wall_area_m2 * 1e6, "mm²"))
+    return rows

@@ -20,13 +20,17 @@ import numpy as np
 from diagap.fem.constants import P_REF_PA
 from diagap.names import display_text, lookup
 from diagap.report.plots import GREYS, LINES, MARKERS, Plot, new_figure, prefixed
+from diagap.scope import scope_words
 
 __all__ = ["response_plots", "draw_squeeze", "draw_response", "draw_noise", "draw_thd",
            "reduction_words"]
 
 _NOISE_LABELS = {"mechanical_thermal": "mechanical-thermal (film damping)",
                  "bias_resistor": "bias resistor", "vent": "vent (leak) resistance",
-                 "readout": "readout input noise", "bias_supply": "bias supply (charge pump)"}
+                 "readout": "readout input noise", "bias_supply": "bias supply (charge pump)",
+                 "diaphragm_damping": "mechanical-thermal (film damping)",
+                 "back_volume": "back volume (thermal loss)", "port": "sound port",
+                 "front_chamber": "front chamber (thermal loss)", "radiation": "radiation"}
 
 
 def _hz(f: float) -> str:
@@ -96,9 +100,10 @@ def reduction_words(d: dict) -> str:
     return out + "."
 
 
-def draw_response(resp, distributed=None):
+def draw_response(resp, distributed=None, helmholtz_hz=None):
     """Magnitude and phase of V_out/p with the corners and the resonance; ``distributed``
-    ([[f_hz, dB, phase_deg, rel_err], ...]) overlays the distributed FE solve."""
+    ([[f_hz, dB, phase_deg, rel_err], ...]) overlays the distributed FE solve; ``helmholtz_hz``
+    marks the resonance of a sound port and front chamber."""
     r = resp.response
     f = np.asarray(r.frequency_hz, float)
     fig, (a1, a2) = new_figure(7.6, 5.4, nrows=2, sharex=True, height_ratios=[1.6, 1],
@@ -124,9 +129,14 @@ def draw_response(resp, distributed=None):
                       f"{display_text('response.acoustic_corner_hz', ac)}" if lab else None)
         if resp.resonance_hz:
             q = f", Q = {resp.quality_factor:.3g}" if resp.quality_factor else ""
-            _markers_line(ax, resp.resonance_hz, ":", f"resonance in air (lumped model) "
+            _markers_line(ax, resp.resonance_hz, ":", f"resonance in air (lumped model"
+                          f"{', capsule side' if helmholtz_hz else ''}) "
                           f"{display_text('response.resonance_hz', resp.resonance_hz)}{q}"
                           if lab else None)
+        _markers_line(ax, helmholtz_hz, (0, (6, 2, 1, 2, 1, 2)), "port and front chamber "
+                      "(Helmholtz) "
+                      f"{display_text('response.helmholtz_resonance_hz', helmholtz_hz)}"
+                      if lab and helmholtz_hz else None)
         ax.grid(True, which="major", color="0.85")
     top = float(np.max(r.magnitude_db_v_per_pa))
     a1.set_ylim(max(float(np.min(r.magnitude_db_v_per_pa)), top - 80.0) - 2.0, top + 6.0)
@@ -158,15 +168,18 @@ def draw_noise(resp_section):
     total = np.asarray(resp_section.objects["noise_input_psd"], float)
     data = resp_section.data
     levels = data.get("noise_breakdown_dba", data.get("noise_contributions_dba_spl", {}))
-    fig, ax = new_figure(7.6, 5.0, margins_in=(0.9, 0.8, 1.25, 0.2))
+    # legend rows below the axes (two entries a row): room for more than the three sources
+    extra = 0.22 * max(0, math.ceil((len(resp_section.objects["noise_parts"]) + 2) / 2) - 3)
+    fig, ax = new_figure(7.6, 5.0 + extra, margins_in=(0.9, 0.8, 1.25 + extra, 0.2))
     ax.axvspan(20.0, 20e3, color="0.93", lw=0, label="audio band 20 Hz – 20 kHz")
     ax.loglog(f, np.sqrt(total), color="black", lw=2.2,
               label=f"total: {data['noise_dba_spl']:.1f} dB(A) SPL")
     for k, (name, psd) in enumerate(resp_section.objects["noise_parts"].items(), start=1):
         level = levels.get(name)
         extra = f": {level:.1f} dB(A)" if level is not None else ""
-        ax.loglog(f, np.sqrt(np.asarray(psd, float) / h2), color=GREYS[k], ls=LINES[k],
-                  marker=MARKERS[k], markevery=25, ms=4,
+        i = k % len(GREYS)
+        ax.loglog(f, np.sqrt(np.asarray(psd, float) / h2), color=GREYS[i], ls=LINES[i],
+                  marker=MARKERS[i], markevery=25, ms=4,
                   label=f"{_NOISE_LABELS.get(name, name)}{extra}")
     ax.set_xlim(f[0], f[-1])
     floor = float(np.sqrt(np.min(total)))
@@ -227,7 +240,9 @@ def response_plots(design, damp, resp) -> list[Plot]:
         f"Output voltage per pascal of the lumped model at the bias point (bias resistor, "
         f"parasitic and preamp input capacitance, back volume and vent, front radiation mass "
         f"included). Sensitivity at 1 kHz: {r.sensitivity_db_v_per_pa:.2f} dB re 1 V/Pa."
-        + reduction_words(d), lambda: draw_response(r, d.get("distributed_response"))))
+        + reduction_words(d) + scope_words(d),
+        lambda: draw_response(r, d.get("distributed_response"),
+                              d.get("helmholtz_resonance_hz"))))
     out.append(Plot(
         "noise", "response", "Noise",
         f"Input-referred noise density and its sources. A-weighted noise floor over 20 Hz – "

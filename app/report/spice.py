@@ -83,6 +83,10 @@ def _header(model: LumpedModel, zs: float) -> list[str]:
         lines.append("* NOTE: the front radiation load is its low-ka acoustic mass 8*rho/(3*pi^2*a) "
                      "(Lrad); the radiation resistance and the mass's ka dependence are not "
                      "represented.")
+    if getattr(model, "package", None) is not None:
+        lines.append("* NOTE: the capsule alone: the sound port, front chamber, back-volume wall "
+                     "losses and vent channel are not represented (the vent is its "
+                     "low-frequency resistance, the back volume adiabatic).")
     return lines
 
 

@@ -35,6 +35,12 @@ The output is v/p (V/Pa), open circuit apart from C_p and C_in, and w(0)/p. Swit
 ``film=None`` (the gap pressure is p_b), ``back_volume_m3=None`` (open back, p_b = 0),
 ``radiation=False``, ``electrical=False`` (v = 0: node held, no charge feedback).
 
+Package (optional callables of ω, from the lumped package model): ``back_admittance`` replaces
+jωC_bv by a lossy Y_bv(ω); ``vent_impedance`` replaces R_v by Z_v(ω); ``front_load`` → (T, Z_th)
+puts a front node p_f between the sound field and the diaphragm (Thévenin source of a sound port
+and front chamber): p_f + Z_th·(U + (p_f − p_b)/Z_v) = T·p, the plate and the vent see p_f, and
+the diaphragm's own radiation load is dropped.
+
 Discretisation and error: the plate on the coupling mesh family (electrode edge embedded), the
 film on the squeeze-film meshes; two levels each (``PLATE_FAMILY``, ``FILM_LEVELS``). The
 electrode integrals use the film mesh's quadrature with the Argyris plate evaluated there. The
@@ -109,6 +115,9 @@ class ResponseInputs:
     bias_resistance_ohm: float = math.inf
     shunt_capacitance_f: float = 0.0
     electrical: bool = True
+    front_load: object = None
+    back_admittance: object = None
+    vent_impedance: object = None
 
     @property
     def diaphragm_area_m2(self) -> float:
@@ -275,22 +284,37 @@ class _Level:
             plate += jw * X1
             pb_col = pb_col - cmp * x2
             back = [cmp * jw * x2, -cmp * cmp * s2 + cmp * self.area_e]
-        A = np.zeros((n + 3, n + 3), complex)
-        b = np.zeros(n + 3, complex)
+        front = inp.front_load is not None
+        A = np.zeros((n + 3 + front, n + 3 + front), complex)
+        b = np.zeros(n + 3 + front, complex)
         iP, iV, iU = n, n + 1, n + 2
         A[:n, :n] = plate
         b[:n] = fr
+        gv = 0.0 if not math.isfinite(inp.vent_resistance_pa_s_per_m3) else \
+            1.0 / inp.vent_resistance_pa_s_per_m3
+        if inp.vent_impedance is not None:
+            gv = 1.0 / complex(inp.vent_impedance(omega))
         if inp.back_volume_m3 is None:
             A[iP, iP] = 1.0
         else:
             A[:n, iP] = pb_col
             c_bv = inp.back_volume_m3 / (inp.gamma * inp.static_pressure_pa)
-            gv = 0.0 if not math.isfinite(inp.vent_resistance_pa_s_per_m3) else \
-                1.0 / inp.vent_resistance_pa_s_per_m3
+            y_bv = jw * c_bv if inp.back_admittance is None else \
+                complex(inp.back_admittance(omega))
             A[iP, :n] = back[0]
-            A[iP, iP] = jw * c_bv + gv + back[1]
+            A[iP, iP] = y_bv + gv + back[1]
             A[iP, iU] = -1.0
             b[iP] = gv
+        if front:  # front node: plate and vent driven by p_f
+            iF = n + 3
+            t, z_th = (complex(v) for v in inp.front_load(omega))
+            A[:n, iF], b[:n] = -fr, 0.0
+            if inp.back_volume_m3 is not None:
+                A[iP, iF], b[iP] = -gv, 0.0
+            A[iF, iF] = 1.0 + z_th * gv
+            A[iF, iP] = -z_th * gv
+            A[iF, iU] = z_th
+            b[iF] = t
         if inp.electrical and inp.bias_voltage_v != 0.0:
             g_e = 0.0 if not math.isfinite(inp.bias_resistance_ohm) else \
                 1.0 / inp.bias_resistance_ohm
@@ -299,7 +323,7 @@ class _Level:
             A[iV, iV] = g_e + jw * (self.C0 + inp.shunt_capacitance_f)
         else:
             A[iV, iV] = 1.0
-        if inp.radiation:
+        if inp.radiation and not front:
             a_eq = math.sqrt(inp.diaphragm_area_m2 / math.pi)
             A[:n, iU] += piston_radiation(omega, a_eq, inp.air_density_kg_m3,
                                           inp.sound_speed_m_s) * fr
