@@ -45,6 +45,11 @@ __all__ = ["LargeDeflectionResult", "ElectrostaticBias", "solve_large_deflection
 STEP_THICKNESS = 0.5
 MIN_STEPS = 8
 MAX_STEPS = 12
+#: states extrapolated (polynomial in the centre deflection) to start each trace step; 1: start
+#: from the last state
+PREDICTOR_POINTS = 4
+#: tangent factorisations after which a trace step is abandoned (and bisected)
+STEP_FACTORISATIONS = 8
 
 
 @dataclass(frozen=True)
@@ -172,11 +177,30 @@ def _continue_pressure(vk, P_target, x, P):
     raise NewtonError(f"continuation to scaled pressure {P_target:.6g} failed")
 
 
+def _predict(history, W):
+    """(x, P) at centre deflection W extrapolated from the last converged states of a trace
+    (Lagrange polynomial in W through up to ``PREDICTOR_POINTS`` of them): the start of the next
+    Newton solve. With one state, that state itself (the first chord step is then the tangent
+    predictor)."""
+    pts = history[-PREDICTOR_POINTS:]
+    Ws = [h[0] for h in pts]
+    x = np.zeros_like(pts[-1][2])
+    P = 0.0
+    for i, (Wi, Pi, xi) in enumerate(pts):
+        li = math.prod((W - Wj) / (Wi - Wj) for j, Wj in enumerate(Ws) if j != i)
+        x += li * xi
+        P += li * Pi
+    return x, P
+
+
 def _trace_side(vk, x0, P0, W0, W_end, n_steps, stop_after_fold):
     """Displacement-controlled states from W0 to W_end: a list of (W, P, x). A step that fails is
     bisected (up to five times in a row); with ``stop_after_fold`` the trace ends once P has
-    passed its maximum (or a step fails beyond it: past the snap, the gap closes)."""
+    passed its maximum (or a step fails beyond it: past the snap, the gap closes). Each solve
+    starts from the extrapolation of the states before it (:func:`_predict`), unless
+    ``PREDICTOR_POINTS`` is 1."""
     out = []
+    history = [(W0, P0, x0)]
     x, P, W_cur = x0, P0, W0
     queue = list(np.linspace(W0, W_end, n_steps + 1)[1:])
     fails = 0
@@ -187,7 +211,13 @@ def _trace_side(vk, x0, P0, W0, W_end, n_steps, stop_after_fold):
     while queue:
         W = queue[0]
         try:
-            x, P, _ = vk.solve_deflection(W, x, P)
+            if len(history) > 1 and PREDICTOR_POINTS > 1:
+                xp, Pp = _predict(history, W)
+                x, P, _ = vk.solve_deflection(W, xp, Pp, predicted=True,
+                                              max_factorisations=STEP_FACTORISATIONS)
+            else:
+                x, P, _ = vk.solve_deflection(W, history[-1][2], history[-1][1],
+                                              max_factorisations=STEP_FACTORISATIONS)
         except NewtonError:
             fails += 1
             if fails > 5:
@@ -199,6 +229,7 @@ def _trace_side(vk, x0, P0, W0, W_end, n_steps, stop_after_fold):
         fails = 0
         queue.pop(0)
         out.append((W, P, x))
+        history.append((W, P, x))
         W_cur = W
         if folded():
             break
@@ -214,9 +245,8 @@ def trace_level(vk, pressures_pa, clearance_m=None, travel_m=None, full: bool = 
     h, ps = vk.h, vk.pressure_scale_pa
     x0, _ = vk.solve_pressure(0.0, vk.zero())
     W_b = float(vk.center @ vk.split(x0)[0])
-    _, H = vk._residual_tangent(x0, 0.0)
     f = np.concatenate([vk.unit_load, np.zeros(vk.n - vk.nq_dofs)])
-    compliance = float(vk.center @ vk.split(vk.factor(H).solve(f))[0]) * h / ps
+    compliance = float(vk.center @ vk.split(vk.tangent_lu_at(x0, 0.0).solve(f))[0]) * h / ps
     travel = clearance_m if clearance_m is not None else travel_m
     states = [(W_b, 0.0, x0)]
     stable = list(states)
