@@ -27,6 +27,8 @@ GREYS = ("black", "0.35", "0.55", "0.2", "0.45", "0.65")
 SEQUENTIAL_MAP = "cividis"
 #: resolution of the PNG files (print quality: a 7.6 in wide figure is 1140 px)
 DPI = 150
+#: draw the plots on two processes where the platform can fork
+PARALLEL = True
 #: longest wait (s) for the plots drawn by the forked child before drawing them here
 CHILD_TIMEOUT_S = 120.0
 #: smallest font size of any text in a plot (legends, tick labels), in points
@@ -161,9 +163,9 @@ class RenderedPlots:
     """The PNG bytes of each plot, drawn once: all of them on the first request, on two
     processes where the platform can fork (:func:`_render_parallel`)."""
 
-    def __init__(self, plots: list[Plot], parallel: bool = True):
+    def __init__(self, plots: list[Plot], parallel: bool | None = None):
         self.plots = list(plots)
-        self.parallel = parallel
+        self.parallel = PARALLEL if parallel is None else parallel
         self._png: dict[str, bytes] = {}
 
     def png(self, name: str) -> bytes:
