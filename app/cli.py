@@ -10,7 +10,6 @@ import argparse
 import json
 import logging
 import sys
-from importlib.metadata import PackageNotFoundError, version
 from pathlib import Path
 
 __all__ = ["main", "EXIT_OK", "EXIT_INTERNAL", "EXIT_INPUT", "EXIT_COLLAPSED"]
@@ -29,10 +28,24 @@ do not replace prototypes, measurement, the applicable safety codes or qualified
 
 
 def _version() -> str:
+    from importlib.metadata import PackageNotFoundError, version  # slow: only for --version
+
     try:
         return version("diagap")
     except PackageNotFoundError:  # pragma: no cover - running from a source tree
         return "0+unknown"
+
+
+class _VersionAction(argparse.Action):
+    """``--version``: looks the installed version up only when asked."""
+
+    def __init__(self, option_strings, dest=argparse.SUPPRESS, default=argparse.SUPPRESS,
+                 help="show program's version number and exit"):
+        super().__init__(option_strings, dest, nargs=0, default=default, help=help)
+
+    def __call__(self, parser, namespace, values, option_string=None):
+        parser._print_message(f"diagap {_version()}\n", sys.stdout)
+        parser.exit()
 
 
 class _Parser(argparse.ArgumentParser):
@@ -74,7 +87,7 @@ def build_parser() -> argparse.ArgumentParser:
         "air-gap electrostatics with a perforated backplate, pull-in, squeeze-film damping and "
         "noise, a lumped model and an audit of the textbook assumptions."),
         epilog=_EPILOG, formatter_class=argparse.RawDescriptionHelpFormatter)
-    parser.add_argument("--version", action="version", version=f"diagap {_version()}")
+    parser.add_argument("--version", action=_VersionAction)
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
 
     run = sub.add_parser("run", help="analyse a design (default: the built-in demo)",

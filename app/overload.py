@@ -53,8 +53,10 @@ def _capacitance(res, i, xq, yq, wq, c, gap_m):
 
 
 def large_deflection_section(design, problem, es, resp: dict | None = None,
-                             with_bias: bool = True):
-    """The ``large_deflection`` summary section (a :class:`diagap.stages.Section`)."""
+                             with_bias: bool = True, reference: bool = False):
+    """The ``large_deflection`` summary section (a :class:`diagap.stages.Section`);
+    ``reference``: solved by full Newton from unextrapolated starts (for checks of the default
+    chord iteration, see :func:`diagap.fem.plate.large_deflection.solve_large_deflection`)."""
     from diagap.dielectrics import effective_bias_v
     from diagap.fem.coupling.plate import load_from_density
     from diagap.fem.plate.large_deflection import ElectrostaticBias, solve_large_deflection
@@ -66,7 +68,7 @@ def large_deflection_section(design, problem, es, resp: dict | None = None,
     spl_a, p_a = audit_pressure_pa(resp)
     pressures = list(design.analysis.static_pressures_pa)
     plain = solve_large_deflection(problem, pressures + [p_a], acc, clearance_m=clearance,
-                                   both_signs=False)
+                                   both_signs=False, reference=reference)
     n = len(pressures)
     data = plain.to_summary()
     data.update({
@@ -86,7 +88,8 @@ def large_deflection_section(design, problem, es, resp: dict | None = None,
     rng = (density.gap_min_m, density.gap_max_m)
     bias = ElectrostaticBias(b.electrode_size_m, b.gap_m, effective_bias_v(design),
                              load_from_density(density, b.gap_m), rng)
-    biased = solve_large_deflection(problem, [0.0], acc, clearance_m=clearance, bias=bias)
+    biased = solve_large_deflection(problem, [0.0], acc, clearance_m=clearance, bias=bias,
+                                    reference=reference)
     xq, yq, wq = electrode_quadrature(design)
     c = _density_ext(density, *rng)
     caps = [_capacitance(biased, i, xq, yq, wq, c, b.gap_m)

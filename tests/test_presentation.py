@@ -279,6 +279,7 @@ def test_report_figures_drawn_once_at_print_resolution(demo, tmp_path, monkeypat
         return original(self, *args, **kw)
 
     monkeypatch.setattr(Figure, "savefig", counting)
+    monkeypatch.setattr("diagap.report.plots.PARALLEL", False)  # all drawn in this process
     written = write_outputs(demo, tmp_path / "out")
     pngs = [p for p in written if p.suffix == ".png"]
     assert len(pngs) >= 8

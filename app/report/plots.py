@@ -4,7 +4,8 @@ Each plot is a :class:`Plot` (file stem, title, caption, drawing function). :fun
 lists only the plots whose data were computed: a collapsed design (bias at or above pull-in) has
 no response, noise or distortion plots, an unperforated backplate no unit-cell plot.
 :class:`RenderedPlots` draws each plot once on first use, so the PNG files and the images embedded
-in report.html are the same bytes.
+in report.html are the same bytes; the plots are drawn on two processes (a forked child takes
+every other plot) where the platform allows it.
 
 Figures are drawn on matplotlib's Agg canvas without pyplot (no global backend, nothing left
 open). Lines are black or grey with distinct dash patterns and markers, so the plots stay
@@ -26,6 +27,10 @@ GREYS = ("black", "0.35", "0.55", "0.2", "0.45", "0.65")
 SEQUENTIAL_MAP = "cividis"
 #: resolution of the PNG files (print quality: a 7.6 in wide figure is 1140 px)
 DPI = 150
+#: draw the plots on two processes where the platform can fork
+PARALLEL = True
+#: longest wait (s) for the plots drawn by the forked child before drawing them here
+CHILD_TIMEOUT_S = 120.0
 #: smallest font size of any text in a plot (legends, tick labels), in points
 FONT_PT = 9
 _STYLE = {"font.size": 10, "axes.titlesize": 10, "axes.labelsize": 10, "legend.fontsize": FONT_PT,
@@ -100,18 +105,76 @@ def png_bytes(fig, dpi: int = DPI) -> bytes:
     return buf.getvalue()
 
 
-class RenderedPlots:
-    """The PNG bytes of each plot, drawn once on first request."""
+def _render(plots) -> dict[str, bytes]:
+    out = {}
+    with print_style():
+        for plot in plots:
+            out[plot.name] = png_bytes(plot.draw())
+    return out
 
-    def __init__(self, plots: list[Plot]):
+
+def _render_to(conn, plots) -> None:
+    """Forked child: the PNG bytes of ``plots`` sent through ``conn`` (None on any failure)."""
+    try:
+        conn.send(_render(plots))
+    except Exception:  # the parent then draws these plots itself
+        conn.send(None)
+    finally:
+        conn.close()
+
+
+def _render_parallel(plots) -> dict[str, bytes]:
+    """Draw ``plots`` split between this process and one forked child (two cores); without
+    ``fork`` (or on one core, or if the child fails) everything is drawn here."""
+    import multiprocessing as mp
+    import os
+
+    if len(plots) < 2 or (os.cpu_count() or 1) < 2 or mp.current_process().daemon or \
+            "fork" not in mp.get_all_start_methods():
+        return _render(plots)
+    theirs = plots[1::2]  # interleaved: the costly plots are spread over the report
+    ctx = mp.get_context("fork")
+    recv, send = ctx.Pipe(duplex=False)
+    try:
+        child = ctx.Process(target=_render_to, args=(send, theirs), daemon=True)
+        child.start()
+    except Exception:  # noqa: BLE001 - no child: draw everything here
+        recv.close()
+        send.close()
+        return _render(plots)
+    send.close()
+    try:
+        out = _render(plots[0::2])
+        got = None
+        try:
+            if recv.poll(CHILD_TIMEOUT_S):
+                got = recv.recv()
+        except (EOFError, OSError):
+            pass
+    finally:
+        if child.is_alive():
+            child.terminate()
+        child.join()
+        recv.close()
+    return out | (got if isinstance(got, dict) else _render(theirs))
+
+
+class RenderedPlots:
+    """The PNG bytes of each plot, drawn once: all of them on the first request, on two
+    processes where the platform can fork (:func:`_render_parallel`)."""
+
+    def __init__(self, plots: list[Plot], parallel: bool | None = None):
         self.plots = list(plots)
+        self.parallel = PARALLEL if parallel is None else parallel
         self._png: dict[str, bytes] = {}
 
     def png(self, name: str) -> bytes:
         if name not in self._png:
-            plot = next(p for p in self.plots if p.name == name)
-            with print_style():
-                self._png[name] = png_bytes(plot.draw())
+            todo = [p for p in self.plots if p.name not in self._png]
+            if self.parallel:
+                self._png.update(_render_parallel(todo))
+            else:
+                self._png.update(_render([next(p for p in todo if p.name == name)]))
         return self._png[name]
 
     def items(self):

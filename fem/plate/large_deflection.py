@@ -17,7 +17,10 @@ solves, else at the clearance itself). Deflections at
 requested pressures are solved by Newton with the pressure prescribed, started from the nearest
 traced state below (load continuation, halving the step on failure); pressures at or beyond the
 contact pressure give None. Contact is judged at the centre, the largest deflection under a
-uniform load.
+uniform load. Each trace step starts from the cubic extrapolation in w0 of the four states before
+it and reuses the last factorised tangent (chord iteration, :mod:`diagap.fem.plate.newton`); a
+step that needs more than ``STEP_FACTORISATIONS`` factorisations is abandoned and bisected. The
+equilibria are those of full Newton to the solver tolerance (tested against ``reference``).
 
 Errors: every quantity is computed on the two finest mesh levels of the accuracy setting
 (:mod:`diagap.fem.levels`) and the finest is reported with a Richardson estimate (order 2, the
@@ -45,6 +48,11 @@ __all__ = ["LargeDeflectionResult", "ElectrostaticBias", "solve_large_deflection
 STEP_THICKNESS = 0.5
 MIN_STEPS = 8
 MAX_STEPS = 12
+#: states extrapolated (polynomial in the centre deflection) to start each trace step; 1: start
+#: from the last state
+PREDICTOR_POINTS = 4
+#: tangent factorisations after which a trace step is abandoned (and bisected)
+STEP_FACTORISATIONS = 8
 
 
 @dataclass(frozen=True)
@@ -172,11 +180,32 @@ def _continue_pressure(vk, P_target, x, P):
     raise NewtonError(f"continuation to scaled pressure {P_target:.6g} failed")
 
 
-def _trace_side(vk, x0, P0, W0, W_end, n_steps, stop_after_fold):
+def _predict(history, W, points: int = PREDICTOR_POINTS):
+    """(x, P) at centre deflection W extrapolated from the last converged states of a trace
+    (Lagrange polynomial in W through up to ``points`` of them): the start of the next
+    Newton solve. With one state, that state itself (the first chord step is then the tangent
+    predictor)."""
+    pts = history[-points:]
+    Ws = [h[0] for h in pts]
+    if len(set(Ws)) < len(Ws):
+        return pts[-1][2].copy(), pts[-1][1]
+    x = np.zeros_like(pts[-1][2])
+    P = 0.0
+    for i, (Wi, Pi, xi) in enumerate(pts):
+        li = math.prod((W - Wj) / (Wi - Wj) for j, Wj in enumerate(Ws) if j != i)
+        x += li * xi
+        P += li * Pi
+    return x, P
+
+
+def _trace_side(vk, x0, P0, W0, W_end, n_steps, stop_after_fold, reference=False):
     """Displacement-controlled states from W0 to W_end: a list of (W, P, x). A step that fails is
     bisected (up to five times in a row); with ``stop_after_fold`` the trace ends once P has
-    passed its maximum (or a step fails beyond it: past the snap, the gap closes)."""
+    passed its maximum (or a step fails beyond it: past the snap, the gap closes). Each solve
+    starts from the extrapolation of the states before it (:func:`_predict`); ``reference``:
+    from the last state, with a fresh tangent at every Newton iterate."""
     out = []
+    history = [(W0, P0, x0)]
     x, P, W_cur = x0, P0, W0
     queue = list(np.linspace(W0, W_end, n_steps + 1)[1:])
     fails = 0
@@ -187,7 +216,13 @@ def _trace_side(vk, x0, P0, W0, W_end, n_steps, stop_after_fold):
     while queue:
         W = queue[0]
         try:
-            x, P, _ = vk.solve_deflection(W, x, P)
+            if len(history) > 1 and not reference:
+                xp, Pp = _predict(history, W)
+                x, P, _ = vk.solve_deflection(W, xp, Pp, predicted=True,
+                                              max_factorisations=STEP_FACTORISATIONS)
+            else:
+                x, P, _ = vk.solve_deflection(W, history[-1][2], history[-1][1],
+                                              max_factorisations=STEP_FACTORISATIONS)
         except NewtonError:
             fails += 1
             if fails > 5:
@@ -199,6 +234,7 @@ def _trace_side(vk, x0, P0, W0, W_end, n_steps, stop_after_fold):
         fails = 0
         queue.pop(0)
         out.append((W, P, x))
+        history.append((W, P, x))
         W_cur = W
         if folded():
             break
@@ -206,7 +242,7 @@ def _trace_side(vk, x0, P0, W0, W_end, n_steps, stop_after_fold):
 
 
 def trace_level(vk, pressures_pa, clearance_m=None, travel_m=None, full: bool = True,
-                both_signs: bool = True):
+                both_signs: bool = True, reference: bool = False):
     """Everything computed on one mesh level (see :func:`solve_large_deflection`); with
     ``full`` False (the coarse level, used only for the error estimates) the trace away from the
     backplate is skipped and the steps toward it are twice as long; ``both_signs`` False skips
@@ -214,9 +250,8 @@ def trace_level(vk, pressures_pa, clearance_m=None, travel_m=None, full: bool = 
     h, ps = vk.h, vk.pressure_scale_pa
     x0, _ = vk.solve_pressure(0.0, vk.zero())
     W_b = float(vk.center @ vk.split(x0)[0])
-    _, H = vk._residual_tangent(x0, 0.0)
     f = np.concatenate([vk.unit_load, np.zeros(vk.n - vk.nq_dofs)])
-    compliance = float(vk.center @ vk.split(vk.factor(H).solve(f))[0]) * h / ps
+    compliance = float(vk.center @ vk.split(vk.tangent_lu_at(x0, 0.0).solve(f))[0]) * h / ps
     travel = clearance_m if clearance_m is not None else travel_m
     states = [(W_b, 0.0, x0)]
     stable = list(states)
@@ -225,14 +260,14 @@ def trace_level(vk, pressures_pa, clearance_m=None, travel_m=None, full: bool = 
         W_end = travel / h
         step, fewest = (STEP_THICKNESS, MIN_STEPS) if full else (2 * STEP_THICKNESS, MIN_STEPS // 2)
         n = min(max(fewest, math.ceil(abs(W_end - W_b) / step)), MAX_STEPS)
-        up = _trace_side(vk, x0, 0.0, W_b, W_end, n, stop_after_fold=bool(vk.loads))
-        dn = _trace_side(vk, x0, 0.0, W_b, -W_end, n, stop_after_fold=False) \
+        up = _trace_side(vk, x0, 0.0, W_b, W_end, n, bool(vk.loads), reference)
+        dn = _trace_side(vk, x0, 0.0, W_b, -W_end, n, False, reference) \
             if full and both_signs else []
         states = dn[::-1] + states + up
         k = int(np.argmax([s[1] for s in up])) if up else -1
         stable = dn + stable + up[:k + 1]
         if clearance_m is not None:
-            contact = _contact(vk, up)
+            contact = _contact(vk, up, reference)
     results = []
     for p in pressures_pa:
         P = p / ps
@@ -248,7 +283,7 @@ def trace_level(vk, pressures_pa, clearance_m=None, travel_m=None, full: bool = 
             "compliance": compliance, "states": states}
 
 
-def _contact(vk, up):
+def _contact(vk, up, reference=False):
     """Scaled contact pressure: the maximum of P over the positive trace (fold or end point).
     An interior maximum (the fold) is refined by successive parabolic interpolation of P(W)
     through three bracketing states, each new point an exact bordered solve."""
@@ -266,7 +301,11 @@ def _contact(vk, up):
             break
         W_star = float(np.clip(-b / (2 * a), W.min(), W.max()))
         best = pts[int(np.argmax(Pw))]
-        x, P_star, _ = vk.solve_deflection(W_star, best[2], best[1])
+        if reference:
+            x, P_star, _ = vk.solve_deflection(W_star, best[2], best[1])
+        else:  # start from the interpolation between the bracketing states
+            x0, P0 = _predict(pts, W_star)
+            x, P_star, _ = vk.solve_deflection(W_star, x0, P0, predicted=True)
         far = int(np.argmax(np.abs(W - W_star)))
         pts[far] = (W_star, P_star, x)
         if abs(W_star - best[0]) <= 1e-4 * max(abs(W_star), 1.0):
@@ -284,7 +323,8 @@ def solve_large_deflection(problem, pressures_pa, accuracy: str = "normal",
                            clearance_m: float | None = None,
                            bias: ElectrostaticBias | None = None,
                            travel_m: float | None = None,
-                           both_signs: bool = True) -> LargeDeflectionResult:
+                           both_signs: bool = True,
+                           reference: bool = False) -> LargeDeflectionResult:
     """Centre deflection of the von Kármán diaphragm at uniform pressures, and contact.
 
     Parameters
@@ -296,10 +336,16 @@ def solve_large_deflection(problem, pressures_pa, accuracy: str = "normal",
     bias : electrostatic load of the bias (None: no bias)
     travel_m : travel of the traced curve when ``clearance_m`` is None (None: no curve)
     both_signs : also trace the curve away from the backplate (same travel)
+    reference : full Newton (a fresh tangent at every iterate) started from the last traced state
+        instead of the chord iteration from extrapolated starts; the same equilibria to the
+        solver tolerance, for checks of the fast path
     """
     systems = level_systems(problem, accuracy, bias)
+    for vk in systems:
+        vk.FULL_NEWTON = reference
     levels = [trace_level(vk, pressures_pa, clearance_m, travel_m,
-                          full=(i == len(systems) - 1), both_signs=both_signs)
+                          full=(i == len(systems) - 1), both_signs=both_signs,
+                          reference=reference)
               for i, vk in enumerate(systems)]
     coarse, fine = levels
     order = ORDER[problem.shape]

@@ -45,7 +45,12 @@ Discretisation: W in the constrained Argyris space of the linear solver (same DO
 units of h), U in P2 (Lagrange, vertex and edge-midpoint values, zero on the boundary), on the same
 mesh and quadrature (order 8). The polygonal disk boundary carries the O(h_edge²) geometric error
 of the linear solver. Pressures depending on w (the electrostatic load) enter as
-P(ξ, W) at the quadrature points with their derivative in the tangent.
+P(ξ, W) at the quadrature points with their derivative in the tangent. The equilibria are solved
+by Newton's method with a reused tangent (:mod:`diagap.fem.plate.newton`).
+
+Evaluation: the basis gradients at the quadrature points are stored per element as matrices
+G_e (2 n_q × n_basis, rows (direction, point)), so that fields, residuals and element tangents are
+batched matrix products (∇W = G_e w_e, r_e = G_eᵀ(n∇W dx), k_e = G_eᵀ M G_e).
 """
 from __future__ import annotations
 
@@ -53,14 +58,14 @@ from dataclasses import dataclass
 
 import numpy as np
 import scipy.sparse as sp
-import scipy.sparse.linalg as spla
 from skfem import CellBasis, ElementTriP2
+
+from diagap.fem.plate.gather import Gather
+from diagap.fem.plate.newton import ChordNewton, NewtonError
 
 __all__ = ["VonKarmanSystem", "build_von_karman", "NewtonError", "WLoad"]
 
 
-class NewtonError(RuntimeError):
-    """Newton's method did not converge (a load step too large, or past a limit point)."""
 
 
 @dataclass(frozen=True)
@@ -75,11 +80,6 @@ class WLoad:
     pressure: object
 
 
-def _gram(a: np.ndarray, b: np.ndarray, dx: np.ndarray) -> np.ndarray:
-    """Σ_q a_i b_j dx → (nel, ni, nj); a (ni, nel, nq), b (nj, nel, nq), dx (nel, nq)."""
-    return np.matmul(np.transpose(a * dx[None], (1, 0, 2)), np.transpose(b, (1, 2, 0)))
-
-
 def _scatter(rows: np.ndarray, cols: np.ndarray, local: np.ndarray, shape) -> sp.csr_matrix:
     """Sum element blocks (nel, ni, nj) at global (rows (ni, nel), cols (nj, nel))."""
     r = np.broadcast_to(rows.T[:, :, None], local.shape).ravel()
@@ -87,7 +87,36 @@ def _scatter(rows: np.ndarray, cols: np.ndarray, local: np.ndarray, shape) -> sp
     return sp.coo_matrix((local.ravel(), (r, c)), shape=shape).tocsr()
 
 
-class VonKarmanSystem:
+def _per_element(g: np.ndarray) -> np.ndarray:
+    """(2, nb, nel, nq) gradients → (nel, 2 nq, nb) element matrices, rows (direction, point)."""
+    nel, nq = g.shape[2:]
+    return np.ascontiguousarray(np.transpose(g, (2, 0, 3, 1))).reshape(nel, 2 * nq, g.shape[1])
+
+
+def _apply(G: np.ndarray, ve: np.ndarray) -> np.ndarray:
+    """G_e v_e for element values ve (nb, nel) → (2, nel, nq) gradient components."""
+    nel = G.shape[0]
+    out = np.matmul(G, ve.T[:, :, None])[:, :, 0].reshape(nel, 2, -1)
+    return np.transpose(out, (1, 0, 2))
+
+
+def _apply_t(G: np.ndarray, v: np.ndarray) -> np.ndarray:
+    """Σ_(a,q) G_e[(a,q), i] v[a, e, q] for v (2, nel, nq) → (nel, nb)."""
+    nel = G.shape[0]
+    return np.matmul(np.transpose(v, (1, 0, 2)).reshape(nel, 1, -1), G)[:, 0, :]
+
+
+def _weighted(G: np.ndarray, M, nq: int) -> np.ndarray:
+    """(M G_e) with M a 2×2 array of (nel, nq) weights per point: (nel, 2 nq, nb)."""
+    nel, _, nb = G.shape
+    G4 = G.reshape(nel, 2, nq, nb)
+    out = np.empty_like(G4)
+    for a in range(2):
+        out[:, a] = M[a][0][:, :, None] * G4[:, 0] + M[a][1][:, :, None] * G4[:, 1]
+    return out.reshape(nel, 2 * nq, nb)
+
+
+class VonKarmanSystem(ChordNewton):
     """The scaled von Kármán system on one mesh (see the module docstring).
 
     Unknowns x = [q̂, Û]: q̂ the constrained Argyris coefficients of W = w/h (those of
@@ -109,28 +138,34 @@ class VonKarmanSystem:
         self.BT = plate.B.T.tocsr()
         basis = plate.basis
         self.adofs = np.asarray(basis.element_dofs)
+        self._adofs_e = np.ascontiguousarray(self.adofs.T).ravel()  # element-major
         self.dx = np.asarray(basis.dx)
+        self.nq = self.dx.shape[1]
         _, g, _ = basis.elem.fields(basis.mapping, basis.X, basis.tind)
-        self.ga = g  # (2, 21, nel, nq) Argyris gradients (ξ)
-        self.value = np.asarray([np.asarray(basis.basis[i][0]) for i in range(21)])
+        self.GA = _per_element(np.asarray(g))  # (nel, 2 nq, 21) Argyris gradients (ξ)
+        value = np.asarray([np.asarray(basis.basis[i][0]) for i in range(21)])  # (21, nel, nq)
+        self.VAL = np.ascontiguousarray(np.transpose(value, (1, 2, 0)))  # (nel, nq, 21)
         pb = CellBasis(plate.mesh, ElementTriP2(), quadrature=(basis.X, basis.W))
-        self.gp = np.stack([np.stack([np.asarray(pb.basis[i][0].grad[a]) for i in range(6)])
-                            for a in range(2)])  # (2, 6, nel, nq)
+        gp = np.stack([np.stack([np.asarray(pb.basis[i][0].grad[a]) for i in range(6)])
+                       for a in range(2)])  # (2, 6, nel, nq)
+        self.GP = _per_element(gp)  # (nel, 2 nq, 6)
         npd = pb.N
         free = np.setdiff1d(np.arange(npd), pb.get_dofs().all())
         self.S = sp.csr_matrix((np.ones(free.size), (free, np.arange(free.size))),
                                shape=(npd, free.size))
         self.S2 = sp.block_diag([self.S, self.S]).tocsr()
         self.udofs = np.vstack([pb.element_dofs, pb.element_dofs + npd])  # (12, nel)
+        self._udofs_e = np.ascontiguousarray(
+            np.hstack([pb.element_dofs.T, pb.element_dofs.T + npd])).ravel()
         self.n_u_full = 2 * npd
         self.nq_dofs = self.B.shape[1]
         self.n = self.nq_dofs + 2 * free.size
-        self.unit_load = self.BT @ np.asarray(
-            np.bincount(self.adofs.ravel(), weights=np.einsum("ieq,eq->ie", self.value,
-                                                              self.dx).ravel(),
-                        minlength=self.B.shape[0]))
+        self.unit_load = self.BT @ np.bincount(
+            self._adofs_e, weights=np.einsum("eqi,eq->ei", self.VAL, self.dx).ravel(),
+            minlength=self.B.shape[0])
         self.center = plate.point_functional(0.0, 0.0)
         self.loads = tuple(loads)
+        self._load_val = [self.VAL[ld.elements] for ld in self.loads]
         self.H_uu = self._uu_matrix()
 
     # -- fields at the quadrature points ---------------------------------------------------
@@ -139,11 +174,9 @@ class VonKarmanSystem:
 
     def _fields(self, x: np.ndarray):
         q, U = self.split(x)
-        we = (self.B @ q)[self.adofs]  # (21, nel)
-        s = np.einsum("aieq,ie->aeq", self.ga, we, optimize=True)
+        s = _apply(self.GA, (self.B @ q)[self.adofs])  # ∇W, (2, nel, nq)
         Ue = (self.S2 @ U)[self.udofs]  # (12, nel)
-        gu1 = np.einsum("aieq,ie->aeq", self.gp, Ue[:6], optimize=True)
-        gu2 = np.einsum("aieq,ie->aeq", self.gp, Ue[6:], optimize=True)
+        gu1, gu2 = _apply(self.GP, Ue[:6]), _apply(self.GP, Ue[6:])
         e11 = gu1[0] + 0.5 * s[0] ** 2
         e22 = gu2[1] + 0.5 * s[1] ** 2
         gam = gu1[1] + gu2[0] + s[0] * s[1]
@@ -154,41 +187,57 @@ class VonKarmanSystem:
     def deflection_qp_m(self, x: np.ndarray) -> np.ndarray:
         """w (m) at the quadrature points, shape (nel, nq)."""
         we = (self.B @ self.split(x)[0])[self.adofs]
-        return self.h * np.einsum("ieq,ie->eq", self.value, we, optimize=True)
+        return self.h * np.matmul(self.VAL, we.T[:, :, None])[:, :, 0]
 
     def center_deflection_m(self, x: np.ndarray) -> float:
         return self.h * float(self.center @ self.split(x)[0])
 
     # -- energy, gradient, Hessian -----------------------------------------------------------
     def _uu_matrix(self) -> sp.csr_matrix:
-        gx, gy = self.gp
         c = 6 * (1 - self.nu)
-        k11 = 12 * _gram(gx, gx, self.dx) + c * _gram(gy, gy, self.dx)
-        k22 = 12 * _gram(gy, gy, self.dx) + c * _gram(gx, gx, self.dx)
-        k12 = 12 * self.nu * _gram(gx, gy, self.dx) + c * _gram(gy, gx, self.dx)
+        nq, dx, GP = self.nq, self.dx, self.GP
+        zero = np.zeros_like(dx)
+
+        def block(M):
+            return np.matmul(np.transpose(GP, (0, 2, 1)), _weighted(GP, M, nq))
+
+        # sym∇Ψ : C_s sym∇δU per component pair (a: component of Ψ, b: of δU)
+        k11 = block([[12 * dx, zero], [zero, c * dx]])
+        k22 = block([[c * dx, zero], [zero, 12 * dx]])
+        k12 = block([[zero, 12 * self.nu * dx], [c * dx, zero]])
         ke = np.block([[k11, k12], [np.transpose(k12, (0, 2, 1)), k22]])
         K = _scatter(self.udofs, self.udofs, ke, (self.n_u_full,) * 2)
         return (self.S2.T @ K @ self.S2).tocsr()
 
+    def _gather(self) -> Gather:
+        """The fixed map from element tangent blocks to the reduced tangent (built on first use)."""
+        if getattr(self, "_gather_map", None) is None:
+            Nw = self.B.shape[0]
+            a, u = self.adofs.T, self.udofs.T + Nw
+            blocks = [(a, a), (u, a), (a, u)] + [(self.adofs[:, ld.elements].T,) * 2
+                                                 for ld in self.loads]
+            P = sp.block_diag([self.B, self.S2], format="csr")
+            self._gather_map = Gather(P, blocks, sp.block_diag([self.K_lin, self.H_uu]))
+        return self._gather_map
+
     def _external(self, x: np.ndarray, with_tangent: bool):
-        """Scaled load vector (and tangent −∂F/∂q̂) of the deflection-dependent pressures."""
+        """Scaled load vector and the element blocks of its tangent −∂F/∂q̂ (unconstrained
+        Argyris indices) for the deflection-dependent pressures."""
         F = np.zeros(self.nq_dofs)
-        T = None
+        T = []
         if not self.loads:
             return F, T
         w = self.deflection_qp_m(x)
-        for ld in self.loads:
+        for ld, phi in zip(self.loads, self._load_val):
             el = ld.elements
             p, dp = ld.pressure(w[el])
-            phi, dx = self.value[:, el], self.dx[el]
-            fe = np.einsum("ieq,eq->ie", phi, p * dx) / self.pressure_scale_pa
-            F += self.BT @ np.bincount(self.adofs[:, el].ravel(), weights=fe.ravel(),
-                                       minlength=self.B.shape[0])
+            dx = self.dx[el]
+            fe = np.matmul((p * dx / self.pressure_scale_pa)[:, None, :], phi)[:, 0, :]
+            F += self.BT @ np.bincount(np.ascontiguousarray(self.adofs[:, el].T).ravel(),
+                                       weights=fe.ravel(), minlength=self.B.shape[0])
             if with_tangent:
-                ke = _gram(phi * (dp * self.h / self.pressure_scale_pa)[None], phi, dx)
-                Kt = _scatter(self.adofs[:, el], self.adofs[:, el], ke, (self.B.shape[0],) * 2)
-                Kt = -(self.BT @ Kt @ self.B)
-                T = Kt if T is None else T + Kt
+                wt = dp * self.h / self.pressure_scale_pa * dx
+                T.append(-np.matmul(np.transpose(phi, (0, 2, 1)), wt[:, :, None] * phi))
         return F, T
 
     def energy_parts(self, x: np.ndarray) -> dict:
@@ -206,141 +255,35 @@ class VonKarmanSystem:
     def _residual_tangent(self, x, P, with_tangent: bool = True):
         q, U = self.split(x)
         s, n, _ = self._fields(x)
-        ns = np.stack([n[0] * s[0] + n[2] * s[1], n[2] * s[0] + n[1] * s[1]])
-        ga, gp, dx = self.ga, self.gp, self.dx
-        rw = np.einsum("aieq,aeq->ie", ga, ns * dx[None], optimize=True)
-        r1 = np.einsum("ieq,eq->ie", gp[0], n[0] * dx) + np.einsum("ieq,eq->ie", gp[1], n[2] * dx)
-        r2 = np.einsum("ieq,eq->ie", gp[1], n[1] * dx) + np.einsum("ieq,eq->ie", gp[0], n[2] * dx)
+        dx = self.dx
+        ns = np.stack([(n[0] * s[0] + n[2] * s[1]) * dx, (n[2] * s[0] + n[1] * s[1]) * dx])
+        rw = _apply_t(self.GA, ns)  # (nel, 21)
+        r1 = _apply_t(self.GP, np.stack([n[0] * dx, n[2] * dx]))
+        r2 = _apply_t(self.GP, np.stack([n[2] * dx, n[1] * dx]))
         Nw = self.B.shape[0]
-        gw = self.BT @ np.bincount(self.adofs.ravel(), weights=rw.ravel(), minlength=Nw)
-        gu = self.S2.T @ np.bincount(self.udofs.ravel(), weights=np.vstack([r1, r2]).ravel(),
+        gw = self.BT @ np.bincount(self._adofs_e, weights=rw.ravel(), minlength=Nw)
+        gu = self.S2.T @ np.bincount(self._udofs_e, weights=np.hstack([r1, r2]).ravel(),
                                      minlength=self.n_u_full)
         F, Tload = self._external(x, with_tangent)
         res = np.concatenate([self.K_lin @ q + gw - P * self.unit_load - F, gu])
         if not with_tangent:
             return res, None
-        nu = self.nu
+        nu, nq, GA, GP = self.nu, self.nq, self.GA, self.GP
         ss = s[0] ** 2 + s[1] ** 2
-        M = [[n[0] + 6 * (1 - nu) * ss + 6 * (1 + nu) * s[0] ** 2, n[2] + 6 * (1 + nu) * s[0] * s[1]],
-             [None, n[1] + 6 * (1 - nu) * ss + 6 * (1 + nu) * s[1] ** 2]]
-        M[1][0] = M[0][1]
-        kww = sum(_gram(ga[a] * M[a][b][None], ga[b], dx) for a in range(2) for b in range(2))
+        m01 = (n[2] + 6 * (1 + nu) * s[0] * s[1]) * dx
+        M = [[(n[0] + 6 * (1 - nu) * ss + 6 * (1 + nu) * s[0] ** 2) * dx, m01],
+             [m01, (n[1] + 6 * (1 - nu) * ss + 6 * (1 + nu) * s[1] ** 2) * dx]]
+        kww = np.matmul(np.transpose(GA, (0, 2, 1)), _weighted(GA, M, nq))
         c = 6 * (1 - nu)
-        Q1 = [[12 * s[0], 12 * nu * s[1]], [c * s[1], c * s[0]]]
-        Q2 = [[c * s[1], c * s[0]], [12 * nu * s[0], 12 * s[1]]]
-        k1 = sum(_gram(gp[a] * Q1[a][b][None], ga[b], dx) for a in range(2) for b in range(2))
-        k2 = sum(_gram(gp[a] * Q2[a][b][None], ga[b], dx) for a in range(2) for b in range(2))
-        Hww = self.BT @ _scatter(self.adofs, self.adofs, kww, (Nw, Nw)) @ self.B + self.K_lin
-        if Tload is not None:
-            Hww = Hww + Tload
-        Huw = self.S2.T @ _scatter(self.udofs, self.adofs, np.concatenate([k1, k2], axis=1),
-                                   (self.n_u_full, Nw)) @ self.B
-        H = sp.bmat([[Hww, Huw.T], [Huw, self.H_uu]], format="csc")
+        Q1 = [[12 * s[0] * dx, 12 * nu * s[1] * dx], [c * s[1] * dx, c * s[0] * dx]]
+        Q2 = [[c * s[1] * dx, c * s[0] * dx], [12 * nu * s[0] * dx, 12 * s[1] * dx]]
+        GPt = np.transpose(GP, (0, 2, 1))
+        k1 = np.matmul(GPt, _weighted(GA, Q1, nq))
+        k2 = np.matmul(GPt, _weighted(GA, Q2, nq))
+        kuw = np.concatenate([k1, k2], axis=1)
+        # H is symmetric: the CSR arrays of the assembled pattern serve as its CSC storage
+        H = self._gather().matrix([kww, kuw, np.transpose(kuw, (0, 2, 1)), *Tload], "csc")
         return res, H
-
-    # -- Newton ------------------------------------------------------------------------------
-    # The tangent is factorised at the start of a solve and reused (chord iterations) while the
-    # iteration contracts by at least CONTRACTION per step; otherwise it is refactorised at the
-    # current iterate (full Newton). The factorisation is kept for the next load step.
-    CONTRACTION = 0.25
-
-    @staticmethod
-    def factor(H):
-        try:
-            return spla.splu(H, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.0,
-                             options={"SymmetricMode": True})
-        except RuntimeError:
-            return spla.splu(H)
-
-    def _refactor(self, x, P):
-        _, H = self._residual_tangent(x, P)
-        try:
-            self._lu = self.factor(H)
-        except RuntimeError as exc:  # exactly singular tangent
-            self._lu = None
-            raise NewtonError(f"singular tangent at scaled pressure {P:.6g}") from exc
-        self._lu_f = None
-        return self._lu
-
-    def _size(self, x: np.ndarray) -> float:
-        return float(np.max(np.abs(self.split(x)[0])))
-
-    def _step(self, x, P, step_fn, state):
-        """One chord/Newton step; step_fn(lu) → increment. Refactors on slow contraction."""
-        if getattr(self, "_lu", None) is None or state["fresh_needed"]:
-            self._refactor(x, P)
-            state["fresh"] = True
-        dx = step_fn(self._lu)
-        nd = self._size(dx)
-        prev = state.get("prev")
-        if not state["fresh"] and prev is not None and not nd <= self.CONTRACTION * prev:
-            self._refactor(x, P)
-            dx = step_fn(self._lu)
-            nd = self._size(dx)
-        state["fresh"] = False
-        state["fresh_needed"] = False
-        state["prev"] = nd
-        return dx, nd
-
-    def solve_pressure(self, P: float, x0: np.ndarray, tol: float = 1e-9, maxit: int = 40):
-        """Equilibrium at the scaled uniform pressure P from the start x0; returns (x, lu).
-        The stored tangent is reused only if x0 is the last converged state (a load ramp: the
-        first step is then the tangent predictor); otherwise it is factorised afresh at x0."""
-        x = x0.copy()
-        state = {"fresh_needed": x0 is not getattr(self, "_last_x", None), "fresh": False}
-        for _ in range(maxit):
-            r = self.residual(x, P)
-            if not np.all(np.isfinite(r)):
-                break
-            dx, nd = self._step(x, P, lambda lu: -lu.solve(r), state)
-            if not np.isfinite(nd):
-                break
-            x += dx
-            if nd <= tol * max(self._size(x), 1e-12):
-                self._last_x = x
-                return x, self._lu
-        self._lu = None
-        raise NewtonError(f"no convergence at scaled pressure {P:.6g}")
-
-    def _f_solve(self, lu, f):
-        if getattr(self, "_lu_f", None) is None:
-            self._lu_f = lu.solve(f)
-        return self._lu_f
-
-    def solve_deflection(self, W0: float, x0: np.ndarray, P0: float, tol: float = 1e-9,
-                         maxit: int = 40):
-        """Equilibrium with the centre deflection prescribed (W0 = w0/h), the uniform pressure
-        an unknown (bordered Newton; passes limit points of P(W0)). Returns (x, P, lu)."""
-        x, P = x0.copy(), float(P0)
-        f = np.concatenate([self.unit_load, np.zeros(self.n - self.nq_dofs)])
-        c = np.concatenate([self.center, np.zeros(self.n - self.nq_dofs)])
-        state = {"fresh_needed": x0 is not getattr(self, "_last_x", None), "fresh": False}
-        out = {}
-
-        def step(lu):
-            a, b = lu.solve(-r), self._f_solve(lu, f)
-            dP = (W0 - c @ x - c @ a) / (c @ b)
-            out["dP"] = dP
-            return a + dP * b
-
-        for _ in range(maxit):
-            r = self.residual(x, P)
-            if not np.all(np.isfinite(r)):
-                break
-            dx, nd = self._step(x, P, step, state)
-            if not np.isfinite(nd):
-                break
-            x += dx
-            P += out["dP"]
-            if nd <= tol * max(self._size(x), 1e-12) and \
-                    abs(out["dP"]) <= tol * max(abs(P), 1e-12):
-                self._last_x = x
-                return x, P, self._lu
-        self._lu = None
-        raise NewtonError(f"no convergence at scaled centre deflection {W0:.6g}")
-
-    def zero(self) -> np.ndarray:
-        return np.zeros(self.n)
 
 
 def build_von_karman(plate, thickness_m: float, loads: tuple = ()) -> VonKarmanSystem:
