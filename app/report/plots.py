@@ -114,7 +114,15 @@ def _render(plots) -> dict[str, bytes]:
 
 
 def _render_to(conn, plots) -> None:
-    """Forked child: the PNG bytes of ``plots`` sent through ``conn`` (None on any failure)."""
+    """Forked child: the PNG bytes of ``plots`` sent through ``conn`` (None on any failure).
+
+    The child draws only: the run's signal handlers (which clean the output folder up on
+    SIGTERM/SIGHUP) are the parent's business, so the child takes the default actions."""
+    import signal
+
+    for name in ("SIGTERM", "SIGHUP", "SIGINT"):
+        if hasattr(signal, name):
+            signal.signal(getattr(signal, name), signal.SIG_DFL)
     try:
         conn.send(_render(plots))
     except Exception:  # the parent then draws these plots itself
