@@ -145,9 +145,11 @@ def test_resumes_without_computing_finished_samples(tmp_path):
     ({"inputs": {"backplate.gap": "normal 1 %"}, "spec": ["response.snr_db ~ 3"]}, "PATH"),
     ({"inputs": {"backplate.gap": "normal 1 %"}, "spec": ["resp.snr_db <= 3"]}, "section"),
     ({"inputs": {"backplate.gap": "normal 1 %"}, "spec": ["response.snr_db = 3"]}, "tolerance"),
-    ({"inputs": {"backplate.gap": "normal 1 %"}, "method": "grid"}, "method"),
+    ({"inputs": {"backplate.gap": "normal 1 %"}, "method": "grid",
+      "outputs": ["response.snr_db"]}, "method"),
     ({"inputs": {"backplate.gap": "normal 1 %", "diaphragm.thickness": "normal 1 %"},
-      "correlations": {"backplate.gap, diaphragm.thickness": 1.5}}, "-1, 1"),
+      "correlations": {"backplate.gap, diaphragm.thickness": 1.5},
+      "outputs": ["response.snr_db"]}, "-1, 1"),
     ({"inputs": {"backplate.gap": "normal 1 %"}, "samplez": 3}, "unknown key"),
 ])
 def test_bad_sections_are_one_line_errors(table, match):
