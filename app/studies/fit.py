@@ -188,7 +188,7 @@ def fit_cv(model, biases_v, capacitances_f, free=DEFAULT_FREE, *, start: dict | 
             return np.full(C.size, penalty)
 
     sol = least_squares(residuals, x0, bounds=(lo, hi), x_scale=1.0, diff_step=1e-5,
-                        xtol=1e-10, ftol=1e-10, gtol=1e-10)
+                        xtol=1e-8, ftol=1e-10, gtol=1e-10)
     values = tuple(float(v) for v in sol.x * scales)
     ci, corr, cond, warns = confidence_intervals(sol.jac, sol.fun, values, scales)
     at_bound = [p for p, x, a, b in zip(paths, sol.x, lo, hi)
