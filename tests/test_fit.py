@@ -117,3 +117,39 @@ def test_unknown_free_value_is_refused(model, clean):
     V, C = clean
     with pytest.raises(DesignError, match="can vary"):
         fit_cv(model, V, C, free=("backplate.hole_radius",))
+
+
+@pytest.mark.parametrize("text, match", [
+    ("bias (V),capacitance (pF)\n0,1.7\n5,abc\n", "not a number"),
+    ("bias (V),charge (pC)\n0,1.7\n", "no column 'capacitance"),
+    ("bias (V),capacitance (m)\n0,1.7\n", "dimension"),
+    ("", "empty"),
+])
+def test_fit_command_bad_csv_exits_2_without_outputs(tmp_path, capsys, text, match):
+    import re
+
+    from diagap.cli import main
+
+    csv_file = tmp_path / "cv.csv"
+    csv_file.write_text(text, encoding="utf-8")
+    design = tmp_path / "d.toml"
+    design.write_text("[diaphragm]\nradius = \"0.5 mm\"\nthickness = \"1 um\"\n"
+                      "material = \"polysilicon\"\n[backplate]\ngap = \"4 um\"\n"
+                      "thickness = \"2 um\"\nelectrode_radius = \"0.45 mm\"\n"
+                      "hole_lattice = \"hex\"\nhole_radius = \"4 um\"\nhole_pitch = \"20 um\"\n",
+                      encoding="utf-8")
+    out = tmp_path / "out"
+    assert main(["fit", str(design), "--cv", str(csv_file), "-o", str(out)]) == 2
+    err = capsys.readouterr().err
+    assert len(err.strip().splitlines()) == 1 and re.search(match, err)
+    assert not out.exists()
+
+
+def test_csv_units_are_converted_to_si(tmp_path):
+    from diagap.studies.files import read_curve
+
+    f = tmp_path / "cv.csv"
+    f.write_text("# measured\ncapacitance (pF),bias (mV)\n1.5,2000\n1.6,-3000\n", encoding="utf-8")
+    d = read_curve(f, {"bias": "V", "capacitance": "F"})
+    assert d["bias"].tolist() == pytest.approx([2.0, -3.0], rel=1e-12, abs=0)
+    assert d["capacitance"].tolist() == pytest.approx([1.5e-12, 1.6e-12], rel=1e-12, abs=0)

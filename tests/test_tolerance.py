@@ -156,3 +156,67 @@ def test_bad_sections_are_one_line_errors(table, match):
     with pytest.raises(DesignError, match=match) as info:
         parse_tolerances(table, demo_design())
     assert "\n" not in str(info.value)
+
+
+STUDY_TOML = """
+name = "invented tolerance case"
+[diaphragm]
+radius = "0.5 mm"
+thickness = "1 um"
+material = "polysilicon"
+residual_stress = "10 MPa"
+[backplate]
+gap = "4 um"
+thickness = "2 um"
+electrode_radius = "0.45 mm"
+hole_lattice = "hex"
+hole_radius = "4 um"
+hole_pitch = "20 um"
+[electrical]
+bias_voltage = "10 V"
+bias_resistance = "10 Gohm"
+[analysis]
+accuracy = "draft"
+[tolerances]
+samples = 2
+spec = ["coupled.pull_in_voltage_v >= 1 V"]
+[tolerances.inputs]
+"backplate.gap" = "uniform 2 %"
+"""
+
+
+def test_command_end_to_end_with_the_pipeline(tmp_path):
+    """Two samples through the full FE pipeline at draft accuracy: the output contract."""
+    from diagap.cli import main
+
+    f = tmp_path / "d.toml"
+    f.write_text(STUDY_TOML, encoding="utf-8")
+    out = tmp_path / "out"
+    assert main(["tolerance", str(f), "-o", str(out), "--exact", "--no-progress"]) == 0
+    doc = json.loads((out / "tolerance.json").read_text())
+    assert doc["samples"] == 2 and doc["yield"] == 1.0
+    s = doc["outputs"]["coupled.pull_in_voltage_v"]
+    assert s["p05"] <= s["p50"] <= s["p95"] and s["mean"] > 1.0
+    assert doc["evaluator"] == "exact"
+    assert (out / "plots" / "coupled.pull_in_voltage_v.png").is_file()
+
+
+@pytest.mark.parametrize("section, match", [
+    ('[tolerances]\nsamples = 2\n[tolerances.inputs]\n"backplate.gap" = "wide 2 %"\n',
+     "normal or uniform"),
+    ("", "no \\[tolerances\\] section"),
+])
+def test_command_bad_section_exits_2_without_outputs(tmp_path, capsys, section, match):
+    from diagap.cli import main
+
+    head = STUDY_TOML.split("[tolerances]")[0]
+    f = tmp_path / "d.toml"
+    f.write_text(head + section, encoding="utf-8")
+    out = tmp_path / "out"
+    assert main(["tolerance", str(f), "-o", str(out)]) == 2
+    err = capsys.readouterr().err
+    assert len(err.strip().splitlines()) == 1
+    import re
+
+    assert re.search(match, err)
+    assert not out.exists()
