@@ -153,3 +153,32 @@ def test_csv_units_are_converted_to_si(tmp_path):
     d = read_curve(f, {"bias": "V", "capacitance": "F"})
     assert d["bias"].tolist() == pytest.approx([2.0, -3.0], rel=1e-12, abs=0)
     assert d["capacitance"].tolist() == pytest.approx([1.5e-12, 1.6e-12], rel=1e-12, abs=0)
+
+
+def flat_level(values, freqs_hz):
+    """An invented smooth level (dB) falling with stress and gap, flat in frequency: the test
+    checks the weighting and the joint fit, not the physics of the response."""
+    s = values.get("diaphragm.residual_stress", 10e6)
+    g = values.get("backplate.gap", 4e-6)
+    return np.full(np.size(freqs_hz), 20 * np.log10(1e-2 * (10e6 / s) * (4e-6 / g)))
+
+
+def test_joint_fit_with_a_response_narrows_the_intervals(model, clean):
+    """Adding independent data on the same parameters cannot widen the asymptotic intervals
+    (the information matrices add: JᵀJ grows); both fits bracket the truth."""
+    V, C = clean
+    rng = np.random.default_rng(5)
+    data = C + NOISE_F * rng.standard_normal(V.size)
+    f = np.logspace(2, 4, 12)
+    level = flat_level(TRUTH, f) + 0.02 * rng.standard_normal(f.size)
+    alone = fit_cv(model, V, data, start=TRUTH, error_estimate=False)
+    joint = fit_cv(model, V, data, start=TRUTH, error_estimate=False, response=(f, level),
+                   response_model=flat_level)
+    for res in (alone, joint):
+        for path, (lo, hi) in zip(res.paths, res.ci95):
+            assert lo < TRUTH[path] < hi
+    w_alone = alone.ci95[0][1] - alone.ci95[0][0]
+    w_joint = joint.ci95[0][1] - joint.ci95[0][0]
+    assert w_joint < w_alone
+    doc = joint.to_json()
+    assert doc["response"]["rms_residual_db"] == pytest.approx(0.02, rel=0.6, abs=0)

@@ -69,6 +69,9 @@ def add_parsers(sub, add_common) -> None:
                        "bad input (one line on stderr, no outputs written).")
     f.add_argument("design", help="design file (TOML): the nominal design")
     f.add_argument("--cv", required=True, metavar="FILE.csv", help="the measured C-V curve")
+    f.add_argument("--response", metavar="FILE.csv", help="a measured frequency response "
+                   "fitted together with the C-V curve (header such as 'frequency (Hz),"
+                   "sensitivity (dB re 1 V/Pa)'; each evaluation runs the pipeline)")
     f.add_argument("--free", metavar="PATH,PATH", help="free design values (default "
                    "diaphragm.residual_stress,backplate.gap)")
     f.add_argument("-o", "--out", default="diagap-fit", help="output folder")
@@ -163,31 +166,39 @@ def _cmd_fit(args) -> int:
     from diagap.studies.fit import DEFAULT_FREE, fit_cv
     from diagap.studies.plots import cv_fit
 
-    from diagap.studies.spec import STUDY_SECTIONS, load_study
-
-    try:
-        design = load_design(args.design)
-    except Exception:  # a file with study sections: read the design without them
-        design, _ = load_study(args.design, STUDY_SECTIONS[0])
+    design = load_design(args.design)
     if args.accuracy:
         design = design.with_accuracy(args.accuracy)
     free = tuple(s.strip() for s in args.free.split(",")) if args.free else DEFAULT_FREE
     data = read_curve(args.cv, {"bias": "V", "capacitance": "F"})
+    response = None
+    if args.response:
+        r = read_curve(args.response, {"frequency": "Hz", "sensitivity|level|magnitude": "dB"})
+        response = (r["frequency"], r["sensitivity|level|magnitude"])
     from diagap.cli import check_output_folder
 
     check_output_folder(Path(args.out))
     model = CVModel(design)
-    res = fit_cv(model, data["bias"], data["capacitance"], free)
+    res = fit_cv(model, data["bias"], data["capacitance"], free, response=response)
     doc = res.to_json()
-    write_study_files(Path(args.out), [
-        ("fit.json", lambda p: p.write_text(json_text(doc), encoding="utf-8")),
-        ("plots/cv_fit.png",
-         lambda p: cv_fit(res.biases_v, res.measured_f, res.fitted_f, p))])
+    files = [("fit.json", lambda p: p.write_text(json_text(doc), encoding="utf-8")),
+             ("plots/cv_fit.png",
+              lambda p: cv_fit(res.biases_v, res.measured_f, res.fitted_f, p))]
+    if response is not None:
+        from diagap.studies.plots import response_fit
+
+        r = doc["response"]
+        files.append(("plots/response_fit.png", lambda p: response_fit(
+            response[0], response[1], r["fitted_db"], p)))
+    write_study_files(Path(args.out), files)
     for k, v in doc["parameters"].items():
         lo, hi = v["ci95"]
         ci = "not identifiable" if lo is None else f"95 % interval [{lo:.6g}, {hi:.6g}]"
         print(f"  {k} = {v['value']:.6g} {v['unit']} ({ci})")
     print(f"rms residual: {res.rms_residual * 1e15:.3g} fF over {res.biases_v.size} points")
+    if response is not None:
+        print(f"response: rms residual {doc['response']['rms_residual_db']:.3g} dB over "
+              f"{doc['response']['points']} points")
     for w in res.warnings:
         print(f"diagap: warning: {w}", file=sys.stderr)
     print(f"outputs written to {Path(args.out)}/")

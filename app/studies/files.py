@@ -1,6 +1,7 @@
 """Study files: measured curves read from CSV, and outputs written all at once with their plots.
 
 Measured CSV: a header row naming each column's quantity and unit, ``bias (V),capacitance (pF)``
+or ``frequency (Hz),sensitivity (dB re 1 V/Pa)``
 (units with pint, the grammar of :mod:`diagap.quantities`; the column order is free), then one
 row of numbers per point. Blank lines and lines starting with ``#`` are skipped.
 
@@ -61,15 +62,23 @@ def read_curve(path, columns: dict) -> dict:
     _, header = rows[0]
     index, factor = {}, {}
     for want, unit in columns.items():
+        names = want.split("|")
         for j, h in enumerate(header):
             m = _HEADER.fullmatch(h)
-            if m and m.group("name").lower().startswith(want):
+            if m and any(m.group("name").lower().startswith(n) for n in names):
                 where = f"{p}: column {h.strip()!r}"
-                factor[want] = quantity_text(where, f"1 {m.group('unit').strip()}", Field(unit))
+                text = m.group("unit").strip()
+                if unit == "dB":  # a level: "dB", "dB re 1 V/Pa"
+                    if not text.lower().startswith("db"):
+                        raise DesignError(f"{where}: expected a level in dB, e.g. "
+                                          f"'sensitivity (dB re 1 V/Pa)'")
+                    factor[want] = 1.0
+                else:
+                    factor[want] = quantity_text(where, f"1 {text}", Field(unit))
                 index[want] = j
                 break
         else:
-            raise DesignError(f"{p}: no column '{want} (UNIT)' in the header "
+            raise DesignError(f"{p}: no column '{names[0]} (UNIT)' in the header "
                               f"({','.join(header)}); e.g. 'bias (V),capacitance (pF)'")
     out = {k: [] for k in columns}
     for n, row in rows[1:]:

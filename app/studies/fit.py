@@ -66,7 +66,7 @@ class FitResult:
                 "rms_residual_unit": "F", "points": int(self.biases_v.size),
                 "correlation": self.correlation.tolist(), "condition_number": self.condition,
                 "warnings": list(self.warnings), "model_rel_error": self.model_rel_error,
-                "evaluations": self.evaluations}
+                "evaluations": self.evaluations, **self.extra}
 
 
 def confidence_intervals(J: np.ndarray, residuals: np.ndarray, values, scales):
@@ -142,8 +142,9 @@ def _bounds(model, paths, scales):
 
 
 def fit_cv(model, biases_v, capacitances_f, free=DEFAULT_FREE, *, start: dict | None = None,
-           error_estimate: bool = True) -> FitResult:
-    """Fit the free design values ``free`` of ``model`` to a measured C–V curve.
+           error_estimate: bool = True, response=None, response_model=None) -> FitResult:
+    """Fit the free design values ``free`` of ``model`` to a measured C–V curve (and optionally
+    a measured frequency response).
 
     Parameters
     ----------
@@ -156,6 +157,14 @@ def fit_cv(model, biases_v, capacitances_f, free=DEFAULT_FREE, *, start: dict | 
         Starting values (default: the design's).
     error_estimate : bool
         Also evaluate the model's discretisation error at the optimum (one coarser-mesh curve).
+    response : (freqs_hz, level_db), optional
+        A measured sensitivity level (dB re 1 V/Pa) at frequencies (Hz), fitted together with
+        the C–V curve: each data set's residuals are divided by its own noise level, estimated
+        from the C–V fit alone and the response misfit at that point (two-stage weighted least
+        squares).
+    response_model : callable, optional
+        ``f(values, freqs_hz) -> level_db`` (default
+        :class:`diagap.studies.response_model.PipelineResponse` of the design).
     """
     from scipy.optimize import least_squares
 
@@ -187,14 +196,58 @@ def fit_cv(model, biases_v, capacitances_f, free=DEFAULT_FREE, *, start: dict | 
         except (CoupledError, DesignError, ValueError):
             return np.full(C.size, penalty)
 
-    sol = least_squares(residuals, x0, bounds=(lo, hi), x_scale=1.0, diff_step=1e-5,
-                        xtol=1e-8, ftol=1e-10, gtol=1e-10)
+    opts = dict(bounds=(lo, hi), x_scale=1.0, diff_step=1e-5, xtol=1e-8, ftol=1e-10, gtol=1e-10)
+    sol = least_squares(residuals, x0, **opts)
+    extra, cv_weight = {}, c_unit
+    if response is not None:
+        sol, cv_weight, extra = _joint(sol, residuals, c_unit, paths, scales, model, response,
+                                       response_model, opts, count)
     values = tuple(float(v) for v in sol.x * scales)
     ci, corr, cond, warns = confidence_intervals(sol.jac, sol.fun, values, scales)
     at_bound = [p for p, x, a, b in zip(paths, sol.x, lo, hi)
                 if min(x - a, b - x) < 1e-6 * (b - a)]
     if at_bound:
         warns = [*warns, f"{', '.join(at_bound)} stopped at the bound of the model's range"]
-    fitted = C + sol.fun * c_unit
+    fitted = C + sol.fun[:C.size] * cv_weight
     err = model.discretisation_error(dict(zip(paths, values)), V) if error_estimate else None
-    return FitResult(paths, values, ci, V, C, fitted, corr, cond, tuple(warns), err, count["n"])
+    rms = float(np.sqrt(np.mean((fitted - C) ** 2)))
+    if err is not None and err * float(np.mean(np.abs(C))) > rms:
+        warns = [*warns, f"the model's discretisation error ({err:.2g} relative) exceeds the "
+                 f"rms residual: a finer --accuracy makes the fitted values more trustworthy"]
+    return FitResult(paths, values, ci, V, C, fitted, corr, cond, tuple(warns), err, count["n"],
+                     extra)
+
+
+def _joint(sol, cv_residuals, c_unit, paths, scales, model, response, response_model, opts,
+           count):
+    """The second stage: C–V and response residuals, each over its own noise level."""
+    from scipy.optimize import least_squares
+
+    freqs, level = (np.asarray(a, float) for a in response)
+    if response_model is None:
+        from diagap.studies.response_model import PipelineResponse
+
+        response_model = PipelineResponse(model.design)
+    n = len(paths)
+    m_cv = sol.fun.size
+    sigma_cv = c_unit * max(math.sqrt(float(sol.fun @ sol.fun) / max(m_cv - n, 1)), 1e-6)
+    r0 = response_model(dict(zip(paths, sol.x * scales)), freqs) - level
+    sigma_db = max(math.sqrt(float(np.mean(r0**2))), 1e-3)
+    bad = 10.0 * max(float(np.ptp(level)), 1.0) / sigma_db
+
+    def joint(x):
+        cv = cv_residuals(x) * (c_unit / sigma_cv)
+        try:
+            resp = (response_model(dict(zip(paths, x * scales)), freqs) - level) / sigma_db
+        except (DesignError, ValueError, RuntimeError):
+            resp = np.full(freqs.size, bad)
+        return np.concatenate([cv, resp])
+
+    sol = least_squares(joint, sol.x, **opts)
+    resp = sol.fun[m_cv:] * sigma_db
+    extra = {"response": {"points": int(freqs.size),
+                          "rms_residual_db": float(np.sqrt(np.mean(resp**2))),
+                          "noise_db": sigma_db, "cv_noise_f": sigma_cv,
+                          "frequencies_hz": freqs.tolist(),
+                          "fitted_db": (level + resp).tolist()}}
+    return sol, sigma_cv, extra

@@ -7,7 +7,7 @@ import math
 
 import numpy as np
 
-__all__ = ["histogram", "tradeoff", "cv_fit"]
+__all__ = ["histogram", "tradeoff", "cv_fit", "response_fit"]
 
 
 def _axis(key: str):
@@ -80,6 +80,21 @@ def cv_fit(biases_v, measured_f, fitted_f, path) -> None:
     ar.axhline(0.0, color="0.5", lw=0.8)
     ar.set_xlabel("bias (V)")
     ar.set_ylabel("residual (fF)")
+    fig.tight_layout()
+    fig.savefig(path, dpi=110)
+    plt.close(fig)
+
+
+def response_fit(freqs_hz, measured_db, fitted_db, path) -> None:
+    """Measured and fitted sensitivity level against frequency (log axis)."""
+    plt, (fig, ax) = _figure(figsize=(6, 4))
+    f = np.asarray(freqs_hz)
+    order = np.argsort(f)
+    ax.semilogx(f, measured_db, "o", ms=4, color="0.4", label="measured")
+    ax.semilogx(f[order], np.asarray(fitted_db)[order], "k-", label="fitted model")
+    ax.set_xlabel("frequency (Hz)")
+    ax.set_ylabel("sensitivity (dB re 1 V/Pa)")
+    ax.legend(fontsize=9)
     fig.tight_layout()
     fig.savefig(path, dpi=110)
     plt.close(fig)
