@@ -63,6 +63,7 @@ class FitResult:
                          "ci95": [None if ci[0] is None else ci[0],
                                   None if ci[1] is None else ci[1]]}
         return {"parameters": params, "rms_residual": self.rms_residual,
+                "evaluator": "exact (coupled FE branch, cell table and rim model)",
                 "rms_residual_unit": "F", "points": int(self.biases_v.size),
                 "correlation": self.correlation.tolist(), "condition_number": self.condition,
                 "warnings": list(self.warnings), "model_rel_error": self.model_rel_error,

@@ -118,6 +118,7 @@ class OptimiseResult:
     starts: list = field(default_factory=list)    # per start: dict with end point and status
     verified_exact: bool = True
     evaluations: int = 0
+    evaluator: str = "exact"           # the search's evaluations: "fast", "exact" or "mixed"
 
     def to_json(self) -> dict:
         s = self.spec
@@ -129,7 +130,8 @@ class OptimiseResult:
                                  "met": c.met(self.values.get(c.path, math.nan)),
                                  "active": c.text in self.active} for c in s.constraints],
                 "active_constraints": list(self.active), "starts": self.starts,
-                "verified_with_full_fe": self.verified_exact, "evaluations": self.evaluations}
+                "verified_with_full_fe": self.verified_exact, "evaluations": self.evaluations,
+                "evaluator": self.evaluator}
 
 
 class _Problem:
@@ -141,6 +143,7 @@ class _Problem:
         self.hi = np.array([v[2] for v in spec.variables])
         self.memo: dict = {}
         self.history: list = []
+        self.paths: set = set()  # which evaluation paths answered
         self.obj_scale = 1.0
 
     def x(self, z) -> np.ndarray:
@@ -169,7 +172,11 @@ class _Problem:
         return self.memo[key]
 
     def _values(self, rec) -> dict:
+        from diagap.evaluate import PATH_KEY
+
         o = rec.get("outputs", {}) if rec.get("status") == "ok" else {}
+        if PATH_KEY in o:
+            self.paths.add("exact" if o[PATH_KEY] else "fast")
         out = {}
         for k in self.spec.keys:
             v = o.get(k)
@@ -234,6 +241,7 @@ def run_optimise(design, spec: OptimiseSpec, out_dir, *, evaluate=None, verify=N
     from diagap.studies.spec import design_value
 
     evaluate = evaluate or KeyEvaluator(spec.keys, exact)
+    full_fe_check = verify is None
     verify = verify or KeyEvaluator(spec.keys, True)
     with StudyRunner(design, evaluate, out_dir, tag=evaluator_tag(evaluate), workers=workers,
                      scheduler=scheduler, progress=progress, label="optimise") as runner:
@@ -275,5 +283,6 @@ def run_optimise(design, spec: OptimiseSpec, out_dir, *, evaluate=None, verify=N
     for e in ends:
         e.pop("z", None)
         e["start"], e["end"] = dict(e["start"]), dict(e["end"])
+    evaluator = "mixed" if len(prob.paths) > 1 else next(iter(prob.paths), "injected")
     return OptimiseResult(spec, point, values, _feasible(spec, values), active, prob.history,
-                          ends, verify is not None, computed)
+                          ends, full_fe_check, computed, evaluator)
