@@ -9,7 +9,8 @@ Y the summary quantities (:mod:`diagap.evaluate`). Solved by SLSQP (sequential l
 programming, Kraft 1988; :func:`scipy.optimize.minimize`) from several starts: the design's own
 values (clipped into the bounds) and a Latin hypercube of further points; the best feasible end
 point wins. Objective and constraints are scaled by their value at the first start (objective)
-or by the size of the limit (constraints); gradients are forward differences in z with step
+or by the size of the limit (constraints), and the limits are tightened by ``BACK_OFF`` of that
+scale so that the converged point lies inside them; gradients are forward differences in z with step
 ``h`` (backward at an upper bound), each gradient one batch of n + 1 designs evaluated together
 (in parallel with workers or a Dask scheduler) and stored, so a resumed optimisation replays
 its finished evaluations. A design the pipeline cannot evaluate (NaN, e.g. collapsed) counts as
@@ -41,6 +42,10 @@ from diagap.studies.spec import input_field, parse_limit
 
 __all__ = ["OptimiseSpec", "parse_optimise", "run_optimise", "OptimiseResult"]
 
+#: SLSQP sees every limit tightened by this fraction of its scale: it converges onto the limit
+#: only to the accuracy of the finite-difference gradients (a few 1e-5 of the scale), so the
+#: end point then lies inside the true limit (and is still reported active)
+BACK_OFF = 1e-4
 _KEYS = {"maximise", "minimise", "maximize", "minimize", "constraints", "variables", "starts",
          "seed", "step"}
 
@@ -211,7 +216,7 @@ class _Problem:
 
                 def fun(z, c=c, bound=bound, sign=sign, s=s):
                     y = self.values_and_gradients(z)[0][c.path]
-                    return sign * (y - bound) / s if math.isfinite(y) else -1.0
+                    return sign * (y - bound) / s - BACK_OFF if math.isfinite(y) else -1.0
 
                 def jac(z, c=c, sign=sign, s=s):
                     d = self.values_and_gradients(z)[1][c.path]
