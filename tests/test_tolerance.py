@@ -220,3 +220,18 @@ def test_command_bad_section_exits_2_without_outputs(tmp_path, capsys, section, 
 
     assert re.search(match, err)
     assert not out.exists()
+
+
+def test_example_study_sections_parse():
+    """The invented example carries both study sections beside a valid design."""
+    from pathlib import Path
+
+    from diagap.studies.optimise import parse_optimise
+    from diagap.studies.spec import load_study
+
+    path = Path(__file__).resolve().parent.parent / "examples" / "process_spread.toml"
+    design, table = load_study(path, "tolerances")
+    spec = parse_tolerances(table, design)
+    assert spec.correlation is not None and len(spec.limits) == 3
+    design, table = load_study(path, "optimise")
+    assert len(parse_optimise(table, design).variables) == 3
