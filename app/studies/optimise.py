@@ -46,6 +46,9 @@ __all__ = ["OptimiseSpec", "parse_optimise", "run_optimise", "OptimiseResult"]
 #: only to the accuracy of the finite-difference gradients (a few 1e-5 of the scale), so the
 #: end point then lies inside the true limit (and is still reported active)
 BACK_OFF = 1e-4
+#: SLSQP stops when the scaled objective changes by less than this: far below the FE error of
+#: the quantities (~1e-4), and each further iteration costs n + 1 evaluations
+FTOL = 1e-6
 _KEYS = {"maximise", "minimise", "maximize", "minimize", "constraints", "variables", "starts",
          "seed", "step"}
 
@@ -267,7 +270,7 @@ def run_optimise(design, spec: OptimiseSpec, out_dir, *, evaluate=None, verify=N
         for s in starts:
             res = minimize(prob.objective, s, jac=prob.objective_grad, method="SLSQP",
                            bounds=[(0.0, 1.0)] * len(s), constraints=prob.constraints(),
-                           options={"maxiter": 100, "ftol": 1e-9})
+                           options={"maxiter": 100, "ftol": FTOL})
             z = np.clip(res.x, 0, 1)
             vals = prob.values_and_gradients(z)[0]
             ends.append({"start": prob._point(s), "end": prob._point(z), "z": z,
