@@ -10,8 +10,9 @@ programming, Kraft 1988; :func:`scipy.optimize.minimize`) from several starts: t
 values (clipped into the bounds) and a Latin hypercube of further points; the best feasible end
 point wins. Objective and constraints are scaled by their value at the first start (objective)
 or by the size of the limit (constraints), and the limits are tightened by ``BACK_OFF`` of that
-scale so that the converged point lies inside them; gradients are forward differences in z with step
-``h`` (backward at an upper bound), each gradient one batch of n + 1 designs evaluated together
+scale so that the converged point lies inside them; gradients are central differences in z with
+step ``h`` (one-sided at a bound; forward differences left SLSQP stalling just outside a curved
+limit), each gradient one batch of 2n + 1 designs evaluated together
 (in parallel with workers or a Dask scheduler) and stored, so a resumed optimisation replays
 its finished evaluations. A design the pipeline cannot evaluate (NaN, e.g. collapsed) counts as
 violating every limit.
@@ -143,7 +144,7 @@ class OptimiseResult:
 
 
 class _Problem:
-    """Memoised values and forward-difference gradients at scaled points z."""
+    """Memoised values and central-difference gradients at scaled points z."""
 
     def __init__(self, spec: OptimiseSpec, runner):
         self.spec, self.runner = spec, runner
@@ -165,17 +166,18 @@ class _Problem:
         key = tuple(np.round(z, 12))
         if key not in self.memo:
             h = self.spec.step
-            steps = [z.copy()]
-            for i in range(z.size):
-                zi = z.copy()
-                zi[i] += h if z[i] + h <= 1.0 else -h
-                steps.append(zi)
+            steps, pairs = [z.copy()], []
+            for i in range(z.size):  # central differences, one-sided at a bound
+                up, down = z.copy(), z.copy()
+                up[i], down[i] = min(z[i] + h, 1.0), max(z[i] - h, 0.0)
+                pairs.append((len(steps), len(steps) + 1, up[i] - down[i]))
+                steps += [up, down]
             recs = self.runner.run([self._point(s) for s in steps])
             vals = [self._values(r) for r in recs]
             for s, v in zip(steps, vals):
                 self.history.append((s, v))
-            grads = {k: np.array([(vals[i + 1][k] - vals[0][k]) / (steps[i + 1][i] - z[i])
-                                  for i in range(z.size)]) for k in self.spec.keys}
+            grads = {k: np.array([(vals[a][k] - vals[b][k]) / width for a, b, width in pairs])
+                     for k in self.spec.keys}
             self.memo[key] = (vals[0], grads)
         return self.memo[key]
 
@@ -270,7 +272,7 @@ def run_optimise(design, spec: OptimiseSpec, out_dir, *, evaluate=None, verify=N
         for s in starts:
             res = minimize(prob.objective, s, jac=prob.objective_grad, method="SLSQP",
                            bounds=[(0.0, 1.0)] * len(s), constraints=prob.constraints(),
-                           options={"maxiter": 100, "ftol": FTOL})
+                           options={"maxiter": 40, "ftol": FTOL})
             z = np.clip(res.x, 0, 1)
             vals = prob.values_and_gradients(z)[0]
             ends.append({"start": prob._point(s), "end": prob._point(z), "z": z,
