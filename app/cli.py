@@ -107,6 +107,10 @@ def build_parser() -> argparse.ArgumentParser:
 
     add_sweep_parser(sub, _add_common)
 
+    from diagap.studies.cli import add_parsers as add_study_parsers
+
+    add_study_parsers(sub, _add_common)
+
     holes = sub.add_parser(
         "holes", help="evaluate a backplate hole pattern on its own (about a second)",
         description="Capacitance cost of a perforated backplate: the unit-cell capacitance "
@@ -258,6 +262,17 @@ def _cmd_verify(args) -> int:
 
 
 _COMMANDS = {"verify": _cmd_verify, "run": _cmd_run, "init": _cmd_init, "sweep": _cmd_sweep, "holes": _cmd_holes}
+
+
+def _study_command(name: str):
+    def run(args) -> int:
+        from diagap.studies.cli import COMMANDS
+
+        return COMMANDS[name](args)
+    return run
+
+
+_COMMANDS.update({name: _study_command(name) for name in ("tolerance", "optimise", "fit")})
 
 
 def main(argv: list[str] | None = None) -> int:

@@ -389,6 +389,10 @@ def _backplate_plate(v: dict) -> "BackplatePlate | None":
                           v["edge"] or "clamped", v["material"])
 
 
+#: tables of design-space studies (read by diagap.studies), allowed beside the design
+_STUDIES = {"tolerances": Field(), "optimise": Field()}
+
+
 def parse_design(raw: dict, source: str = "<design>") -> Design:
     """Validate a design given as the dictionary of a TOML file and return it in SI.
 
@@ -413,7 +417,7 @@ def parse_design(raw: dict, source: str = "<design>") -> Design:
     if not isinstance(raw, dict):
         raise DesignError(f"{source}: a design must be a TOML table")
     _check_keys("", {k: v for k, v in raw.items() if not isinstance(v, dict)} | {
-        k: v for k, v in raw.items() if isinstance(v, dict)}, {**_TOP, **SCHEMA})
+        k: v for k, v in raw.items() if isinstance(v, dict)}, {**_TOP, **SCHEMA, **_STUDIES})
     for key in SCHEMA:
         if key in raw and not isinstance(raw[key], dict):
             raise DesignError(f"{key} = {_fmt(raw[key])}: must be a table [{key}]")

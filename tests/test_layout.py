@@ -21,7 +21,7 @@ REPO = Path(__file__).resolve().parent.parent
 ROOMS = {"meshes": "diagap.meshes", "fem": "diagap.fem", "lumped": "diagap.lumped",
          "app": "diagap"}
 ORDER = ["meshes", "fem", "lumped", "app"]  # a room may import only rooms to its left
-CLI_MODULES = {"app/cli.py", "app/sweep/cli.py"}
+CLI_MODULES = {"app/cli.py", "app/sweep/cli.py", "app/studies/cli.py"}
 #: process control that is not a user-facing exit: a sweep worker whose parent has died ends
 #: itself (no output, no exit code anybody reads)
 WORKER_EXITS = {("app/sweep/exec.py", "os._exit(")}

@@ -1,0 +1,254 @@
+"""Design values from a measured capacitance-versus-bias curve: nonlinear least squares.
+
+Model and data: measured terminal capacitances C_j at biases V_j, j = 1..m, against the FE model
+C_t(V; θ) (:class:`diagap.studies.cvmodel.CVModel`) with the free design values θ (default the
+residual stress and the gap). The fit minimises Σ r_j², r_j = C_t(V_j; θ) − C_j, with
+:func:`scipy.optimize.least_squares` (trust region reflective, inside bounds that keep the model
+in its range) on scaled parameters p_i = θ_i / s_i; the Jacobian is taken by forward differences.
+
+Confidence intervals (asymptotic, Jacobian-based; Seber & Wild, Nonlinear Regression, 1989,
+sec. 5.1; Bates & Watts 1988, sec. 2.3): with J = ∂r/∂p at the optimum, s² = Σ r_j²/(m − n) and
+cov(p) = s² (JᵀJ)⁻¹, the 95 % interval of θ_i is θ_i ± t_{0.975, m−n} s_i √cov_ii (Student's t).
+Identifiability: when JᵀJ is (nearly) singular — the condition number of the column-scaled J
+above 1e8, or a correlation |ρ_ik| above 0.99 — the data cannot tell those parameters apart; the
+fit reports this as a warning and the intervals of the parameters concerned are unbounded.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from diagap.design import DesignError
+
+__all__ = ["fit_cv", "FitResult", "DEFAULT_FREE", "confidence_intervals"]
+
+DEFAULT_FREE = ("diaphragm.residual_stress", "backplate.gap")
+_UNITS = {"diaphragm.residual_stress": "Pa", "backplate.gap": "m", "diaphragm.thickness": "m",
+          "diaphragm.youngs_modulus": "Pa", "electrical.parasitic_capacitance": "F"}
+MAX_CONDITION = 1e8
+MAX_CORRELATION = 0.99
+
+
+@dataclass(frozen=True)
+class FitResult:
+    """Fitted values (SI), their 95 % intervals and the residuals (F)."""
+
+    paths: tuple
+    values: tuple
+    ci95: tuple                      # ((lo, hi), ...), None bounds where not identifiable
+    biases_v: np.ndarray
+    measured_f: np.ndarray
+    fitted_f: np.ndarray
+    correlation: np.ndarray
+    condition: float
+    warnings: tuple = ()
+    model_rel_error: float | None = None
+    evaluations: int = 0
+    extra: dict = field(default_factory=dict)
+
+    @property
+    def residuals_f(self) -> np.ndarray:
+        return self.measured_f - self.fitted_f
+
+    @property
+    def rms_residual(self) -> float:
+        return float(np.sqrt(np.mean(self.residuals_f**2)))
+
+    def to_json(self) -> dict:
+        params = {}
+        for p, v, ci in zip(self.paths, self.values, self.ci95):
+            params[p] = {"value": v, "unit": _UNITS.get(p, ""),
+                         "ci95": [None if ci[0] is None else ci[0],
+                                  None if ci[1] is None else ci[1]]}
+        return {"parameters": params, "rms_residual": self.rms_residual,
+                "evaluator": "exact (coupled FE branch, cell table and rim model)",
+                "rms_residual_unit": "F", "points": int(self.biases_v.size),
+                "correlation": self.correlation.tolist(), "condition_number": self.condition,
+                "warnings": list(self.warnings), "model_rel_error": self.model_rel_error,
+                "evaluations": self.evaluations, **self.extra}
+
+
+def confidence_intervals(J: np.ndarray, residuals: np.ndarray, values, scales):
+    """95 % intervals, correlation matrix, condition number and warnings (module docstring)."""
+    from scipy.stats import t as student
+
+    m, n = J.shape
+    dof = m - n
+    s2 = float(residuals @ residuals) / dof
+    norms = np.linalg.norm(J, axis=0)
+    norms[norms == 0] = 1.0
+    sv = np.linalg.svd(J / norms, compute_uv=False)
+    cond = float(sv[0] / sv[-1]) if sv[-1] > 0 else math.inf
+    warnings = []
+    JtJ = J.T @ J
+    try:
+        cov = s2 * np.linalg.inv(JtJ) if cond < MAX_CONDITION else None
+    except np.linalg.LinAlgError:
+        cov = None
+    tq = float(student.ppf(0.975, dof))
+    ci, corr = [], np.full((n, n), np.nan)
+    bad = set()
+    if cov is None:
+        warnings.append(f"the data cannot identify the free values together (condition number "
+                        f"{cond:.3g} of the scaled Jacobian); fix some of them")
+        bad = set(range(n))
+    else:
+        sd = np.sqrt(np.maximum(np.diag(cov), 0.0))
+        corr = cov / np.outer(sd, sd)
+        for i in range(n):
+            for k in range(i + 1, n):
+                if abs(corr[i, k]) > MAX_CORRELATION:
+                    bad |= {i, k}
+                    warnings.append(f"parameters {i + 1} and {k + 1} are correlated "
+                                    f"(ρ = {corr[i, k]:+.4f}): the data hardly tell them apart")
+    for i, (v, s) in enumerate(zip(values, scales)):
+        if i in bad or cov is None:
+            ci.append((None, None))
+        else:
+            half = tq * s * math.sqrt(max(cov[i, i], 0.0))
+            ci.append((v - half, v + half))
+    return tuple(ci), corr, cond, warnings
+
+
+def _scales(model, paths) -> np.ndarray:
+    nom = model.nominal()
+    out = []
+    for p in paths:
+        x = abs(nom[p])
+        if p == "diaphragm.residual_stress":
+            x = max(x, 1e6)
+        elif p == "electrical.parasitic_capacitance":
+            x = max(x, 0.1e-12)
+        out.append(x)
+    return np.array(out)
+
+
+def _bounds(model, paths, scales):
+    nom = model.nominal()
+    lo, hi = [], []
+    for p, s in zip(paths, scales):
+        if p == "backplate.gap":
+            a, b = model.gap_bounds()
+        elif p == "diaphragm.residual_stress":
+            a, b = nom[p] - 5 * s, nom[p] + 5 * s
+        elif p == "electrical.parasitic_capacitance":
+            a, b = 0.0, nom[p] + 10 * s
+        else:
+            a, b = 0.5 * nom[p], 2.0 * nom[p]
+        lo.append(a / s)
+        hi.append(b / s)
+    return np.array(lo), np.array(hi)
+
+
+def fit_cv(model, biases_v, capacitances_f, free=DEFAULT_FREE, *, start: dict | None = None,
+           error_estimate: bool = True, response=None, response_model=None) -> FitResult:
+    """Fit the free design values ``free`` of ``model`` to a measured C–V curve (and optionally
+    a measured frequency response).
+
+    Parameters
+    ----------
+    model : CVModel
+    biases_v, capacitances_f : array_like (m,)
+        The measured curve (V, F): total capacitance at the terminals.
+    free : sequence of str
+        Free design values (:data:`diagap.studies.cvmodel.FREE_PATHS`).
+    start : dict, optional
+        Starting values (default: the design's).
+    error_estimate : bool
+        Also evaluate the model's discretisation error at the optimum (one coarser-mesh curve).
+    response : (freqs_hz, level_db), optional
+        A measured sensitivity level (dB re 1 V/Pa) at frequencies (Hz), fitted together with
+        the C–V curve: each data set's residuals are divided by its own noise level, estimated
+        from the C–V fit alone and the response misfit at that point (two-stage weighted least
+        squares).
+    response_model : callable, optional
+        ``f(values, freqs_hz) -> level_db`` (default
+        :class:`diagap.studies.response_model.PipelineResponse` of the design).
+    """
+    from scipy.optimize import least_squares
+
+    from diagap.fem.coupling.branch import CoupledError
+    from diagap.studies.cvmodel import FREE_PATHS
+
+    paths = tuple(free)
+    for p in paths:
+        if p not in FREE_PATHS:
+            raise DesignError(f"--free {p}: the C–V fit can vary {', '.join(FREE_PATHS)}")
+    V = np.asarray(biases_v, float)
+    C = np.asarray(capacitances_f, float)
+    if V.size < len(paths) + 1:
+        raise DesignError(f"the C–V data has {V.size} points; fitting {len(paths)} values "
+                          f"needs at least {len(paths) + 1}")
+    scales = _scales(model, paths)
+    lo, hi = _bounds(model, paths, scales)
+    x0 = np.array([(start or model.nominal()).get(p, model.nominal()[p]) for p in paths]) / scales
+    x0 = np.clip(x0, lo + 1e-6 * (hi - lo), hi - 1e-6 * (hi - lo))
+    c_unit = 1e-4 * float(np.mean(np.abs(C)))  # residuals in this unit: O(1) numbers
+    penalty = 10.0 * max(float(np.ptp(C)), 1e-3 * float(np.mean(np.abs(C)))) / c_unit
+    count = {"n": 0}
+
+    def residuals(x):
+        count["n"] += 1
+        values = dict(zip(paths, x * scales))
+        try:
+            return (model.curve(values, V) - C) / c_unit
+        except (CoupledError, DesignError, ValueError):
+            return np.full(C.size, penalty)
+
+    opts = dict(bounds=(lo, hi), x_scale=1.0, diff_step=1e-5, xtol=1e-8, ftol=1e-10, gtol=1e-10)
+    sol = least_squares(residuals, x0, **opts)
+    extra, cv_weight = {}, c_unit
+    if response is not None:
+        sol, cv_weight, extra = _joint(sol, residuals, c_unit, paths, scales, model, response,
+                                       response_model, opts, count)
+    values = tuple(float(v) for v in sol.x * scales)
+    ci, corr, cond, warns = confidence_intervals(sol.jac, sol.fun, values, scales)
+    at_bound = [p for p, x, a, b in zip(paths, sol.x, lo, hi)
+                if min(x - a, b - x) < 1e-6 * (b - a)]
+    if at_bound:
+        warns = [*warns, f"{', '.join(at_bound)} stopped at the bound of the model's range"]
+    fitted = C + sol.fun[:C.size] * cv_weight
+    err = model.discretisation_error(dict(zip(paths, values)), V) if error_estimate else None
+    rms = float(np.sqrt(np.mean((fitted - C) ** 2)))
+    if err is not None and err * float(np.mean(np.abs(C))) > rms:
+        warns = [*warns, f"the model's discretisation error ({err:.2g} relative) exceeds the "
+                 f"rms residual: a finer --accuracy makes the fitted values more trustworthy"]
+    return FitResult(paths, values, ci, V, C, fitted, corr, cond, tuple(warns), err, count["n"],
+                     extra)
+
+
+def _joint(sol, cv_residuals, c_unit, paths, scales, model, response, response_model, opts,
+           count):
+    """The second stage: C–V and response residuals, each over its own noise level."""
+    from scipy.optimize import least_squares
+
+    freqs, level = (np.asarray(a, float) for a in response)
+    if response_model is None:
+        from diagap.studies.response_model import PipelineResponse
+
+        response_model = PipelineResponse(model.design)
+    n = len(paths)
+    m_cv = sol.fun.size
+    sigma_cv = c_unit * max(math.sqrt(float(sol.fun @ sol.fun) / max(m_cv - n, 1)), 1e-6)
+    r0 = response_model(dict(zip(paths, sol.x * scales)), freqs) - level
+    sigma_db = max(math.sqrt(float(np.mean(r0**2))), 1e-3)
+    bad = 10.0 * max(float(np.ptp(level)), 1.0) / sigma_db
+
+    def joint(x):
+        cv = cv_residuals(x) * (c_unit / sigma_cv)
+        try:
+            resp = (response_model(dict(zip(paths, x * scales)), freqs) - level) / sigma_db
+        except (DesignError, ValueError, RuntimeError):
+            resp = np.full(freqs.size, bad)
+        return np.concatenate([cv, resp])
+
+    sol = least_squares(joint, sol.x, **opts)
+    resp = sol.fun[m_cv:] * sigma_db
+    extra = {"response": {"points": int(freqs.size),
+                          "rms_residual_db": float(np.sqrt(np.mean(resp**2))),
+                          "noise_db": sigma_db, "cv_noise_f": sigma_cv,
+                          "frequencies_hz": freqs.tolist(),
+                          "fitted_db": (level + resp).tolist()}}
+    return sol, sigma_cv, extra
