@@ -16,7 +16,10 @@ Two ways to get them:
   the whole run.
 
 The fast path is tried unless ``exact=True``; a design outside its tables, or a requested path
-that the tables do not cover, falls back to the exact path. :func:`evaluate_with_path` says
+that the tables do not cover, falls back to the exact path. Without a study box the fast path
+covers the ``mechanics`` outputs only (the scaled diaphragm table); with a
+:class:`diagap.fastpath.StudyBox` (the bounds of the values a study varies) it covers every
+numeric output of the mechanics to response sections that its table certifies. :func:`evaluate_with_path` says
 which one answered. A requested path that the design does not produce (e.g. the sensitivity of a
 collapsed design, biased at or above pull-in) is NaN.
 """
@@ -35,6 +38,7 @@ except ImportError:  # pragma: no cover - depends on the installed version
         """Stand-in when :mod:`diagap.fastpath` is not installed."""
 
 __all__ = ["evaluate", "evaluate_with_path", "exact_summary", "KeyEvaluator", "check_keys",
+           "no_table_building",
            "FAST", "EXACT", "PATH_KEY", "fast_path_installed"]
 
 FAST, EXACT = "fast", "exact"
@@ -135,7 +139,16 @@ def _pick(values: dict, keys) -> dict[str, float]:
     return out
 
 
-def evaluate_with_path(design, keys: Iterable[str], *, exact: bool = False
+def no_table_building(func, points):
+    """A table mapper that refuses to compute table points: an evaluation with it uses a study
+    table already built (on disk or in memory) and otherwise falls back to the exact path,
+    instead of building the table inside a worker process."""
+    raise FastPathUnavailable("the study table has not been built (build it before the "
+                              "evaluations, diagap.studies.tables.prepare_tables)")
+
+
+def evaluate_with_path(design, keys: Iterable[str], *, exact: bool = False, box=None,
+                       build: bool = True, table_options=None
                        ) -> tuple[dict[str, float], str]:
     """The values of the summary paths ``keys`` for ``design`` and the path that gave them.
 
@@ -146,6 +159,14 @@ def evaluate_with_path(design, keys: Iterable[str], *, exact: bool = False
         Summary paths such as ``"response.sensitivity_db_v_per_pa"``.
     exact : bool
         Run the full FE pipeline even when the fast tables cover the design.
+    box : diagap.fastpath.StudyBox, optional
+        The study box whose table answers (all sections up to the response); without it the
+        fast path covers the ``mechanics`` outputs only.
+    build : bool
+        Build a missing box table here (False: a missing table means the exact path).
+    table_options : dict, optional
+        ``tol``, ``nodes``, ``max_splits``, ``validate`` of the box table
+        (:func:`diagap.fastpath.study_table`); they select which cached table is read.
 
     Returns
     -------
@@ -156,7 +177,11 @@ def evaluate_with_path(design, keys: Iterable[str], *, exact: bool = False
     keys = check_keys(keys)
     if not exact and fast_summary is not None:
         try:
-            fast = fast_summary(design)
+            if box is None:
+                fast = fast_summary(design)
+            else:
+                fast = fast_summary(design, box, mapper=None if build else no_table_building,
+                                    **dict(table_options or {}))
         except FastPathUnavailable:
             fast = None
         if fast is not None and all(k in fast for k in keys):
@@ -177,16 +202,41 @@ def evaluate(design, keys: Iterable[str], *, exact: bool = False) -> dict[str, f
     return evaluate_with_path(design, keys, exact=exact)[0]
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, repr=False)
 class KeyEvaluator:
     """A picklable ``f(design) -> {path: value}`` for study points run in worker processes.
 
     The returned dict also holds :data:`PATH_KEY` (True when the full FE pipeline answered).
+
+    Parameters
+    ----------
+    keys : tuple of str
+        Summary paths.
+    exact : bool
+        Always the full FE pipeline.
+    box : diagap.fastpath.StudyBox, optional
+        The study box of the fast path. Its table is only read, never built, by the evaluator
+        (build it first, :func:`diagap.studies.tables.prepare_tables`); a design outside the
+        box, or a missing table, is evaluated exactly.
+    table_options : tuple of (name, value)
+        Options of the box table (:func:`diagap.fastpath.study_table`), as used when it was
+        built.
     """
 
     keys: tuple
     exact: bool = False
+    box: object = None
+    table_options: tuple = ()
+
+    def __repr__(self) -> str:
+        # the repr names the evaluator in study point ids: without a box it is the plain one
+        text = f"KeyEvaluator(keys={self.keys!r}, exact={self.exact!r}"
+        if self.box is not None:
+            ranges = tuple((p, float(lo), float(hi)) for p, lo, hi in self.box.ranges)
+            text += f", box={ranges!r}, table_options={self.table_options!r}"
+        return text + ")"
 
     def __call__(self, design) -> dict:
-        values, path = evaluate_with_path(design, self.keys, exact=self.exact)
+        values, path = evaluate_with_path(design, self.keys, exact=self.exact, box=self.box,
+                                          build=False, table_options=dict(self.table_options))
         return {**values, PATH_KEY: path == EXACT}

@@ -128,6 +128,7 @@ class OptimiseResult:
     verified_exact: bool = True
     evaluations: int = 0
     evaluator: str = "exact"           # the search's evaluations: "fast", "exact" or "mixed"
+    tables: dict = field(default_factory=dict)   # the study table: used, seconds, reason
 
     def to_json(self) -> dict:
         s = self.spec
@@ -140,7 +141,7 @@ class OptimiseResult:
                                  "active": c.text in self.active} for c in s.constraints],
                 "active_constraints": list(self.active), "starts": self.starts,
                 "verified_with_full_fe": self.verified_exact, "evaluations": self.evaluations,
-                "evaluator": self.evaluator}
+                "evaluator": self.evaluator, "study_table": self.tables}
 
 
 class _Problem:
@@ -237,11 +238,17 @@ def _feasible(spec, values) -> bool:
 
 def run_optimise(design, spec: OptimiseSpec, out_dir, *, evaluate=None, verify=None,
                  exact: bool = False, workers: int | None = 1, scheduler=None,
-                 progress=False, active_tol: float = 1e-3) -> OptimiseResult:
+                 progress=False, active_tol: float = 1e-3,
+                 table_options: dict | None = None) -> OptimiseResult:
     """Solve the problem of ``spec`` for ``design`` (module docstring).
 
     ``evaluate`` / ``verify``: ``f(design) -> {path: value}`` replacing the default evaluators
     (the fast tables unless ``exact``, and the full FE pipeline for the verification).
+
+    Unless ``exact`` (or an ``evaluate`` is given), the fast-path table over the variables'
+    bounds is built first, once, with the same ``workers`` or ``scheduler``
+    (:mod:`diagap.studies.tables`; ``table_options`` as in :func:`diagap.fastpath.study_table`);
+    the search reads it and the verification of the optimum stays a full FE run.
     """
     from scipy.optimize import minimize
 
@@ -249,12 +256,21 @@ def run_optimise(design, spec: OptimiseSpec, out_dir, *, evaluate=None, verify=N
     from diagap.studies.runner import StudyRunner, evaluator_tag
     from diagap.studies.sampling import unit_samples
     from diagap.studies.spec import design_value
+    from diagap.studies.tables import prepare_tables
 
+    own = evaluate is None
     evaluate = evaluate or KeyEvaluator(spec.keys, exact)
     full_fe_check = verify is None
     verify = verify or KeyEvaluator(spec.keys, True)
     with StudyRunner(design, evaluate, out_dir, tag=evaluator_tag(evaluate), workers=workers,
                      scheduler=scheduler, progress=progress, label="optimise") as runner:
+        tables: dict = {}
+        if own and not exact:
+            evaluate, built = prepare_tables(design, spec.keys, spec.variables,
+                                             workers=runner.workers, client=runner.client,
+                                             table_options=table_options)
+            runner.evaluate, runner.tag = evaluate, evaluator_tag(evaluate)
+            tables = built.to_dict()
         prob = _Problem(spec, runner)
         z0 = []
         for path, lo, hi in spec.variables:
@@ -295,4 +311,4 @@ def run_optimise(design, spec: OptimiseSpec, out_dir, *, evaluate=None, verify=N
         e["start"], e["end"] = dict(e["start"]), dict(e["end"])
     evaluator = "mixed" if len(prob.paths) > 1 else next(iter(prob.paths), "injected")
     return OptimiseResult(spec, point, values, _feasible(spec, values), active, prob.history,
-                          ends, full_fe_check, computed, evaluator)
+                          ends, full_fe_check, computed, evaluator, tables)

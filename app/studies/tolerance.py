@@ -116,6 +116,7 @@ class ToleranceResult:
     evaluator: str = "exact"           # "fast", "exact" or "mixed"
     evaluations: int = 0
     computed: int = 0
+    tables: dict = field(default_factory=dict)   # the study table: used, seconds, reason
 
     @property
     def yield_fraction(self) -> float:
@@ -134,7 +135,8 @@ class ToleranceResult:
                 "inputs": [v.to_dict() for v in self.spec.inputs],
                 "method": self.spec.method, "seed": self.spec.seed,
                 "failed_samples": self.failed, "evaluator": self.evaluator,
-                "evaluations": self.evaluations, "computed_now": self.computed}
+                "evaluations": self.evaluations, "computed_now": self.computed,
+                "study_table": self.tables}
 
 
 def _overrides(inputs, X: np.ndarray) -> list:
@@ -159,18 +161,29 @@ def _values(records, keys) -> tuple[dict, int, set]:
 
 
 def run_tolerance(design, spec: ToleranceSpec, out_dir, *, evaluate=None, exact: bool = False,
-                  workers: int | None = 1, scheduler=None, progress=False) -> ToleranceResult:
+                  workers: int | None = 1, scheduler=None, progress=False,
+                  table_options: dict | None = None) -> ToleranceResult:
     """Sample, evaluate (resumable) and summarise a tolerance study (module docstring).
 
     ``evaluate(design) -> {path: value}`` replaces the default
     :class:`diagap.evaluate.KeyEvaluator` (must be picklable for workers > 1).
+
+    Unless ``exact`` (or an ``evaluate`` is given), the fast-path table over the box of the
+    varied values (:func:`diagap.studies.tables.tolerance_ranges`: uniform bounds, normal
+    mean ± 4σ clipped to the schema's range) is built first, once, with the same ``workers`` or
+    ``scheduler``; the samples inside the box are then read from it and the others run the full
+    FE (:mod:`diagap.studies.tables`). ``table_options``: ``tol``, ``nodes``, ``max_splits``,
+    ``validate`` of :func:`diagap.fastpath.study_table`.
     """
     from diagap.evaluate import KeyEvaluator
     from diagap.studies.indices import binned_first_order, saltelli_indices, saltelli_matrices
     from diagap.studies.runner import StudyRunner, evaluator_tag
 
+    from diagap.studies.tables import prepare_tables, tolerance_ranges
+
     d, n = len(spec.inputs), spec.samples
     indices = spec.indices if spec.correlation is None else "none"
+    own = evaluate is None
     evaluate = evaluate or KeyEvaluator(spec.outputs, exact)
     tag = evaluator_tag(evaluate)
     if indices == "saltelli":
@@ -182,6 +195,13 @@ def run_tolerance(design, spec: ToleranceSpec, out_dir, *, evaluate=None, exact:
     points = [p for m in mats for p in _overrides(spec.inputs, m)]
     with StudyRunner(design, evaluate, out_dir, tag=tag, workers=workers, scheduler=scheduler,
                      progress=progress, label="tolerance") as runner:
+        tables: dict = {}
+        if own and not exact:
+            evaluate, built = prepare_tables(design, spec.outputs, tolerance_ranges(spec.inputs),
+                                             workers=runner.workers, client=runner.client,
+                                             table_options=table_options)
+            runner.evaluate, runner.tag = evaluate, evaluator_tag(evaluate)
+            tables = built.to_dict()
         records = runner.run(points)
     values, _, paths = _values(records, spec.outputs)
     first = {k: v[:n] for k, v in values.items()}
@@ -205,4 +225,4 @@ def run_tolerance(design, spec: ToleranceSpec, out_dir, *, evaluate=None, exact:
     evaluator = "mixed" if len(paths) > 1 else ("exact" if paths == {True} else
                                                 "fast" if paths else "none")
     return ToleranceResult(spec, mats[0], first, passed, failed, result_indices, evaluator,
-                           len(records), runner.computed)
+                           len(records), runner.computed, tables)

@@ -1,0 +1,118 @@
+"""The fast-path tables of a study: its box of varied values, built once before the evaluations.
+
+A study varies a few design values X_i of one design. The certified study table
+(:func:`diagap.fastpath.study_table`) covers every numeric summary output of the mechanics to
+response sections over a box lo_i ≤ X_i ≤ hi_i, each table point one full FE analysis. The box
+of a study:
+
+- tolerance study (:mod:`diagap.studies.tolerance`), per varied value: a uniform distribution
+  gives its bounds [low, high]; a normal distribution N(μ, σ²) gives μ ± 4σ, clipped to the
+  value's allowed range of the design schema (:data:`diagap.schema.SCHEMA`). ±4σ holds all but
+  6.3e-5 of the samples of each value (Φ(−4) = 3.17e-5 per side), so at most a few in ten
+  thousand samples fall outside and are evaluated exactly; a wider box costs a longer table for
+  little gain. Correlations need no change: the box is the product of the per-value ranges;
+- optimisation (:mod:`diagap.studies.optimise`): the bounds of the variables.
+
+The table is built once in the calling process with the study's local workers or Dask client
+(:func:`diagap.fastpath.mapper_for`), cached on disk and kept in memory; the evaluations then
+only read it (:class:`diagap.evaluate.KeyEvaluator` with the box). Points outside the box, and
+outputs the table does not certify, are evaluated with the full FE pipeline. If the table cannot
+be built (a corner of the box outside the schema's cross-field limits, a design the tables do
+not handle), the study runs with the exact path and says so in the log.
+"""
+from __future__ import annotations
+
+import logging
+import math
+import time
+
+__all__ = ["tolerance_ranges", "prepare_tables", "NORMAL_SIGMAS", "TableBuild"]
+
+log = logging.getLogger(__name__)
+
+#: half-width of the box of a normally distributed value, in standard deviations
+NORMAL_SIGMAS = 4.0
+
+
+def _schema_bounds(path: str) -> tuple[float, float]:
+    from diagap.schema import SCHEMA
+
+    section, _, key = path.partition(".")
+    f = SCHEMA.get(section, {}).get(key)
+    lo = getattr(f, "low", None)
+    hi = getattr(f, "high", None)
+    return (-math.inf if lo is None else float(lo)), (math.inf if hi is None else float(hi))
+
+
+def tolerance_ranges(inputs) -> tuple:
+    """The box ``((path, low, high), ...)`` (SI) of the varied values ``inputs``
+    (:class:`diagap.studies.sampling.Varied`), as in the module docstring."""
+    out = []
+    for v in inputs:
+        if v.kind == "uniform":
+            lo, hi = float(v.a), float(v.b)
+        else:
+            lo, hi = v.a - NORMAL_SIGMAS * v.b, v.a + NORMAL_SIGMAS * v.b
+        s_lo, s_hi = _schema_bounds(v.path)
+        out.append((v.path, max(lo, s_lo), min(hi, s_hi)))
+    return tuple(out)
+
+
+class TableBuild:
+    """What :func:`prepare_tables` did: ``used`` (the evaluations read a box table),
+    ``seconds`` (the build or the read), ``reason`` (why not used)."""
+
+    def __init__(self, used: bool, seconds: float = 0.0, reason: str = ""):
+        self.used, self.seconds, self.reason = used, seconds, reason
+
+    def to_dict(self) -> dict:
+        return {"used": self.used, "seconds": self.seconds, "reason": self.reason}
+
+
+def prepare_tables(design, keys, ranges, *, exact: bool = False, workers: int | None = 1,
+                   client=None, table_options: dict | None = None):
+    """The evaluator of a study and what happened to its table.
+
+    Parameters
+    ----------
+    design : Design
+        The study's base design (the box's nominal design).
+    keys : sequence of str
+        Summary paths the study needs.
+    ranges : sequence of (path, low, high)
+        The box (SI).
+    exact : bool
+        Full FE for every point: no table.
+    workers : int, optional
+        Local processes computing the table points (when ``client`` is None).
+    client : distributed.Client, optional
+        A Dask client computing the table points.
+    table_options : dict, optional
+        ``tol``, ``nodes``, ``max_splits``, ``validate`` of :func:`diagap.fastpath.study_table`.
+
+    Returns
+    -------
+    (diagap.evaluate.KeyEvaluator, TableBuild)
+    """
+    from diagap.evaluate import KeyEvaluator, fast_path_installed
+
+    keys = tuple(keys)
+    if exact:
+        return KeyEvaluator(keys, True), TableBuild(False, reason="exact evaluation requested")
+    if not fast_path_installed():  # pragma: no cover - depends on the installed version
+        return KeyEvaluator(keys, False), TableBuild(False, reason="fast path not installed")
+    from diagap.fastpath import StudyBox, mapper_for, study_table
+
+    options = dict(table_options or {})
+    t0 = time.perf_counter()
+    try:
+        box = StudyBox(design, tuple((p, float(lo), float(hi)) for p, lo, hi in ranges))
+        study_table(box, mapper=mapper_for(workers, client), **options)
+    except Exception as exc:  # noqa: BLE001 - any failure of the table means exact evaluations
+        reason = f"{type(exc).__name__}: {exc}".splitlines()[0]
+        log.warning("study table not available, every point runs the full FE (%s)", reason)
+        return KeyEvaluator(keys, False), TableBuild(False, time.perf_counter() - t0, reason)
+    seconds = time.perf_counter() - t0
+    log.info("study table over %s ready in %.1f s", ", ".join(box.paths), seconds)
+    return (KeyEvaluator(keys, False, box, tuple(sorted(options.items()))),
+            TableBuild(True, seconds))
