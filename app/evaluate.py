@@ -16,11 +16,11 @@ Two ways to get them:
   the whole run.
 
 The fast path is tried unless ``exact=True``; a design outside its tables, or a requested path
-that the tables do not cover, falls back to the exact path. Without a study box the fast path
-covers the ``mechanics`` outputs only (the scaled diaphragm table); with a
-:class:`diagap.fastpath.StudyBox` (the bounds of the values a study varies) it covers every
-numeric output of the mechanics to response sections that its table certifies. :func:`evaluate_with_path` says
-which one answered. A requested path that the design does not produce (e.g. the sensitivity of a
+that the tables do not cover, falls back to the exact path; :func:`evaluate_with_path` says
+which one answered. Without a study box the fast path covers the ``mechanics`` outputs only (the
+scaled diaphragm table); with a :class:`diagap.fastpath.StudyBox` (the bounds of the values a
+study varies) it covers every numeric output of the mechanics to response sections that its
+table certifies. A requested path that the design does not produce (e.g. the sensitivity of a
 collapsed design, biased at or above pull-in) is NaN.
 """
 from __future__ import annotations

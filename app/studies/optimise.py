@@ -17,6 +17,10 @@ limit), each gradient one batch of 2n + 1 designs evaluated together
 its finished evaluations. A design the pipeline cannot evaluate (NaN, e.g. collapsed) counts as
 violating every limit.
 
+Evaluations: unless every point is to run the full FE (``exact``), the certified table over the
+variables' bounds is built once before the search (:mod:`diagap.studies.tables`) and the
+search reads it; outputs it does not certify run the full FE.
+
 Verification: the optimum is evaluated again with the full FE pipeline (``exact``), and every
 limit is checked on those values; a limit is reported active when its margin is below
 ``active_tol`` of its scale.

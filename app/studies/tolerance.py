@@ -2,7 +2,10 @@
 
 Varied design values X (distributions and correlations, :mod:`diagap.studies.sampling`) are
 sampled N times; each sample is a design evaluated for the output paths Y_k (the fast tables or
-the full FE, :mod:`diagap.evaluate`). Reported per output: mean, standard deviation (ddof = 1)
+the full FE, :mod:`diagap.evaluate`). Unless every point is to run the full FE, the certified
+table over the box of the varied values (uniform: its bounds; normal: mean ± 4σ clipped to the
+schema's range) is built once before the samples, and samples outside it run the full FE
+(:mod:`diagap.studies.tables`). Reported per output: mean, standard deviation (ddof = 1)
 and the 5, 50 and 95 % percentiles (linear interpolation between order statistics); the yield is
 the fraction of the N samples whose outputs all meet the spec limits
 (:class:`diagap.studies.spec.Limit`); a sample that cannot be evaluated (e.g. an invalid
