@@ -146,12 +146,25 @@ def test_bias_supply_noise_is_silent_without_a_source():
     assert bd.levels_dba["readout"] is not None
 
 
+class _Packaged:
+    """The model of a solved circuit, marked as having package elements."""
+
+    package = "package elements"
+
+    def __init__(self, model):
+        self._m = model
+
+    def __getattr__(self, name):
+        return getattr(self._m, name)
+
+
 class _WithElementNoise:
-    """A solved circuit that reports its thermal sources per element (as a circuit with
+    """A solved circuit of a packaged model that reports its thermal sources per element (as
     ``thermal_noise_output_psds`` does): the breakdown must take them from there."""
 
     def __init__(self, solution, psds):
         self._s, self._psds = solution, psds
+        self.model = _Packaged(solution.model)
 
     def __getattr__(self, name):
         return getattr(self._s, name)
