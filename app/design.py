@@ -32,7 +32,7 @@ from diagap.thermal_model import (ThermalModel, check_hole_knudsen, operating_st
 
 __all__ = [
     "DesignError", "Design", "Diaphragm", "Backplate", "Acoustics", "Electrical", "Analysis",
-    "load_design", "parse_design", "demo_design", "demo_text", "starter_text", "with_override",
+    "load_design", "read_design_table", "parse_design", "demo_design", "demo_text", "starter_text", "with_override",
     "with_overrides", "SCHEMA",
 ]
 
@@ -256,6 +256,25 @@ def _need(section: str, values: dict, key: str, why: str) -> float:
     return values[key]
 
 
+def _elastic_properties(section: str, v: dict, need: str, sep: str) -> dict:
+    """Young's modulus, Poisson's ratio and density of a plate section: each given value, else
+    the section's material preset, else a one-line error naming the key and the presets."""
+    preset = MATERIALS.get(v["material"]) if v["material"] else None
+    props = {}
+    for key, attr in (("youngs_modulus", "youngs_modulus_pa"), ("poisson_ratio", "poisson_ratio"),
+                      ("density", "density_kg_m3")):
+        if v[key] is not None:
+            props[attr] = v[key]
+        elif preset is not None:
+            props[attr] = getattr(preset, attr)
+        else:
+            f = SCHEMA[section][key]
+            raise DesignError(f"{section}.{key}: missing ({need}"
+                              f"{' in ' + f.unit if f.unit else ''}{sep} or a {section}.material "
+                              f"preset: {', '.join(MATERIALS)})")
+    return props
+
+
 def _diaphragm(raw: dict) -> Diaphragm:
     v = _section(raw, "diaphragm")
     circle = v["shape"] == "circle"
@@ -264,18 +283,7 @@ def _diaphragm(raw: dict) -> Diaphragm:
         raise DesignError(f"diaphragm.{other}: not used for shape = {v['shape']!r} "
                           f"(give diaphragm.{size_key})")
     size = _need("diaphragm", v, size_key, f"for shape = {v['shape']!r}")
-    props = {}
-    preset = MATERIALS.get(v["material"]) if v["material"] else None
-    for key, attr in (("youngs_modulus", "youngs_modulus_pa"), ("poisson_ratio", "poisson_ratio"),
-                      ("density", "density_kg_m3")):
-        if v[key] is not None:
-            props[attr] = v[key]
-        elif preset is not None:
-            props[attr] = getattr(preset, attr)
-        else:
-            f = SCHEMA["diaphragm"][key]
-            raise DesignError(f"diaphragm.{key}: missing (give it{' in ' + f.unit if f.unit else ''}"
-                              f" or a diaphragm.material preset: {', '.join(MATERIALS)})")
+    props = _elastic_properties("diaphragm", v, "give it", "")
     if v["thickness"] * MIN_SLENDERNESS > size:
         raise DesignError(f"diaphragm.thickness = {v['thickness']:g} m: must be at most 1/"
                           f"{MIN_SLENDERNESS:g} of the diaphragm {size_key} ({size:g} m), "
@@ -371,19 +379,7 @@ def _backplate_plate(v: dict) -> "BackplatePlate | None":
     """The compliant-backplate material when any of its keys is given, else None (rigid)."""
     if all(v[k] is None for k in _PLATE_KEYS):
         return None
-    preset = MATERIALS.get(v["material"]) if v["material"] else None
-    props = {}
-    for key, attr in (("youngs_modulus", "youngs_modulus_pa"), ("poisson_ratio", "poisson_ratio"),
-                      ("density", "density_kg_m3")):
-        if v[key] is not None:
-            props[attr] = v[key]
-        elif preset is not None:
-            props[attr] = getattr(preset, attr)
-        else:
-            f = SCHEMA["backplate"][key]
-            raise DesignError(f"backplate.{key}: missing (a compliant backplate needs it"
-                              f"{' in ' + f.unit if f.unit else ''}, or a backplate.material "
-                              f"preset: {', '.join(MATERIALS)})")
+    props = _elastic_properties("backplate", v, "a compliant backplate needs it", ",")
     return BackplatePlate(props["youngs_modulus_pa"], props["poisson_ratio"],
                           props["density_kg_m3"], v["residual_stress"] or 0.0,
                           v["edge"] or "clamped", v["material"])
@@ -508,6 +504,17 @@ def load_design(path: str | Path) -> Design:
     DesignError
         Missing, oversized or unreadable file, invalid TOML or an invalid value (one line).
     """
+    return parse_design(read_design_table(path), str(path))
+
+
+def read_design_table(path: str | Path) -> dict:
+    """The TOML table of a design file, unvalidated: at most :data:`MAX_FILE_BYTES` read, UTF-8.
+
+    Raises
+    ------
+    DesignError
+        Missing, oversized or unreadable file, or invalid TOML (one line).
+    """
     p = Path(path)
     try:
         with open(p, "rb") as fh:
@@ -523,7 +530,7 @@ def load_design(path: str | Path) -> Design:
         text = data.decode("utf-8")
     except UnicodeDecodeError:
         raise DesignError(f"{p}: cannot read design file (not UTF-8 text)") from None
-    return parse_design(_loads(text, str(p)), str(p))
+    return _loads(text, str(p))
 
 
 def _data(name: str) -> str:

@@ -154,22 +154,10 @@ def load_study(path, section: str) -> tuple:
     DesignError
         An unreadable file or design, or a missing or malformed section (one line).
     """
-    from diagap.design import MAX_FILE_BYTES, _loads
+    from diagap.design import read_design_table
 
     p = Path(path)
-    try:
-        with open(p, "rb") as fh:
-            data = fh.read(MAX_FILE_BYTES + 1)
-    except FileNotFoundError:
-        raise DesignError(f"{p}: design file not found") from None
-    except OSError as exc:
-        raise DesignError(f"{p}: cannot read design file ({exc.__class__.__name__})") from None
-    if len(data) > MAX_FILE_BYTES:
-        raise DesignError(f"{p}: design file larger than {MAX_FILE_BYTES // 1000} kB")
-    try:
-        raw = _loads(data.decode("utf-8"), str(p))
-    except UnicodeDecodeError:
-        raise DesignError(f"{p}: cannot read design file (not UTF-8 text)") from None
+    raw = read_design_table(p)
     studies = {s: raw.pop(s) for s in STUDY_SECTIONS if s in raw}
     design = parse_design(raw, str(p))
     table = studies.get(section)
