@@ -21,7 +21,7 @@ import secrets
 import time
 from pathlib import Path
 
-__all__ = ["write_outputs", "json_ready", "STALE_TMP_S"]
+__all__ = ["write_outputs", "json_ready", "STALE_TMP_S", "produce_into", "move_into"]
 
 STALE_TMP_S = 2 * 3600.0  # a temporary folder older than this belongs to a killed run
 
@@ -115,20 +115,33 @@ def write_outputs(result, out: Path, report: bool = True) -> list[Path]:
     tmp = out.parent / f"{_tmp_prefix(out)}{os.getpid()}-{secrets.token_hex(6)}"
     try:
         tmp.mkdir(mode=0o700)
-        names = []
-        for fname, func in _producers(result, report):
-            target = tmp / fname
-            target.parent.mkdir(parents=True, exist_ok=True)
-            func(target)
-            names.append(fname)
+        names = produce_into(tmp, _producers(result, report))
         earlier = earlier_outputs(out)
-        written = []
-        for fname in names:
-            dest = out / fname
-            dest.parent.mkdir(parents=True, exist_ok=True)
-            os.replace(tmp / fname, dest)
-            written.append(dest)
+        written = move_into(tmp, out, names)
         _remove_earlier(out, earlier, names)
         return written
     finally:
         shutil.rmtree(tmp, ignore_errors=True)
+
+
+def produce_into(tmp: Path, producers) -> list[str]:
+    """Run ``producers`` (``(relative name, f(path))`` pairs) into the folder ``tmp``; the names
+    (which may contain sub-folders, ``plots/response.png``) in order."""
+    names = []
+    for fname, func in producers:
+        target = tmp / fname
+        target.parent.mkdir(parents=True, exist_ok=True)
+        func(target)
+        names.append(fname)
+    return names
+
+
+def move_into(tmp: Path, out: Path, names) -> list[Path]:
+    """Move the files ``names`` from ``tmp`` into ``out`` (each an atomic rename); the paths."""
+    written = []
+    for fname in names:
+        dest = out / fname
+        dest.parent.mkdir(parents=True, exist_ok=True)
+        os.replace(tmp / fname, dest)
+        written.append(dest)
+    return written

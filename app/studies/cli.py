@@ -6,6 +6,8 @@ import argparse
 import sys
 from pathlib import Path
 
+from diagap.sweep.cli import positive_int
+
 __all__ = ["add_parsers", "COMMANDS"]
 
 _RESUME = ("resuming: finished evaluations are kept in OUT/evaluations.jsonl; run the same "
@@ -14,21 +16,11 @@ _RESUME = ("resuming: finished evaluations are kept in OUT/evaluations.jsonl; ru
            "130 interrupted.")
 
 
-def _positive(text: str) -> int:
-    try:
-        n = int(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
-    if n < 1:
-        raise argparse.ArgumentTypeError(f"{n} must be >= 1")
-    return n
-
-
 def _runner_options(p) -> None:
     p.add_argument("--exact", action="store_true",
                    help="evaluate every design with the full FE pipeline (default: the fast "
                    "tables where they cover the design)")
-    p.add_argument("--workers", type=_positive, default=1, metavar="K",
+    p.add_argument("--workers", type=positive_int, default=1, metavar="K",
                    help="local worker processes (default 1: this process)")
     p.add_argument("--scheduler", metavar="ADDRESS", help="run the evaluations on a Dask "
                    "cluster (e.g. tcp://host:8786); needs the diagap[cluster] extra")
@@ -45,7 +37,7 @@ def add_parsers(sub, add_common) -> None:
                        epilog=_RESUME, formatter_class=fmt)
     t.add_argument("design", help="design file (TOML) with a [tolerances] section")
     t.add_argument("-o", "--out", default="diagap-tolerance", help="output folder")
-    t.add_argument("-n", "--samples", type=_positive, help="number of samples N")
+    t.add_argument("-n", "--samples", type=positive_int, help="number of samples N")
     t.add_argument("--method", choices=("lhs", "sobol"), help="Latin hypercube or Sobol")
     t.add_argument("--seed", type=int, help="seed of the sampling")
     _runner_options(t)
@@ -56,7 +48,7 @@ def add_parsers(sub, add_common) -> None:
                        "and a trade-off plot.", epilog=_RESUME, formatter_class=fmt)
     o.add_argument("design", help="design file (TOML) with an [optimise] section")
     o.add_argument("-o", "--out", default="diagap-optimise", help="output folder")
-    o.add_argument("--starts", type=_positive, help="number of starting points")
+    o.add_argument("--starts", type=positive_int, help="number of starting points")
     _runner_options(o)
     add_common(o)
     f = sub.add_parser("fit", help="fit design values to a measured C-V curve",

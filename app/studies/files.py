@@ -108,18 +108,8 @@ def write_study_files(out_dir, producers) -> list[Path]:
     tmp = out / f".study-{os.getpid()}-{secrets.token_hex(6)}.tmp"
     try:
         tmp.mkdir(mode=0o700)
-        names = []
-        for name, func in producers:
-            target = tmp / name
-            target.parent.mkdir(parents=True, exist_ok=True)
-            func(target)
-            names.append(name)
-        written = []
-        for name in names:
-            dest = out / name
-            dest.parent.mkdir(parents=True, exist_ok=True)
-            os.replace(tmp / name, dest)
-            written.append(dest)
-        return written
+        from diagap.writer import move_into, produce_into
+
+        return move_into(tmp, out, produce_into(tmp, producers))
     finally:
         shutil.rmtree(tmp, ignore_errors=True)

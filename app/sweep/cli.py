@@ -67,7 +67,7 @@ def add_parser(sub, add_common, epilog: str = "") -> argparse.ArgumentParser:
                    help="a design key and its values (see below); repeat for more keys")
     p.add_argument("-o", "--out", default="diagap-sweep",
                    help="output folder (default: diagap-sweep)")
-    p.add_argument("--workers", type=_positive_int, metavar="N",
+    p.add_argument("--workers", type=positive_int, metavar="N",
                    help="local worker processes (default: the number of cores; 1: no pool)")
     p.add_argument("--scheduler", metavar="ADDRESS",
                    help="run the points on a Dask cluster at ADDRESS (e.g. tcp://host:8786); "
@@ -85,7 +85,8 @@ def add_parser(sub, add_common, epilog: str = "") -> argparse.ArgumentParser:
     return p
 
 
-def _positive_int(text: str) -> int:
+def positive_int(text: str) -> int:
+    """argparse type: a whole number >= 1 (one-line message otherwise)."""
     try:
         n = int(text)
     except ValueError:
