@@ -21,7 +21,7 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["large_deflection_section", "audit_pressure_pa"]
+__all__ = ["large_deflection_section", "large_deflection_lane", "audit_pressure_pa"]
 
 #: SPL (dB) of the audit row when no acoustic overload point was computed
 AUDIT_SPL_DB = 120.0
@@ -57,38 +57,85 @@ def large_deflection_section(design, problem, es, resp: dict | None = None,
     """The ``large_deflection`` summary section (a :class:`diagap.stages.Section`);
     ``reference``: solved by full Newton from unextrapolated starts (for checks of the default
     chord iteration, see :func:`diagap.fem.plate.large_deflection.solve_large_deflection`)."""
-    from diagap.dielectrics import effective_bias_v
-    from diagap.fem.coupling.plate import load_from_density
-    from diagap.fem.plate.large_deflection import ElectrostaticBias, solve_large_deflection
-    from diagap.lumped.quasistatic import QuasiStaticTransfer, pa_to_spl
-    from diagap.stages import Section, electrode_quadrature
+    return large_deflection_lane(design, problem, es, with_bias, reference=reference,
+                                 receive=lambda: (resp, with_bias))
 
-    b, e, acc = design.backplate, design.electrical, design.analysis.accuracy
-    clearance = b.clearance_m
-    spl_a, p_a = audit_pressure_pa(resp)
-    pressures = list(design.analysis.static_pressures_pa)
-    plain = solve_large_deflection(problem, pressures + [p_a], acc, clearance_m=clearance,
-                                   both_signs=False, reference=reference)
-    n = len(pressures)
+
+def large_deflection_lane(design, problem, es, with_bias: bool | None = None, *, receive,
+                          reference: bool = False):
+    """:func:`large_deflection_section` with the response section supplied late, so the section
+    can be computed on a second process while the coupled, damping and response stages run
+    (:class:`diagap.forked.ForkedCall`).
+
+    ``receive()`` is called once, after the traces, when only the deflections at the requested
+    pressures are left; it returns ``(resp, with_bias)``: the response section's summary (or
+    None) and whether the biased part belongs to the section (None: as ``with_bias`` says).
+    ``with_bias`` None: not known yet (the coupled stage decides whether the bias collapses the
+    diaphragm), so the biased part is computed if the design has a bias and kept or dropped on
+    ``receive()``; a failure of that speculative part counts only if the part is kept. The
+    solver results in ``objects`` are detached (numbers only, no FE fields): the section is
+    picklable.
+    """
+    from diagap.fem.plate.large_deflection import solve_large_deflection
+    from diagap.fem.plate.vonkarman import NewtonError
+    from diagap.stages import Section
+
+    b = design.backplate
+    biased_part = None
+    if with_bias or (with_bias is None and design.electrical is not None):
+        try:
+            biased_part = _biased(design, problem, es, reference)
+        except NewtonError as exc:
+            if with_bias:
+                raise
+            biased_part = exc
+    audit = {}
+
+    def pressures():
+        resp, keep = receive()
+        audit["keep"] = with_bias if keep is None else keep
+        audit["spl"], audit["pa"] = audit_pressure_pa(resp)
+        return list(design.analysis.static_pressures_pa) + [audit["pa"]]
+    plain = solve_large_deflection(problem, pressures, design.analysis.accuracy,
+                                   clearance_m=b.clearance_m, both_signs=False,
+                                   reference=reference).detached()
+    n = len(design.analysis.static_pressures_pa)
     data = plain.to_summary()
     data.update({
         "pressures_pa": data["pressures_pa"][:n],
         "center_deflection_m": data["center_deflection_m"][:n],
         "linear_center_deflection_m": data["linear_center_deflection_m"][:n],
         "stopper_height_m": b.stopper_height_m,
-        "audit_spl_db": spl_a,
-        "audit_pressure_pa": p_a,
+        "audit_spl_db": audit["spl"],
+        "audit_pressure_pa": audit["pa"],
         "audit_center_deflection_m": plain.center_deflection_m[-1],
         "audit_linear_center_deflection_m": plain.linear_center_deflection_m[-1],
     })
     unc = dict(plain.uncertainty)
-    if not with_bias:
+    if not audit["keep"] or biased_part is None:
         return Section(data, unc, {"plain": plain})
+    if isinstance(biased_part, Exception):
+        raise biased_part
+    bdata, bunc, objects = biased_part
+    data.update(bdata)
+    unc.update(bunc)
+    return Section(data, unc, {"plain": plain} | objects)
+
+
+def _biased(design, problem, es, reference: bool):
+    """(data, uncertainty, objects) of the trace at bias: contact, C(p), quasi-static THD."""
+    from diagap.dielectrics import effective_bias_v
+    from diagap.fem.coupling.plate import load_from_density
+    from diagap.fem.plate.large_deflection import ElectrostaticBias, solve_large_deflection
+    from diagap.lumped.quasistatic import QuasiStaticTransfer, pa_to_spl
+    from diagap.stages import electrode_quadrature
+
+    b, e, acc = design.backplate, design.electrical, design.analysis.accuracy
     density = es.objects["density"]
     rng = (density.gap_min_m, density.gap_max_m)
     bias = ElectrostaticBias(b.electrode_size_m, b.gap_m, effective_bias_v(design),
                              load_from_density(density, b.gap_m), rng)
-    biased = solve_large_deflection(problem, [0.0], acc, clearance_m=clearance, bias=bias,
+    biased = solve_large_deflection(problem, [0.0], acc, clearance_m=b.clearance_m, bias=bias,
                                     reference=reference)
     xq, yq, wq = electrode_quadrature(design)
     c = _density_ext(density, *rng)
@@ -101,19 +148,19 @@ def large_deflection_section(design, problem, es, resp: dict | None = None,
     transfer = QuasiStaticTransfer(tuple(p_b[stable]), tuple(np.array(caps)[stable]),
                                    effective_bias_v(design), shunt, None,
                                    biased.contact_pressure_pa)
-    thd_point = transfer.thd_point_spl_db(0.10)
-    data.update({
+    data = {
         "contact_pressure_at_bias_pa": biased.contact_pressure_pa,
         "contact_spl_db_at_bias": None if not biased.contact_pressure_pa
         else float(pa_to_spl(biased.contact_pressure_pa)),
         "curve_at_bias": [[float(p), float(w), float(cc)] for p, w, cc in
                           zip(p_b, biased.curve_deflections_m, caps)],
-        "thd_10pct_spl_db_quasistatic": thd_point,
+        "thd_10pct_spl_db_quasistatic": transfer.thd_point_spl_db(0.10),
         "thd_vs_spl_quasistatic": transfer.thd_vs_spl(np.arange(80.0, 161.0, 5.0)),
-    })
+    }
+    unc = {}
     if "contact_pressure_pa" in biased.uncertainty:
         unc["contact_pressure_at_bias_pa"] = biased.uncertainty["contact_pressure_pa"]
-    return Section(data, unc, {"plain": plain, "biased": biased, "transfer": transfer})
+    return data, unc, {"biased": biased.detached(), "transfer": transfer}
 
 
 def _stable_branch(p: np.ndarray) -> np.ndarray:

@@ -164,7 +164,8 @@ def _skipped(design: Design, collapsed: bool) -> dict[str, str]:
     return out
 
 
-def run_design(design: Design, max_memory_b: float | None = None) -> RunResult:
+def run_design(design: Design, max_memory_b: float | None = None,
+               parallel: bool | None = None) -> RunResult:
     """Run every stage of the analysis for ``design``.
 
     Parameters
@@ -194,15 +195,21 @@ def run_design(design: Design, max_memory_b: float | None = None) -> RunResult:
     point; without [acoustics] the damping uses air at 20 degC and 101.325 kPa and the lumped
     response is left out. ``max_memory_b`` (default: the design's ``analysis.max_memory``, else
     :data:`diagap.budget.DEFAULT_MAX_MEMORY_B`) bounds the estimated peak memory.
+
+    The large deflection runs on a forked child process (the second core) while the coupled,
+    damping and response stages run here (:class:`diagap.forked.ForkedCall`): ``parallel``
+    False keeps it in this process, None (default) forks where :func:`diagap.forked.can_fork`
+    allows (not inside a sweep's or a study's worker processes). The results are the same to
+    the last bit either way; ``timings_s["large_deflection"]`` is then the wait for the child.
     """
     from diagap.fem.plate.solver import solve_plate
-    from diagap.fem.plate.vonkarman import NewtonError
 
     from diagap.audit import audit_design
     from diagap.budget import check_run_size
+    from diagap.forked import ForkedCall
+    from diagap.overload import large_deflection_lane
     from diagap.packaged import packaged_section
-    from diagap.stages import (coupled_stage, damping_stage, electrostatics_stage,
-                               large_deflection_stage, lumped_model, response_stage)
+    from diagap.stages import electrostatics_stage
 
     check_run_size(design, max_memory_b)
     from diagap.thermal import point_designs, temperature_sweep
@@ -220,6 +227,30 @@ def run_design(design: Design, max_memory_b: float | None = None) -> RunResult:
         mech = result.sections["mechanics"] = solve_backplate_mechanics(design, mech)
         result.timings_s["mechanics"] += time.perf_counter() - t0
     es = _stage(result, "electrostatics", electrostatics_stage, design, mech)
+    # the large deflection needs only the electrostatic table: on the second core meanwhile
+    lane = ForkedCall(large_deflection_lane, design, problem, es, None, fork=parallel)
+    try:
+        _middle_stages(result, design, problem, es, mech, lane)
+    except BaseException:
+        lane.cancel()
+        raise
+    if "response" in result.sections:  # overload point, dynamic range, scope (diagap.packaged)
+        result.sections["response"] = packaged_section(
+            design, result.sections["response"], result.sections.get("large_deflection"))
+    sections = {k: v.to_summary() for k, v in result.sections.items()}
+    _stage(result, "audit", audit_design, design, sections)
+    if design.thermal is not None and design.analysis.temperatures_k:
+        _stage(result, "temperature_sweep", temperature_sweep, design, es)
+    return result
+
+
+def _middle_stages(result: RunResult, design: Design, problem, es, mech, lane) -> None:
+    """Coupled, damping and response here, then the large deflection from ``lane``."""
+    from diagap.fem.plate.vonkarman import NewtonError
+
+    from diagap.stages import coupled_stage, damping_stage, lumped_model, response_stage
+
+    acc = design.analysis.accuracy
     cp = _stage(result, "coupled", coupled_stage, design, problem, es, mech)
     coupled = cp.objects["coupled"]
     result.collapsed = design.electrical is not None and bool(coupled.collapsed)
@@ -237,16 +268,8 @@ def run_design(design: Design, max_memory_b: float | None = None) -> RunResult:
         _stage(result, "response", response_stage, model, result.summary()["uncertainty"],
                dist, acc, readout=design.readout, scope=response_scope(design))
     resp = result.sections["response"].to_summary() if "response" in result.sections else None
+    lane.send((resp, not (result.collapsed or design.electrical is None)))
     try:
-        _stage(result, "large_deflection", large_deflection_stage, design, problem, es, resp,
-               result.collapsed or design.electrical is None)
+        _stage(result, "large_deflection", lane.result)
     except NewtonError as exc:  # the section is then absent, the rest of the run stands
         log.warning("large deflection not computed: %s", exc)
-    if "response" in result.sections:  # overload point, dynamic range, scope (diagap.packaged)
-        result.sections["response"] = packaged_section(
-            design, result.sections["response"], result.sections.get("large_deflection"))
-    sections = {k: v.to_summary() for k, v in result.sections.items()}
-    _stage(result, "audit", audit_design, design, sections)
-    if design.thermal is not None and design.analysis.temperatures_k:
-        _stage(result, "temperature_sweep", temperature_sweep, design, es)
-    return result

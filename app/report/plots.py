@@ -113,58 +113,27 @@ def _render(plots) -> dict[str, bytes]:
     return out
 
 
-def _render_to(conn, plots) -> None:
-    """Forked child: the PNG bytes of ``plots`` sent through ``conn`` (None on any failure).
-
-    The child draws only: the run's signal handlers (which clean the output folder up on
-    SIGTERM/SIGHUP) are the parent's business, so the child takes the default actions."""
-    import signal
-
-    for name in ("SIGTERM", "SIGHUP", "SIGINT"):
-        if hasattr(signal, name):
-            signal.signal(getattr(signal, name), signal.SIG_DFL)
-    try:
-        conn.send(_render(plots))
-    except Exception:  # the parent then draws these plots itself
-        conn.send(None)
-    finally:
-        conn.close()
+def _render_child(plots, receive=None) -> dict[str, bytes]:
+    return _render(plots)
 
 
 def _render_parallel(plots) -> dict[str, bytes]:
-    """Draw ``plots`` split between this process and one forked child (two cores); without
-    ``fork`` (or on one core, or if the child fails) everything is drawn here."""
-    import multiprocessing as mp
-    import os
+    """Draw ``plots`` split between this process and one forked child (two cores, see
+    :class:`diagap.forked.ForkedCall`); without a child everything is drawn here."""
+    from diagap.forked import ForkedCall
 
-    if len(plots) < 2 or (os.cpu_count() or 1) < 2 or mp.current_process().daemon or \
-            "fork" not in mp.get_all_start_methods():
+    if len(plots) < 2:
         return _render(plots)
     theirs = plots[1::2]  # interleaved: the costly plots are spread over the report
-    ctx = mp.get_context("fork")
-    recv, send = ctx.Pipe(duplex=False)
-    try:
-        child = ctx.Process(target=_render_to, args=(send, theirs), daemon=True)
-        child.start()
-    except Exception:  # noqa: BLE001 - no child: draw everything here
-        recv.close()
-        send.close()
+    call = ForkedCall(_render_child, theirs)
+    if not call.forked:
         return _render(plots)
-    send.close()
     try:
         out = _render(plots[0::2])
-        got = None
-        try:
-            if recv.poll(CHILD_TIMEOUT_S):
-                got = recv.recv()
-        except (EOFError, OSError):
-            pass
-    finally:
-        if child.is_alive():
-            child.terminate()
-        child.join()
-        recv.close()
-    return out | (got if isinstance(got, dict) else _render(theirs))
+    except BaseException:
+        call.cancel()
+        raise
+    return out | call.result(CHILD_TIMEOUT_S)
 
 
 class RenderedPlots:

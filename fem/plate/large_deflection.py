@@ -41,7 +41,7 @@ from diagap.fem.levels import ORDER, RATIO, richardson
 from diagap.fem.plate.vonkarman import NewtonError, WLoad, build_von_karman
 
 __all__ = ["LargeDeflectionResult", "ElectrostaticBias", "solve_large_deflection",
-           "level_systems", "trace_level"]
+           "level_systems", "trace_states", "requested_deflections"]
 
 #: largest centre-deflection step of the trace, in thicknesses, and the fewest and most trace
 #: steps per direction (the most win over the step for deep strokes)
@@ -109,10 +109,20 @@ class LargeDeflectionResult:
     _system: object = field(default=None, repr=False, compare=False)
 
     def curve_field_m(self, i: int, x_m, y_m) -> np.ndarray:
-        """Deflection (m) of traced state ``i`` at SI points (no domain mask)."""
+        """Deflection (m) of traced state ``i`` at SI points (no domain mask); not available on
+        a :meth:`detached` copy."""
         vk = self._system
+        if vk is None:
+            raise RuntimeError("the traced fields were not kept (a detached result)")
         q = vk.split(self._states[i])[0] * vk.h
         return vk.plate.evaluate(q, x_m, y_m)
+
+    def detached(self) -> "LargeDeflectionResult":
+        """This result without its FE system and states (picklable, small): every number stays,
+        :meth:`curve_field_m` goes."""
+        from dataclasses import replace
+
+        return replace(self, _states=(), _system=None)
 
     def to_summary(self) -> dict:
         return {
@@ -241,12 +251,13 @@ def _trace_side(vk, x0, P0, W0, W_end, n_steps, stop_after_fold, reference=False
     return out
 
 
-def trace_level(vk, pressures_pa, clearance_m=None, travel_m=None, full: bool = True,
-                both_signs: bool = True, reference: bool = False):
-    """Everything computed on one mesh level (see :func:`solve_large_deflection`); with
-    ``full`` False (the coarse level, used only for the error estimates) the trace away from the
-    backplate is skipped and the steps toward it are twice as long; ``both_signs`` False skips
-    it on every level."""
+def trace_states(vk, clearance_m=None, travel_m=None, full: bool = True,
+                 both_signs: bool = True, reference: bool = False) -> dict:
+    """The traced curve of one mesh level (see :func:`solve_large_deflection`): the p = 0
+    equilibrium, its compliance, the states (both signs when asked), the stable ones (starts for
+    requested pressures) and the scaled contact pressure. With ``full`` False (the coarse level,
+    used only for the error estimates) the trace away from the backplate is skipped and the steps
+    toward it are twice as long; ``both_signs`` False skips it on every level."""
     h, ps = vk.h, vk.pressure_scale_pa
     x0, _ = vk.solve_pressure(0.0, vk.zero())
     W_b = float(vk.center @ vk.split(x0)[0])
@@ -268,19 +279,26 @@ def trace_level(vk, pressures_pa, clearance_m=None, travel_m=None, full: bool = 
         stable = dn + stable + up[:k + 1]
         if clearance_m is not None:
             contact = _contact(vk, up, reference)
+    return {"contact": contact, "compliance": compliance, "states": states, "stable": stable}
+
+
+def requested_deflections(vk, traced: dict, pressures_pa) -> list:
+    """Centre deflections (m) at ``pressures_pa`` on the level of ``traced`` (a
+    :func:`trace_states` result; None at or past contact), each solved by pressure continuation
+    from the nearest stable traced state; the solved states join ``traced["stable"]``."""
+    stable, contact = traced["stable"], traced["contact"]
     results = []
     for p in pressures_pa:
-        P = p / ps
+        P = p / vk.pressure_scale_pa
         if contact is not None and P >= contact:
             results.append(None)
             continue
         start = _nearest(stable, P)
         x = _continue_pressure(vk, P, start[2], start[1])
         W = float(vk.center @ vk.split(x)[0])
-        results.append(W * h)
+        results.append(W * vk.h)
         stable.append((W, P, x))  # a start for the next pressures of a ramp
-    return {"w": results, "contact": None if contact is None else contact * ps,
-            "compliance": compliance, "states": states}
+    return results
 
 
 def _contact(vk, up, reference=False):
@@ -339,14 +357,23 @@ def solve_large_deflection(problem, pressures_pa, accuracy: str = "normal",
     reference : full Newton (a fresh tangent at every iterate) started from the last traced state
         instead of the chord iteration from extrapolated starts; the same equilibria to the
         solver tolerance, for checks of the fast path
+
+    ``pressures_pa`` may be a callable returning the sequence: it is called once, after both
+    levels are traced (the requested deflections come last, so a caller can compute them in
+    parallel with other work and supply the pressures when known).
     """
     systems = level_systems(problem, accuracy, bias)
     for vk in systems:
         vk.FULL_NEWTON = reference
-    levels = [trace_level(vk, pressures_pa, clearance_m, travel_m,
-                          full=(i == len(systems) - 1), both_signs=both_signs,
-                          reference=reference)
+    traced = [trace_states(vk, clearance_m, travel_m, full=(i == len(systems) - 1),
+                           both_signs=both_signs, reference=reference)
               for i, vk in enumerate(systems)]
+    if callable(pressures_pa):
+        pressures_pa = pressures_pa()
+    levels = [{"w": requested_deflections(vk, t, pressures_pa),
+               "contact": None if t["contact"] is None else t["contact"] * vk.pressure_scale_pa,
+               "compliance": t["compliance"], "states": t["states"]}
+              for vk, t in zip(systems, traced)]
     coarse, fine = levels
     order = ORDER[problem.shape]
     unc = {}
