@@ -21,7 +21,8 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["large_deflection_section", "large_deflection_lane", "audit_pressure_pa"]
+__all__ = ["large_deflection_section", "plain_part", "biased_part", "assemble_section",
+           "audit_pressure_pa"]
 
 #: SPL (dB) of the audit row when no acoustic overload point was computed
 AUDIT_SPL_DB = 120.0
@@ -56,46 +57,26 @@ def large_deflection_section(design, problem, es, resp: dict | None = None,
                              with_bias: bool = True, reference: bool = False):
     """The ``large_deflection`` summary section (a :class:`diagap.stages.Section`);
     ``reference``: solved by full Newton from unextrapolated starts (for checks of the default
-    chord iteration, see :func:`diagap.fem.plate.large_deflection.solve_large_deflection`)."""
-    return large_deflection_lane(design, problem, es, with_bias, reference=reference,
-                                 receive=lambda: (resp, with_bias))
+    chord iteration, see :func:`diagap.fem.plate.large_deflection.solve_large_deflection`).
+    The two traces are independent: :mod:`diagap.overload_lanes` runs them on two processes."""
+    biased = biased_part(design, problem, es, reference) if with_bias else None
+    return assemble_section(plain_part(design, problem, audit_pressure_pa(resp), reference),
+                            biased)
 
 
-def large_deflection_lane(design, problem, es, with_bias: bool | None = None, *, receive,
-                          reference: bool = False):
-    """:func:`large_deflection_section` with the response section supplied late, so the section
-    can be computed on a second process while the coupled, damping and response stages run
-    (:class:`diagap.forked.ForkedCall`).
-
-    ``receive()`` is called once, after the traces, when only the deflections at the requested
-    pressures are left; it returns ``(resp, with_bias)``: the response section's summary (or
-    None) and whether the biased part belongs to the section (None: as ``with_bias`` says).
-    ``with_bias`` None: not known yet (the coupled stage decides whether the bias collapses the
-    diaphragm), so the biased part is computed if the design has a bias and kept or dropped on
-    ``receive()``; a failure of that speculative part counts only if the part is kept. The
-    solver results in ``objects`` are detached (numbers only, no FE fields): the section is
-    picklable.
-    """
+def plain_part(design, problem, audit, reference: bool = False):
+    """(data, uncertainty, detached result) of the trace without bias and the deflections at
+    the requested pressures and at the audit pressure. ``audit``: (SPL dB, pressure Pa), or a
+    callable returning it, called once after the trace (when only the requested deflections
+    are left)."""
     from diagap.fem.plate.large_deflection import solve_large_deflection
-    from diagap.fem.plate.vonkarman import NewtonError
-    from diagap.stages import Section
 
     b = design.backplate
-    biased_part = None
-    if with_bias or (with_bias is None and design.electrical is not None):
-        try:
-            biased_part = _biased(design, problem, es, reference)
-        except NewtonError as exc:
-            if with_bias:
-                raise
-            biased_part = exc
-    audit = {}
+    got = {}
 
     def pressures():
-        resp, keep = receive()
-        audit["keep"] = with_bias if keep is None else keep
-        audit["spl"], audit["pa"] = audit_pressure_pa(resp)
-        return list(design.analysis.static_pressures_pa) + [audit["pa"]]
+        got["spl"], got["pa"] = audit() if callable(audit) else audit
+        return list(design.analysis.static_pressures_pa) + [got["pa"]]
     plain = solve_large_deflection(problem, pressures, design.analysis.accuracy,
                                    clearance_m=b.clearance_m, both_signs=False,
                                    reference=reference).detached()
@@ -106,24 +87,31 @@ def large_deflection_lane(design, problem, es, with_bias: bool | None = None, *,
         "center_deflection_m": data["center_deflection_m"][:n],
         "linear_center_deflection_m": data["linear_center_deflection_m"][:n],
         "stopper_height_m": b.stopper_height_m,
-        "audit_spl_db": audit["spl"],
-        "audit_pressure_pa": audit["pa"],
+        "audit_spl_db": got["spl"],
+        "audit_pressure_pa": got["pa"],
         "audit_center_deflection_m": plain.center_deflection_m[-1],
         "audit_linear_center_deflection_m": plain.linear_center_deflection_m[-1],
     })
-    unc = dict(plain.uncertainty)
-    if not audit["keep"] or biased_part is None:
-        return Section(data, unc, {"plain": plain})
-    if isinstance(biased_part, Exception):
-        raise biased_part
-    bdata, bunc, objects = biased_part
+    return data, dict(plain.uncertainty), plain
+
+
+def assemble_section(plain, biased=None):
+    """The section from :func:`plain_part` and :func:`biased_part` (None: without bias)."""
+    from diagap.stages import Section
+
+    data, unc, result = plain
+    data, unc = dict(data), dict(unc)
+    if biased is None:
+        return Section(data, unc, {"plain": result})
+    bdata, bunc, objects = biased
     data.update(bdata)
     unc.update(bunc)
-    return Section(data, unc, {"plain": plain} | objects)
+    return Section(data, unc, {"plain": result} | objects)
 
 
-def _biased(design, problem, es, reference: bool):
-    """(data, uncertainty, objects) of the trace at bias: contact, C(p), quasi-static THD."""
+def biased_part(design, problem, es, reference: bool = False):
+    """(data, uncertainty, detached objects) of the trace at bias: contact, C(p), quasi-static
+    THD."""
     from diagap.dielectrics import effective_bias_v
     from diagap.fem.coupling.plate import load_from_density
     from diagap.fem.plate.large_deflection import ElectrostaticBias, solve_large_deflection

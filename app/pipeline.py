@@ -196,18 +196,18 @@ def run_design(design: Design, max_memory_b: float | None = None,
     response is left out. ``max_memory_b`` (default: the design's ``analysis.max_memory``, else
     :data:`diagap.budget.DEFAULT_MAX_MEMORY_B`) bounds the estimated peak memory.
 
-    The large deflection runs on a forked child process (the second core) while the coupled,
-    damping and response stages run here (:class:`diagap.forked.ForkedCall`): ``parallel``
+    The large deflection runs partly on a forked child process (the second core) while the
+    coupled, damping and response stages run here (:mod:`diagap.overload_lanes`): ``parallel``
     False keeps it in this process, None (default) forks where :func:`diagap.forked.can_fork`
     allows (not inside a sweep's or a study's worker processes). The results are the same to
-    the last bit either way; ``timings_s["large_deflection"]`` is then the wait for the child.
+    the last bit either way; ``timings_s["large_deflection"]`` is then the time this process
+    spent on it after the response (its share and the wait for the child).
     """
     from diagap.fem.plate.solver import solve_plate
 
     from diagap.audit import audit_design
     from diagap.budget import check_run_size
-    from diagap.forked import ForkedCall
-    from diagap.overload import large_deflection_lane
+    from diagap.overload_lanes import LargeDeflectionLanes
     from diagap.packaged import packaged_section
     from diagap.stages import electrostatics_stage
 
@@ -228,7 +228,7 @@ def run_design(design: Design, max_memory_b: float | None = None,
         result.timings_s["mechanics"] += time.perf_counter() - t0
     es = _stage(result, "electrostatics", electrostatics_stage, design, mech)
     # the large deflection needs only the electrostatic table: on the second core meanwhile
-    lane = ForkedCall(large_deflection_lane, design, problem, es, None, fork=parallel)
+    lane = LargeDeflectionLanes(design, problem, es, parallel)
     try:
         _middle_stages(result, design, problem, es, mech, lane)
     except BaseException:
@@ -268,8 +268,8 @@ def _middle_stages(result: RunResult, design: Design, problem, es, mech, lane) -
         _stage(result, "response", response_stage, model, result.summary()["uncertainty"],
                dist, acc, readout=design.readout, scope=response_scope(design))
     resp = result.sections["response"].to_summary() if "response" in result.sections else None
-    lane.send((resp, not (result.collapsed or design.electrical is None)))
     try:
-        _stage(result, "large_deflection", lane.result)
+        _stage(result, "large_deflection", lane.section, resp,
+               not (result.collapsed or design.electrical is None))
     except NewtonError as exc:  # the section is then absent, the rest of the run stands
         log.warning("large deflection not computed: %s", exc)

@@ -38,8 +38,7 @@ import numpy as np
 from diagap.design import Design
 
 __all__ = ["electrostatics_stage", "coupled_stage", "damping_stage", "lumped_model",
-           "electrostatic_spring", "large_deflection_stage",
-           "response_stage", "Section", "electrode_quadrature"]
+           "electrostatic_spring", "response_stage", "Section", "electrode_quadrature"]
 
 #: the c(g) table covers local gaps from GAP_TABLE[0]·g to GAP_TABLE[1]·g: the C(x) curve
 #: (±g/3), the coupled branch up to and just past the fold, and the distortion model's travel.
@@ -316,16 +315,6 @@ def _package(design: Design, air):
     from diagap.package_design import gas_from_air, package_acoustics
 
     return package_acoustics(design, gas_from_air(air))
-
-
-def large_deflection_stage(design: Design, problem, es: Section, resp: dict | None,
-                           no_bias: bool = False) -> Section:
-    """Large deflection up to contact, without and with bias, and the quasi-static overload point
-    (see :mod:`diagap.overload`); without the biased part when the bias collapses the diaphragm
-    or the design has no [electrical] section."""
-    from diagap.overload import large_deflection_section
-
-    return large_deflection_section(design, problem, es, resp, with_bias=not no_bias)
 
 
 # the response stage lives in its own module; its names stay importable from here

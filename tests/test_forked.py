@@ -103,3 +103,29 @@ def test_pipeline_with_the_second_process_gives_the_same_summary():
     assert "large_deflection" in both.sections
     assert both.sections["large_deflection"].data["thd_10pct_spl_db_quasistatic"] is not None
     assert _strip(serial.summary()) == _strip(both.summary())
+
+
+def _line_plot(k):
+    from diagap.report.plots import Plot, new_figure
+
+    def draw():
+        fig, ax = new_figure()
+        x = np.linspace(0.0, 1.0, 50)
+        ax.plot(x, x**k, label=f"x^{k}")
+        ax.legend()
+        return fig
+    return Plot(f"p{k}", "mechanics", f"power {k}", "invented test curve", draw)
+
+
+@needs_fork
+def test_plots_drawn_on_two_processes_are_the_bytes_drawn_here():
+    from diagap.report.plots import RenderedPlots
+
+    plots = [_line_plot(k) for k in range(1, 6)]
+    both = RenderedPlots(plots, parallel=True)
+    both.start()
+    assert both._call is not None and both._call.forked
+    got = {p.name: b for p, b in both.items()}
+    alone = {p.name: b for p, b in RenderedPlots(plots, parallel=False).items()}
+    assert list(got) == [p.name for p in plots]
+    assert got == alone

@@ -102,12 +102,16 @@ def report_files(result, report: bool = True):
 
     cell = cell_field(result.design) if "electrostatics" in result.sections else None
     rendered = RenderedPlots(report_plots(result, cell))
-    others = list(_lumped_files(result)) + list(_field_files(result, cell))
-    yield from others
-    for plot in rendered.plots:
-        yield f"plots/{plot.name}.png", lambda p, n=plot.name: p.write_bytes(rendered.png(n))
-    listed = ["summary.json"] + [n for n, _ in others] + \
-        [f"plots/{p.name}.png" for p in rendered.plots]
-    yield "report.html", lambda p: write_report_html(result, rendered.items(), p, listed)
-    yield MANIFEST, lambda p: p.write_text(manifest_text([*listed, "report.html"]),
-                                           encoding="utf-8")
+    rendered.start()  # a second process draws while the other files are written here
+    try:
+        others = list(_lumped_files(result)) + list(_field_files(result, cell))
+        yield from others
+        for plot in rendered.plots:
+            yield f"plots/{plot.name}.png", lambda p, n=plot.name: p.write_bytes(rendered.png(n))
+        listed = ["summary.json"] + [n for n, _ in others] + \
+            [f"plots/{p.name}.png" for p in rendered.plots]
+        yield "report.html", lambda p: write_report_html(result, rendered.items(), p, listed)
+        yield MANIFEST, lambda p: p.write_text(manifest_text([*listed, "report.html"]),
+                                               encoding="utf-8")
+    finally:
+        rendered.close()

@@ -105,53 +105,82 @@ def png_bytes(fig, dpi: int = DPI) -> bytes:
     return buf.getvalue()
 
 
-def _render(plots) -> dict[str, bytes]:
+def _take(plots, counter) -> dict[str, bytes]:
+    """Draw plots from the shared queue ``counter`` (the index of the next plot not yet taken by
+    either process) until it runs out."""
     out = {}
     with print_style():
-        for plot in plots:
-            out[plot.name] = png_bytes(plot.draw())
-    return out
+        while True:
+            with counter.get_lock():
+                i = counter.value
+                counter.value = i + 1
+            if i >= len(plots):
+                return out
+            out[plots[i].name] = png_bytes(plots[i].draw())
 
 
-def _render_child(plots, receive=None) -> dict[str, bytes]:
-    return _render(plots)
-
-
-def _render_parallel(plots) -> dict[str, bytes]:
-    """Draw ``plots`` split between this process and one forked child (two cores, see
-    :class:`diagap.forked.ForkedCall`); without a child everything is drawn here."""
-    from diagap.forked import ForkedCall
-
-    if len(plots) < 2:
-        return _render(plots)
-    theirs = plots[1::2]  # interleaved: the costly plots are spread over the report
-    call = ForkedCall(_render_child, theirs)
-    if not call.forked:
-        return _render(plots)
-    try:
-        out = _render(plots[0::2])
-    except BaseException:
-        call.cancel()
-        raise
-    return out | call.result(CHILD_TIMEOUT_S)
+def _take_child(plots, counter, receive=None) -> dict[str, bytes]:
+    return _take(plots, counter)
 
 
 class RenderedPlots:
     """The PNG bytes of each plot, drawn once: all of them on the first request, on two
-    processes where the platform can fork (:func:`_render_parallel`)."""
+    processes where the platform can fork (:class:`diagap.forked.ForkedCall`).
+
+    Both processes take the next plot not yet drawn from one shared queue (so the two cores stay
+    busy to the end whatever each plot costs). :meth:`start` lets the child begin while this
+    process writes other files; a plot the child did not deliver is drawn here."""
 
     def __init__(self, plots: list[Plot], parallel: bool | None = None):
         self.plots = list(plots)
         self.parallel = PARALLEL if parallel is None else parallel
         self._png: dict[str, bytes] = {}
+        self._call = self._counter = None
+
+    def start(self) -> None:
+        """Start the forked child drawing (no-op when not parallel or already started)."""
+        if not self.parallel or self._call is not None or len(self.plots) < 2:
+            return
+        import multiprocessing as mp
+
+        from diagap.forked import ForkedCall, can_fork
+
+        if not can_fork():
+            return
+        self._counter = mp.get_context("fork").Value("i", 0)
+        self._call = ForkedCall(_take_child, self.plots, self._counter)
+        if not self._call.forked:
+            self._call = self._counter = None
+
+    def _finish(self) -> None:
+        self.start()
+        if self._call is not None:
+            try:
+                self._png.update(_take(self.plots, self._counter))
+            except BaseException:
+                self._call.cancel()
+                raise
+            self._png.update(self._call.result(CHILD_TIMEOUT_S))
+            self._call = None
+        missing = [p for p in self.plots if p.name not in self._png]
+        with print_style():
+            for plot in missing:  # no child, or it failed: drawn here
+                self._png[plot.name] = png_bytes(plot.draw())
+
+    def close(self) -> None:
+        """Stop a child that is still drawing (when the plots are no longer wanted)."""
+        if self._call is not None:
+            self._call.cancel()
+            self._call = None
 
     def png(self, name: str) -> bytes:
         if name not in self._png:
-            todo = [p for p in self.plots if p.name not in self._png]
             if self.parallel:
-                self._png.update(_render_parallel(todo))
+                self._finish()
             else:
-                self._png.update(_render([next(p for p in todo if p.name == name)]))
+                with print_style():
+                    plot = next(p for p in self.plots if p.name == name)
+                    self._png[name] = png_bytes(plot.draw())
         return self._png[name]
 
     def items(self):
