@@ -10,8 +10,8 @@ with their own design.
   (1e-10), so every output must agree far inside its stated error estimate: the check asks for
   1 % of it and, tighter, 1e-10 relative (measured: ≤ 2e-12; a chord tolerance loosened to
   1e-6 fails it).
-- Pull-in of a clamped disk under a full electrode against the membrane-free plate closed form
-  is checked in tests/test_coupled_plate.py; here only the agreement of the two solution paths.
+- The physics of pull-in (the membrane limit of Pelesko & Bernstein 2002, convergence under
+  refinement) is checked in tests/test_coupled_plate.py; here only the two solution paths.
 """
 from __future__ import annotations
 
