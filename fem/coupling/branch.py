@@ -124,23 +124,38 @@ def _point(solver: EquilibriumSolver, u, lam, stability: bool = True) -> Equilib
     return EquilibriumPoint(float(solver.c @ u), float(np.sqrt(max(lam, 0.0))), u, mu)
 
 
-def _flattened(pts) -> bool:
-    """Exact tangent slopes once the branch flattens (λ' below half its start)."""
-    return len(pts) >= 2 and pts[-1][3] < 0.5 * pts[0][3]
+def _lagrange(x: np.ndarray, w0: float) -> np.ndarray:
+    """Weights of the values at the nodes x giving the interpolating polynomial at w0."""
+    return np.array([np.prod([(w0 - x[j]) / (x[i] - x[j]) for j in range(len(x)) if j != i])
+                     for i in range(len(x))])
 
 
 def _extrapolate(pts, w0):
     """(u, λ) at w0 by polynomial extrapolation through the last (up to four) branch points."""
     last = pts[-PREDICTOR_POINTS:]
-    x = np.array([p[0] for p in last])
-    weights = np.array([np.prod([(w0 - x[j]) / (x[i] - x[j]) for j in range(len(x)) if j != i])
-                        for i in range(len(x))])
+    weights = _lagrange(np.array([p[0] for p in last]), w0)
     u = sum(wt * p[2] for wt, p in zip(weights, last))
     return u, float(sum(wt * p[1] for wt, p in zip(weights, last)))
 
 
+def _slope_estimate(pts, w, lam) -> float:
+    """dλ/dw0 at the new point (w, λ) from the branch values: the derivative of the polynomial
+    through it and the last (up to three) points; from rest, of the quadratic with the exact
+    slope s0 there."""
+    if len(pts) == 1:
+        return 2.0 * lam / w - pts[0][3]
+    last = pts[-(PREDICTOR_POINTS - 1):]
+    x = np.array([p[0] for p in last] + [w])
+    y = np.array([p[1] for p in last] + [lam])
+    t = (x - w) / (x[-1] - x[0])  # centred and scaled nodes
+    coef = np.polynomial.polynomial.polyfit(t, y, len(x) - 1)
+    return float(coef[1] / (x[-1] - x[0]))
+
+
 #: branch points through which the next one is extrapolated (a cubic)
 PREDICTOR_POINTS = 4
+#: below this fraction of its value at rest the branch slope is taken from the tangent
+EXACT_SLOPE_BELOW = 0.25
 
 
 def trace_branch(system: CouplingSystem, load: ElectrostaticLoad, gap_m: float, *,
@@ -150,11 +165,14 @@ def trace_branch(system: CouplingSystem, load: ElectrostaticLoad, gap_m: float, 
 
     The centre deflection w0 is stepped uniformly (cubic extrapolation of the last points as the
     predictor, Newton corrector reusing the last factorised tangent) up to ``max_fraction``·g,
-    stopping one step after the fold. Along the branch dλ/dw0 = 1/(cᵀJ⁻¹f); the fold is its zero,
+    stopping one step after the fold. Along the branch dλ/dw0 = 1/(cᵀJ⁻¹f), computed with the
+    tangent factorised at the point once the slope estimated from the branch values (derivative
+    of the cubic through the last points) falls below ``EXACT_SLOPE_BELOW`` of its value at rest
+    or λ stops rising, so the fold is never stepped over unseen; the fold is its zero,
     found inside the bracketing step by a safeguarded secant iteration (or Brent's method with
     ``full_newton``) to 1e-10·g, so V_PI is accurate to the Newton tolerance, not to the step
-    size. ``fold_hint`` = (w0, dλ'/dw0) near the fold (e.g. from a coarser mesh) starts that
-    search. ``full_newton``: Newton–Raphson with a fresh tangent at every iterate (the reference).
+    size. ``fold_hint`` = (w0, λ'') at the fold of a coarser mesh helps that search.
+    ``full_newton``: Newton–Raphson with a fresh tangent at every iterate (the reference).
     """
     solver = solver_for(system, load, gap_m, full_newton)
     u = np.zeros(solver.n)
@@ -173,14 +191,15 @@ def trace_branch(system: CouplingSystem, load: ElectrostaticLoad, gap_m: float, 
             u_pred, lam_pred = _extrapolate(pts, w0)
         else:
             u_pred, lam_pred = (w0 / s0) * a0, w0 / s0
-        exact = _flattened(pts)
         try:
-            u_k, lam_k = solver.displacement_control(w0, u_pred, lam_pred, exact_slope=exact)
+            u_k, lam_k = solver.displacement_control(w0, u_pred, lam_pred)
+            slope, direction = _slope_estimate(pts, w0, lam_k), None
+            if full_newton or slope < EXACT_SLOPE_BELOW * pts[0][3] or lam_k <= pts[-1][1]:
+                slope, direction = solver.slope(lam_k, u_k), solver.last_direction
         except CoupledError:
             break
-        pts.append((w0, lam_k, u_k, solver.last_slope,
-                    solver.last_direction if exact or full_newton else None))
-        if solver.last_slope < 0:
+        pts.append((w0, lam_k, u_k, slope, direction))
+        if slope < 0:
             break
     if pts[-1][3] >= 0:
         raise CoupledError(f"no pull-in found up to a centre deflection of "
@@ -212,8 +231,9 @@ def _fold_brent(solver, lo, hi, gap_m, hint=None):
     return w_pi, u_pi, lam_pi, (hi[3] - lo[3]) / (hi[0] - lo[0])
 
 
-def _hermite_fold(lo, hi) -> float:
-    """Zero of λ' of the cubic Hermite interpolant of λ(w0) on [lo, hi] (values and slopes)."""
+def _hermite_fold(lo, hi):
+    """Zero of λ' of the cubic Hermite interpolant of λ(w0) on [lo, hi] (values and slopes), and
+    the interpolant's λ'' there."""
     h = hi[0] - lo[0]
     d = (hi[1] - lo[1]) / h
     # λ'(w) on t ∈ [0, 1] is quadratic: s_lo + (6d − 4s_lo − 2s_hi) t + (3s_lo + 3s_hi − 6d) t²
@@ -221,46 +241,42 @@ def _hermite_fold(lo, hi) -> float:
     roots = np.roots([c2, c1, c0]) if abs(c2) > 1e-14 * abs(c1) else np.array([-c0 / c1])
     roots = [t.real for t in np.atleast_1d(roots) if abs(t.imag) < 1e-12 and 0 < t.real < 1]
     t = roots[0] if roots else lo[3] / (lo[3] - hi[3])
-    return lo[0] + t * h
+    return lo[0] + t * h, (c1 + 2 * c2 * t) / h
 
 
 def _fold_secant(solver, lo, hi, gap_m, hint=None):
     """The fold (zero of the exact slope) by a safeguarded secant iteration inside [lo, hi].
 
-    Start: ``hint`` (w0, dλ'/dw0) if it lies inside the bracket (a first Newton step with that
-    derivative), else the fold of the cubic Hermite interpolant. Each evaluation is a Newton solve
-    started on the tangent of the nearest evaluated point, with the exact slope; a secant step
-    leaving the current bracket is replaced by regula falsi on it. Stops when the step is below
-    ``FOLD_XTOL``·g; the last point is then solved (its equilibrium is the pull-in point).
+    Start: the fold of the cubic Hermite interpolant of the bracketing points, with a first
+    Newton step using λ'' from ``hint`` (w0, λ'') of a coarser mesh if given, else that of the
+    interpolant. Each evaluation is a Newton solve started on the tangent of the nearest evaluated
+    point, with the exact slope; a secant step leaving the current bracket is replaced by regula
+    falsi on it. Stops when the step is below ``FOLD_XTOL``·g; the last point is then solved
+    (its equilibrium is the pull-in point). Returns (w0, u, λ, λ'') of the fold.
     """
     xtol = FOLD_XTOL * gap_m
-    a, b = lo, hi  # (w, λ, u, slope), slope(a) > 0 > slope(b)
+    a, b = lo, hi  # (w, λ, u, slope, du/dw0 or None), slope(a) > 0 > slope(b)
     known = [lo, hi]
-    deriv = None
-    if hint is not None and lo[0] < hint[0] < hi[0]:
-        x, deriv = float(hint[0]), float(hint[1])
-    else:
-        x = _hermite_fold(lo, hi)
+    x, deriv = _hermite_fold(lo, hi)
+    if hint is not None and np.isfinite(hint[1]) and hint[1] < 0:
+        deriv = float(hint[1])
     prev = None
     for _ in range(60):
         near = min(known, key=lambda p: abs(p[0] - x))
         direction = near[4]
         u0 = near[2] + (x - near[0]) * direction if direction is not None else near[2]
-        u_x, lam_x = solver.displacement_control(x, u0, near[1] + (x - near[0]) * near[3],
-                                                 exact_slope=True)
-        p = (x, lam_x, u_x, solver.last_slope, solver.last_direction)
+        u_x, lam_x = solver.displacement_control(x, u0, near[1] + (x - near[0]) * near[3])
+        p = (x, lam_x, u_x, solver.slope(lam_x, u_x), solver.last_direction)
         known.append(p)
         if p[3] == 0.0:
-            return x, u_x, lam_x, deriv if deriv is not None else (b[3] - a[3]) / (b[0] - a[0])
+            return x, u_x, lam_x, deriv
         if p[3] > 0:
             a = p
         else:
             b = p
         if prev is not None and prev[3] != p[3]:
             deriv = (p[3] - prev[3]) / (p[0] - prev[0])
-        elif deriv is None:
-            deriv = (b[3] - a[3]) / (b[0] - a[0])
-        x_new = p[0] - p[3] / deriv if deriv != 0 else 0.5 * (a[0] + b[0])
+        x_new = p[0] - p[3] / deriv if deriv < 0 else 0.5 * (a[0] + b[0])
         if not a[0] < x_new < b[0]:  # regula falsi on the bracket
             x_new = a[0] - a[3] * (b[0] - a[0]) / (b[3] - a[3])
         prev = p
