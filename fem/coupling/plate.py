@@ -187,17 +187,20 @@ def solve_coupled(problem, accuracy: str, electrode_size_m: float, gap_m: float,
     the disk's boundary order, plus a floor of 2e-5). The finer level's fold search starts from
     the coarser level's fold. ``full_newton``: Newton–Raphson with a fresh tangent at every
     iterate and Brent's method for the fold (the reference for the default chord iteration)."""
+    from threadpoolctl import threadpool_limits
+
     from diagap.fem.levels import NOISE_FLOOR
     from diagap.fem.richardson import relative_error
 
     plates, ratio = plate_levels(problem, COUPLING_MESHES.get(accuracy, accuracy), electrode_size_m)
     load = load_from_density(density, gap_m)
     levels, hint = [], None
-    for p in plates[-2:]:
-        levels.append(_level(p, problem.shape, electrode_size_m, gap_m, load, bias_voltage_v,
-                             full_newton, hint))
-        br = levels[-1]["branch"]
-        hint = (br.pull_in_center_deflection_m, br.fold_curvature_v2_per_m2)
+    with threadpool_limits(limits=1):  # small dense kernels: threads only add contention
+        for p in plates[-2:]:
+            levels.append(_level(p, problem.shape, electrode_size_m, gap_m, load,
+                                 bias_voltage_v, full_newton, hint))
+            br = levels[-1]["branch"]
+            hint = (br.pull_in_center_deflection_m, br.fold_curvature_v2_per_m2)
     fine, coarse = levels[-1], levels[-2]
     collapsed = "w_b" not in fine
 

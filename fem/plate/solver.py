@@ -348,8 +348,11 @@ def solve_plate(problem: PlateProblem, accuracy: str = "normal", n_modes: int = 
 
         levels, order, extra = membrane_levels(problem, accuracy, n_modes, measure)
     else:
+        from threadpoolctl import threadpool_limits
+
         sizes = mesh_sizes(problem.shape, accuracy, _layer_width(problem))
-        levels = [measure(assemble_plate(problem, s), problem, n_modes) for s in sizes]
+        with threadpool_limits(limits=1):  # small dense kernels: threads only add contention
+            levels = [measure(assemble_plate(problem, s), problem, n_modes) for s in sizes]
         order, extra = ORDER[problem.shape], 0.0
     fine = levels[-1]
     return PlateResult(
