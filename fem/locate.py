@@ -13,6 +13,10 @@ from scipy.spatial import cKDTree
 
 __all__ = ["TriangleLocator"]
 
+#: smallest barycentric coordinate above which a point is taken as strictly inside a triangle
+#: (well above the rounding of the coordinates, ~1e-16 for scaled meshes)
+INSIDE = 1e-12
+
 
 class TriangleLocator:
     """Find the triangle holding each point.
@@ -42,9 +46,24 @@ class TriangleLocator:
         return np.stack([1.0 - lam[:, 0] - lam[:, 1], lam[:, 0], lam[:, 1]])
 
     def find(self, x: np.ndarray, y: np.ndarray) -> np.ndarray:
-        """Triangle index for each point (flattened input)."""
+        """Triangle index for each point (flattened input).
+
+        A point strictly inside the triangle of its nearest centroid (smallest barycentric
+        coordinate above ``INSIDE``) has its answer at once (triangles do not overlap, so no
+        other candidate can hold it better); the others try the ``candidates`` nearest.
+        """
         x = np.ravel(x).astype(float)
         y = np.ravel(y).astype(float)
+        _, first = self.tree.query(np.stack([x, y], axis=1), k=1)
+        first = np.asarray(first, dtype=np.int64).reshape(x.size)
+        inside = self.barycentric(x, y, first).min(axis=0) > INSIDE
+        if inside.all():
+            return first
+        rest = ~inside
+        first[rest] = self._search(x[rest], y[rest])
+        return first
+
+    def _search(self, x: np.ndarray, y: np.ndarray) -> np.ndarray:
         _, cand = self.tree.query(np.stack([x, y], axis=1), k=self.k)
         cand = cand.reshape(x.size, self.k)
         best = np.full(x.size, -np.inf)

@@ -28,8 +28,21 @@ def coupling_system(plate, shape: str, electrode_size_m: float) -> CouplingSyste
     """The coupling view of an assembled Argyris plate system ``plate``.
 
     ``electrode_size_m`` is the electrode radius (circle) or side (square). Quadrature points whose
-    element centroid lies inside the electrode carry the electrostatic load.
+    element centroid lies inside the electrode carry the electrostatic load. Made once per plate
+    and electrode (kept with the plate, with the plate's stiffness factorisation), so every stage
+    that couples the same plate shares its solvers.
     """
+    key = ("coupling", shape, float(electrode_size_m))
+    cache = getattr(plate, "_cache", None)
+    if cache is not None and key in cache:
+        return cache[key]
+    cs = _coupling_system(plate, shape, electrode_size_m)
+    if cache is not None:
+        cache[key] = cs
+    return cs
+
+
+def _coupling_system(plate, shape: str, electrode_size_m: float) -> CouplingSystem:
     basis = plate.basis
     L = plate.length_m
     mesh = basis.mesh
@@ -52,16 +65,31 @@ def coupling_system(plate, shape: str, electrode_size_m: float) -> CouplingSyste
     Bq = (interp @ plate.B).tocsr()
     weights = (basis.dx[elems] * L**2).ravel()
     center = plate.point_functional(0.0, 0.0)
-    return CouplingSystem(K=plate.K, B=Bq, weights=weights, center=center, M=plate.M)
+    factor = plate.factor() if hasattr(plate, "factor") else None
+    return CouplingSystem(K=plate.K, B=Bq, weights=weights, center=center, M=plate.M,
+                          stiffness_factor=factor)
 
 
 def load_from_density(density, gap_m: float) -> ElectrostaticLoad:
     """π(ĝ) = −dc/dĝ from a capacitance-density object with ``slope(g)`` and ``curvature(g)``
-    (dc/dĝ and d²c/dĝ²), or parallel plates when ``density`` is None."""
+    (dc/dĝ and d²c/dĝ²), or parallel plates when ``density`` is None. The same object for the
+    same density object (kept while the last few densities are), so that solves of different
+    stages on one plate share their solver (:func:`diagap.fem.coupling.corrector.solver_for`)."""
+    hit = _LOADS.get(id(density))
+    if hit is not None and hit[0] is density:
+        return hit[1]
     if density is None:
-        return ElectrostaticLoad.parallel_plate()
-    return ElectrostaticLoad(lambda g: -density.slope(g), lambda g: -density.curvature(g),
-                             min_gap_m=0.0)
+        load = ElectrostaticLoad.parallel_plate()
+    else:
+        load = ElectrostaticLoad(lambda g: -density.slope(g), lambda g: -density.curvature(g),
+                                 min_gap_m=0.0)
+    _LOADS[id(density)] = (density, load)
+    while len(_LOADS) > 8:
+        _LOADS.pop(next(iter(_LOADS)))
+    return load
+
+
+_LOADS: dict = {}  # id(density) -> (density, load), oldest first
 
 
 @dataclass(frozen=True)
@@ -104,16 +132,17 @@ class CoupledResult:
         return out
 
 
-def _level(plate, shape, electrode_size_m, gap_m, load, bias_v):
+def _level(plate, shape, electrode_size_m, gap_m, load, bias_v, full_newton=False,
+           fold_hint=None):
     cs = coupling_system(plate, shape, electrode_size_m)
-    br = trace_branch(cs, load, gap_m)
+    br = trace_branch(cs, load, gap_m, full_newton=full_newton, fold_hint=fold_hint)
     f_p = plate.load_vector(1.0)
     out = {"v_pi": br.pull_in_voltage_v, "w_pi": br.pull_in_center_deflection_m, "branch": br}
     zero = EquilibriumPoint(0.0, 0.0, np.zeros(cs.K.shape[0]), 1.0)
     out["f0"] = float(softened_modes(cs, load, gap_m, zero)[0])
     out["c0"] = center_compliance(cs, load, gap_m, zero, f_p)
     if bias_v < br.pull_in_voltage_v:
-        pt = equilibrium_at_voltage(cs, load, gap_m, bias_v, br)
+        pt = equilibrium_at_voltage(cs, load, gap_m, bias_v, br, full_newton=full_newton)
         out["w_b"] = pt.center_deflection_m
         out["f_b"] = float(softened_modes(cs, load, gap_m, pt)[0])
         out["c_b"] = center_compliance(cs, load, gap_m, pt, f_p)
@@ -128,10 +157,12 @@ COUPLING_MESHES = {"draft": "draft", "normal": "draft", "fine": "normal"}
 
 def plate_levels(problem, accuracy: str, electrode_size_m: float):
     """Assembled plate systems of the accuracy setting's mesh levels (coarse first), each mesh
-    embedding the electrode edge. Returns (systems, size ratio between levels)."""
+    embedding the electrode edge. Returns (systems, size ratio between levels). The systems are
+    shared within the process (:mod:`diagap.fem.plate.shared`): treat them as read-only."""
     from diagap.meshes.diaphragm import disk_mesh, square_mesh
 
     from diagap.fem.levels import RATIO, mesh_sizes
+    from diagap.fem.plate.shared import shared_plate
     from diagap.fem.plate.solver import _layer_width, assemble_plate
 
     L = problem.length_scale_m
@@ -139,25 +170,37 @@ def plate_levels(problem, accuracy: str, electrode_size_m: float):
     inner = None if inner >= 1.0 - 1e-9 else inner
     make = disk_mesh if problem.shape == "circle" else square_mesh
     sizes = mesh_sizes(problem.shape, accuracy, _layer_width(problem))
-    systems = [assemble_plate(problem, make(s.h_center, s.h_edge, s.grading, inner=inner))
-               for s in sizes]
+    def build(s):
+        return lambda: assemble_plate(problem, make(s.h_center, s.h_edge, s.grading, inner=inner))
+
+    systems = [shared_plate(problem, s, inner, build(s)) for s in sizes]
     return systems, RATIO
 
 
 def solve_coupled(problem, accuracy: str, electrode_size_m: float, gap_m: float,
-                  bias_voltage_v: float, density=None) -> CoupledResult:
+                  bias_voltage_v: float, density=None, *, full_newton: bool = False
+                  ) -> CoupledResult:
     """Pull-in and the bias point of the diaphragm ``problem`` (a :class:`diagap.fem.plate.solver.PlateProblem`)
     on the mesh levels of ``accuracy``; ``density`` is the capacitance density of the gap (None:
     solid parallel plates). The meshes are those of ``COUPLING_MESHES[accuracy]``. Values are the
     finest level's; the error estimates compare the two finest levels (Richardson with order 2,
-    the disk's boundary order, plus a floor of 2e-5)."""
+    the disk's boundary order, plus a floor of 2e-5). The finer level's fold search starts from
+    the coarser level's fold. ``full_newton``: Newton–Raphson with a fresh tangent at every
+    iterate and Brent's method for the fold (the reference for the default chord iteration)."""
+    from threadpoolctl import threadpool_limits
+
     from diagap.fem.levels import NOISE_FLOOR
     from diagap.fem.richardson import relative_error
 
     plates, ratio = plate_levels(problem, COUPLING_MESHES.get(accuracy, accuracy), electrode_size_m)
     load = load_from_density(density, gap_m)
-    levels = [_level(p, problem.shape, electrode_size_m, gap_m, load, bias_voltage_v)
-              for p in plates[-2:]]
+    levels, hint = [], None
+    with threadpool_limits(limits=1):  # small dense kernels: threads only add contention
+        for p in plates[-2:]:
+            levels.append(_level(p, problem.shape, electrode_size_m, gap_m, load,
+                                 bias_voltage_v, full_newton, hint))
+            br = levels[-1]["branch"]
+            hint = (br.pull_in_center_deflection_m, br.fold_curvature_v2_per_m2)
     fine, coarse = levels[-1], levels[-2]
     collapsed = "w_b" not in fine
 

@@ -37,8 +37,8 @@ import numpy as np
 import scipy.sparse as sp
 
 from diagap.fem.coupling.branch import (Branch, CouplingSystem, ElectrostaticLoad,
-                                        EquilibriumPoint, _Solver, equilibrium_at_voltage,
-                                        trace_branch)
+                                        EquilibriumPoint, equilibrium_at_voltage, trace_branch)
+from diagap.fem.coupling.corrector import solver_for
 
 __all__ = ["pair_system", "PairPoint", "pair_point", "pair_modes", "pair_response",
            "PairLevel", "solve_pair"]
@@ -56,10 +56,26 @@ def pair_system(diaphragm: CouplingSystem, backplate: CouplingSystem) -> Couplin
     M = None
     if diaphragm.M is not None and backplate.M is not None:
         M = sp.block_diag([diaphragm.M, backplate.M]).tocsc()
+    factor = None
+    if diaphragm.stiffness_factor is not None and backplate.stiffness_factor is not None:
+        factor = _BlockFactor(diaphragm.stiffness_factor, backplate.stiffness_factor,
+                              diaphragm.K.shape[0])
     return CouplingSystem(
         K=sp.block_diag([diaphragm.K, backplate.K]).tocsc(),
         B=sp.hstack([diaphragm.B, backplate.B]).tocsr(), weights=w_d,
-        center=np.concatenate([diaphragm.center, backplate.center]), M=M)
+        center=np.concatenate([diaphragm.center, backplate.center]), M=M,
+        stiffness_factor=factor)
+
+
+class _BlockFactor:
+    """Solves with the block-diagonal stiffness of the pair from the two plates' factorisations."""
+
+    def __init__(self, first, second, n_first: int):
+        self.first, self.second, self.n = first, second, n_first
+
+    def solve(self, rhs):
+        rhs = np.asarray(rhs, float)
+        return np.concatenate([self.first.solve(rhs[:self.n]), self.second.solve(rhs[self.n:])])
 
 
 @dataclass(frozen=True)
@@ -86,9 +102,9 @@ def pair_modes(pair: CouplingSystem, load: ElectrostaticLoad, gap_m: float,
 
     from diagap.fem.coupling.branch import _start_vector
 
-    s = _Solver(pair, load, gap_m)
+    s = solver_for(pair, load, gap_m)
     lam = point.voltage_v**2
-    J = (s.K - s.BT @ sp.diags(lam * s.g_diag(point.u)) @ s.B).tocsc()
+    J = s.tangent(lam, point.u)
     M = sp.csc_matrix(pair.M)
     k = min(n_modes, J.shape[0] - 2)
     if J.shape[0] <= 10:
@@ -96,8 +112,12 @@ def pair_modes(pair: CouplingSystem, load: ElectrostaticLoad, gap_m: float,
 
         vals, vecs = eigh(J.toarray(), M.toarray())
         vals, vecs = vals[:n_modes], vecs[:, :n_modes]
-    else:
-        vals, vecs = spla.eigsh(J, k=k, M=M, sigma=0.0, which="LM", v0=_start_vector(J.shape[0]))
+    else:  # shift-invert about 0 with the tangent factorised at the point (shared)
+        lu = s.factor_t(lam, point.u)
+        op = spla.LinearOperator(J.shape, matvec=lambda x: lu.solve(np.asarray(x, float)),
+                                 dtype=float)
+        vals, vecs = spla.eigsh(J, k=k, M=M, sigma=0.0, which="LM", OPinv=op,
+                                v0=_start_vector(J.shape[0]))
     order = np.argsort(vals)
     vals, vecs = vals[order], vecs[:, order]
     n = n_diaphragm
@@ -110,7 +130,7 @@ def pair_response(pair: CouplingSystem, load: ElectrostaticLoad, gap_m: float,
                   point: EquilibriumPoint, diaphragm_pressure_load: np.ndarray, n_diaphragm: int):
     """Small static response to 1 Pa on the diaphragm only, about ``point`` at constant voltage:
     (diaphragm centre m/Pa, backplate centre m/Pa, slope factor ∫π(δw_d + δw_b)/∫π δw_d)."""
-    s = _Solver(pair, load, gap_m)
+    s = solver_for(pair, load, gap_m)
     f = np.concatenate([np.asarray(diaphragm_pressure_load, float),
                         np.zeros(pair.K.shape[0] - n_diaphragm)])
     x = s.solve_t(point.voltage_v**2, point.u, f)

@@ -126,28 +126,15 @@ def _lu(matrix):
 
 
 class _ShiftedSolver:
-    """Solves (K + αM + jσ̂M) x = b by GMRES, preconditioned with the real LU of K + αM + σ̂M.
-
-    The preconditioned spectrum (λ + jσ̂)/(λ + σ̂), λ >= 0, lies in a small region near 1
-    (modulus in [1/√2, 1], argument in [0, π/4]): GMRES converges in a few iterations.
-    """
+    """Solves (K + αM + jσ̂M) x = b by a complex sparse LU (symmetric mode, no pivoting: the
+    matrix is complex symmetric with a positive definite real part, so every leading principal
+    minor is regular)."""
 
     def __init__(self, level: "_FilmLevel", sigma: float):
-        self.a = (level.k + 1j * sigma * level.m).tocsr()
-        lu = _lu(level.k + sigma * level.m)
-
-        def apply(r):
-            y = lu.solve(np.column_stack([r.real, r.imag]))
-            return y[:, 0] + 1j * y[:, 1]
-
-        self.prec = spla.LinearOperator(self.a.shape, dtype=complex, matvec=apply)
+        self.lu = _lu((level.k + 1j * sigma * level.m).astype(complex))
 
     def solve(self, b: np.ndarray) -> np.ndarray:
-        x, info = spla.gmres(self.a, b.astype(complex), M=self.prec, rtol=1e-12, atol=0.0,
-                             restart=60, maxiter=20)
-        if info != 0:
-            raise RuntimeError(f"film solve did not converge (GMRES info {info})")
-        return x
+        return self.lu.solve(np.asarray(b, dtype=complex))
 
 
 class _FilmLevel:
@@ -201,10 +188,15 @@ class _FilmLevel:
             out[i] = self.f @ _ShiftedSolver(self, s[i].imag).solve(self.f)
         return out
 
-    def cutoff(self) -> float:
-        """Scaled squeeze number where Re J = −Im J (spring force = damping force)."""
-        mu = self.moments()
-        u = math.log(self.lam_low * mu[-2] / mu[-1])  # power-iteration estimate of λ₁
+    def cutoff(self, start: float | None = None) -> float:
+        """Scaled squeeze number where Re J = −Im J (spring force = damping force), by Newton's
+        method in ln σ̂ from ``start`` (e.g. a coarser level's cut-off) or the power-iteration
+        estimate of λ₁."""
+        if start is not None and start > 0:
+            u = math.log(start)
+        else:
+            mu = self.moments()
+            u = math.log(self.lam_low * mu[-2] / mu[-1])  # power-iteration estimate of λ₁
         for _ in range(40):
             sig = math.exp(u)
             solver = _ShiftedSolver(self, sig)
@@ -275,7 +267,10 @@ def film_impedance(shape: str, electrode_size_m: float, gap_m: float,
         levels = [_FilmLevel(m, alpha, phi, eig) for m in _mesh_levels(shape, accuracy, layer)]
         static = np.array([lv.response(np.zeros(1))[0].real for lv in levels])
         spectra = np.array([lv.response(s) for lv in levels])
-        cut = np.array([lv.cutoff() for lv in levels])
+        cut = []
+        for lv in levels:  # nested levels: each starts from the coarser one's cut-off
+            cut.append(lv.cutoff(cut[-1] if cut else None))
+        cut = np.array(cut)
     order, err = observed_estimate(static)
     _, err_f = observed_estimate(spectra)
     _, err_c = observed_estimate(cut)

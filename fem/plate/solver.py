@@ -260,12 +260,18 @@ def assemble_plate(problem: PlateProblem, mesh: MeshLike = "normal") -> PlateSys
         K (N/m) and M (kg) in SI units over DOFs in scaled coordinates, the constrained basis
         B, load vectors for any pressure field, centre and point evaluation; see
         :class:`diagap.fem.plate.system.PlateSystem`. Always the plate (Argyris) model, also for
-        tension-dominated diaphragms.
+        tension-dominated diaphragms. For a mesh given by its sizes (name or ``MeshSize``) the
+        system is shared within the process (:mod:`diagap.fem.plate.shared`): treat it as
+        read-only.
     """
     if isinstance(mesh, str):
         mesh = mesh_sizes(problem.shape, mesh, _layer_width(problem))[-1]
-    if isinstance(mesh, MeshSize):
-        mesh = _mesh(problem.shape, mesh)
+    if isinstance(mesh, MeshSize):  # one system per (problem, mesh) in a process
+        from diagap.fem.plate.shared import shared_plate
+
+        size = mesh
+        return shared_plate(problem, size, None,
+                            lambda: assemble_plate(problem, _mesh(problem.shape, size)))
     return build_plate_system(mesh, problem.shape, problem.edge, problem.length_scale_m,
                               problem.bending_stiffness, problem.poisson_ratio,
                               problem.tension_n_per_m, problem.areal_density)
@@ -342,8 +348,11 @@ def solve_plate(problem: PlateProblem, accuracy: str = "normal", n_modes: int = 
 
         levels, order, extra = membrane_levels(problem, accuracy, n_modes, measure)
     else:
+        from threadpoolctl import threadpool_limits
+
         sizes = mesh_sizes(problem.shape, accuracy, _layer_width(problem))
-        levels = [measure(assemble_plate(problem, s), problem, n_modes) for s in sizes]
+        with threadpool_limits(limits=1):  # small dense kernels: threads only add contention
+            levels = [measure(assemble_plate(problem, s), problem, n_modes) for s in sizes]
         order, extra = ORDER[problem.shape], 0.0
     fine = levels[-1]
     return PlateResult(

@@ -353,12 +353,15 @@ def _rim_functional(inp: ResponseInputs, plate) -> np.ndarray:
 
 
 def _bias_deflection(cs, load, gap_m: float, volts: float) -> np.ndarray:
-    """Plate DOFs of the stable equilibrium at ``volts`` (Newton in V², branch as fallback)."""
-    from diagap.fem.coupling.branch import (CoupledError, _Solver, equilibrium_at_voltage,
+    """Plate DOFs of the stable equilibrium at ``volts`` (Newton in V², branch as fallback); the
+    one already found for this plate, load and gap (e.g. by the coupled solve) if there is one."""
+    from diagap.fem.coupling.branch import (CoupledError, equilibrium_at_voltage, solver_for,
                                             trace_branch)
 
-    s = _Solver(cs, load, gap_m)
+    s = solver_for(cs, load, gap_m)
     lam = volts * volts
+    if lam in s.equilibria:
+        return s.equilibria[lam]
     try:
         return s.voltage_control(lam, lam * s.lu.solve(s.force(np.zeros(s.n))))
     except CoupledError:
