@@ -227,6 +227,7 @@ def run_design(design: Design, max_memory_b: float | None = None,
         mech = result.sections["mechanics"] = solve_backplate_mechanics(design, mech)
         result.timings_s["mechanics"] += time.perf_counter() - t0
     es = _stage(result, "electrostatics", electrostatics_stage, design, mech)
+    _share_coupling_plates(design, problem)
     # the large deflection needs only the electrostatic table: on the second core meanwhile
     lane = LargeDeflectionLanes(design, problem, es, parallel)
     try:
@@ -242,6 +243,16 @@ def run_design(design: Design, max_memory_b: float | None = None,
     if design.thermal is not None and design.analysis.temperatures_k:
         _stage(result, "temperature_sweep", temperature_sweep, design, es)
     return result
+
+
+def _share_coupling_plates(design: Design, problem) -> None:
+    """Assemble the plate systems of the coupling meshes now, before the second process starts:
+    the coupled stage (here) and the biased large deflection (there) both use them, and the
+    process-wide memo (:mod:`diagap.fem.plate.shared`) hands both the same systems."""
+    from diagap.fem.coupling.plate import COUPLING_MESHES, plate_levels
+
+    acc = design.analysis.accuracy
+    plate_levels(problem, COUPLING_MESHES.get(acc, acc), design.backplate.electrode_size_m)
 
 
 def _middle_stages(result: RunResult, design: Design, problem, es, mech, lane) -> None:
