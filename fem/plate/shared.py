@@ -24,9 +24,10 @@ from typing import Callable
 
 __all__ = ["shared_plate", "clear_shared_plates", "MAX_ENTRIES"]
 
-#: systems kept: the two finest levels of the mechanics family and of the coupling family, all
-#: one run shares (a sweep worker then keeps one design's systems, with their factorisations)
-MAX_ENTRIES = 4
+#: systems kept: the two finest levels of the mechanics family and of the coupling family, and
+#: the mechanics levels of a compliant backplate (a sweep worker then keeps about one design's
+#: systems, with their factorisations)
+MAX_ENTRIES = 6
 
 _memo: OrderedDict = OrderedDict()
 _lock = threading.Lock()
