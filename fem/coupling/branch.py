@@ -47,7 +47,8 @@ import numpy as np
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
-from diagap.fem.coupling.corrector import CoupledError, EquilibriumSolver, solver_for, start_vector
+from diagap.fem.coupling.corrector import (CoupledError, EquilibriumSolver, SingularTangent,
+                                           solver_for, start_vector)
 
 _Solver = EquilibriumSolver  # the corrector under its former name
 _start_vector = start_vector
@@ -266,7 +267,10 @@ def _fold_secant(solver, lo, hi, gap_m, hint=None):
         direction = near[4]
         u0 = near[2] + (x - near[0]) * direction if direction is not None else near[2]
         u_x, lam_x = solver.displacement_control(x, u0, near[1] + (x - near[0]) * near[3])
-        p = (x, lam_x, u_x, solver.slope(lam_x, u_x), solver.last_direction)
+        try:
+            p = (x, lam_x, u_x, solver.slope(lam_x, u_x), solver.last_direction)
+        except SingularTangent:  # J exactly singular at this equilibrium: the fold itself
+            return x, u_x, lam_x, deriv
         known.append(p)
         if p[3] == 0.0:
             return x, u_x, lam_x, deriv

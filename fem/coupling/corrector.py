@@ -38,7 +38,7 @@ import numpy as np
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
-__all__ = ["CoupledError", "EquilibriumSolver", "solver_for", "start_vector"]
+__all__ = ["CoupledError", "SingularTangent", "EquilibriumSolver", "solver_for", "start_vector"]
 
 #: factorised tangents kept per solver (the last converged points of a continuation)
 KEPT_TANGENTS = 3
@@ -53,12 +53,19 @@ def start_vector(n: int) -> np.ndarray:
     return np.random.default_rng(0).standard_normal(n)
 
 
+class SingularTangent(CoupledError):
+    """The tangent J is exactly singular at the point (a fold of the branch)."""
+
+
 def _factor(A):
     try:
         return spla.splu(A, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.0,
                          options={"SymmetricMode": True})
     except RuntimeError:  # exactly singular pivot (at the fold): pivot
-        return spla.splu(A)
+        try:
+            return spla.splu(A)
+        except RuntimeError as exc:
+            raise SingularTangent("the tangent stiffness is exactly singular") from exc
 
 
 class EquilibriumSolver:

@@ -24,9 +24,10 @@ from typing import Callable
 
 __all__ = ["shared_plate", "clear_shared_plates", "MAX_ENTRIES"]
 
-#: systems kept (two levels of the coupling family, two of the mechanics family, and room for a
-#: second diaphragm, e.g. the backplate of a two-plate design)
-MAX_ENTRIES = 8
+#: systems kept: the two finest levels of the mechanics family and of the coupling family, and
+#: the mechanics levels of a compliant backplate (a sweep worker then keeps about one design's
+#: systems, with their factorisations)
+MAX_ENTRIES = 6
 
 _memo: OrderedDict = OrderedDict()
 _lock = threading.Lock()
