@@ -1,0 +1,162 @@
+"""The electrostatics section from the scaled cell and rim tables (diagap.fastpath.field).
+
+References: the full electrostatics stage itself (diaphragm FE, cell FE samples, rim FE, run in
+the test on the same design at the same accuracy); the closed-form static shape of the clamped
+plate, w = p(a² − r²)²/(64 D) (Timoshenko & Woinowsky-Krieger, Theory of Plates and Shells, 2nd
+ed. 1959, §62, eq. 62) and of the membrane, w ∝ a² − r² (ibid., §94 limit [from memory]);
+Kirchhoff's formula for two thin coaxial disks of radius R at distance d,
+C = ε0πR²/d + ε0R[ln(16πR/d) − 1] (G. Kirchhoff, "Zur Theorie des Condensators", Monatsber.
+Akad. Wiss. Berlin 1877, 144–162 [from memory]); and the parallel-plate limit of a perforated
+plate, c → ε0(1 − φ_open)/g as g/p → 0 (the solid part of the plate faces the diaphragm; common
+practice). The 50-design check at "normal" accuracy is tests/bench/bench_fastpath_field.py.
+"""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+
+from diagap import demo_design, with_overrides
+from diagap.fastpath import FastPathUnavailable
+from diagap.fastpath.field import OUTPUTS, electrostatics_outputs, static_shape
+
+TOL = 1e-3
+EPS0 = 8.8541878128e-12  # CODATA 2018 vacuum permittivity, F/m
+
+
+def full_electrostatics(design) -> dict:
+    """The flat ``electrostatics`` outputs of the stage (diaphragm FE + cell + rim FE)."""
+    from diagap.extract import plate_problem
+    from diagap.fem.plate.solver import solve_plate
+    from diagap.stages import electrostatics_stage
+    from diagap.sweep.point import flatten_summary
+
+    acc = design.analysis.accuracy
+    mech = solve_plate(plate_problem(design), acc)
+    section = electrostatics_stage(design, mech)
+    flat, _ = flatten_summary({"electrostatics": section.to_summary()})
+    return flat
+
+
+def random_design(rng, base):
+    """A clamped disk with a random hole pattern, gap, electrode and stress inside the tables'
+    validated range (diagap.fastpath.cells.CELL_RANGE, diagap.fastpath.fringe.RIM_RANGE)."""
+    lattice = rng.choice(["hex", "square", "hex", "square", "none"])
+    radius = 10 ** rng.uniform(math.log10(0.4e-3), math.log10(3e-3))
+    gap = radius / 10 ** rng.uniform(math.log10(110), math.log10(400))
+    pitch = gap / 10 ** rng.uniform(math.log10(0.03), math.log10(0.9))
+    pitch = min(pitch, 0.3 * radius)
+    changes = {
+        "diaphragm.radius": radius, "diaphragm.thickness": radius / rng.uniform(100, 400),
+        "diaphragm.residual_stress": rng.uniform(0.0, 40e6),
+        "backplate.gap": gap, "backplate.electrode_radius": radius * rng.uniform(0.6, 1.0),
+        "backplate.thickness": pitch * 10 ** rng.uniform(math.log10(0.07), math.log10(2.5)),
+        "backplate.hole_lattice": str(lattice),
+        "backplate.hole_radius": None if lattice == "none" else pitch * rng.uniform(0.07, 0.43),
+        "backplate.hole_pitch": None if lattice == "none" else pitch,
+    }
+    if changes["backplate.thickness"] / gap > 140:
+        changes["backplate.thickness"] = 100 * gap
+    return with_overrides(base, changes)
+
+
+@pytest.fixture(scope="module")
+def draft_base():
+    return demo_design().with_accuracy("draft")
+
+
+def test_random_designs_match_the_stage(draft_base):
+    """Every output within 1e-3 of the full stage at the same ("draft") accuracy."""
+    rng = np.random.default_rng(20261202)
+    worst = 0.0
+    for _ in range(10):
+        design = random_design(rng, draft_base)
+        fast = electrostatics_outputs(design)
+        full = full_electrostatics(design)
+        assert set(fast) == {f"electrostatics.{n}" for n in OUTPUTS}
+        for key, value in fast.items():
+            assert value == pytest.approx(full[key], rel=TOL, abs=0), (key, design.backplate)
+            worst = max(worst, abs(value / full[key] - 1.0))
+    assert worst > 0.0  # the fast path is an approximation, not the stage itself
+
+
+def test_static_shape_closed_forms():
+    """∫φ dA/(πa²) = 1/3 for the plate, (1 − ρ²)² (Timoshenko & Woinowsky-Krieger 1959, §62,
+    eq. 62), and → 1/2 for the membrane, 1 − ρ², as τ grows (ibid. [from memory])."""
+    x, wx = np.polynomial.legendre.leggauss(60)
+    rho, w = 0.5 * (x + 1), 0.5 * wx
+
+    def mean(tau):
+        return 2 * np.sum(w * rho * static_shape(rho, tau))
+
+    assert mean(0.0) == pytest.approx(1.0 / 3.0, rel=1e-12, abs=0)
+    assert mean(1e-5) == pytest.approx(1.0 / 3.0, rel=1e-5, abs=0)
+    assert mean(1e6) == pytest.approx(0.5, rel=3e-3, abs=0)
+    # compression raises the middle: between the plate and the buckled shape, φ stays ≤ 1
+    assert mean(-13.0) > 1.0 / 3.0 and np.all(static_shape(rho, -13.0) <= 1.0 + 1e-12)
+
+
+def test_solid_thin_pair_follows_kirchhoffs_disk_formula(draft_base):
+    """No holes, electrode = diaphragm, thin electrode: C(0) is Kirchhoff's two-disk formula
+    (Kirchhoff 1877 [from memory]) within its O(d/R) accuracy and the electrode's thickness."""
+    radius, gap = 1e-3, 2e-6
+    design = with_overrides(draft_base, {
+        "diaphragm.radius": radius, "diaphragm.thickness": 5e-6, "backplate.gap": gap,
+        "backplate.electrode_radius": radius, "backplate.thickness": 0.1e-6,
+        "backplate.hole_lattice": "none", "backplate.hole_radius": None,
+        "backplate.hole_pitch": None})
+    fast = electrostatics_outputs(design)
+    area = EPS0 * math.pi * radius**2 / gap
+    kirchhoff = EPS0 * radius * (math.log(16 * math.pi * radius / gap) - 1.0)
+    assert fast["electrostatics.parallel_plate_capacitance_f"] == pytest.approx(
+        area, rel=1e-9, abs=0)
+    assert fast["electrostatics.perforation_factor"] == pytest.approx(1.0, rel=1e-12, abs=0)
+    assert fast["electrostatics.rim_fringing_capacitance_f"] == pytest.approx(
+        kirchhoff, rel=0.03, abs=0)
+    assert fast["electrostatics.rest_capacitance_f"] == pytest.approx(
+        area + kirchhoff, rel=1e-3, abs=0)
+
+
+@pytest.mark.parametrize("lattice,kappa", [("hex", math.sqrt(3) / 2), ("square", 1.0)])
+def test_small_gap_limit_is_the_solid_area(lattice, kappa):
+    """As g/p → 0 the perforation factor tends to 1 − φ_open, φ_open = πa²/(κp²), linearly in
+    g/p (the hole-rim fringing adds ε0·K/p): extrapolated from g/p = 0.005 and 0.01."""
+    from diagap.fastpath.cells import cell_table, table_point
+
+    table, facts = cell_table(lattice, "draft")
+    assert facts["uncertified"] == []
+    for a in (0.1, 0.25, 0.4):
+        p1, p2 = (table(table_point(a, 1.0, 0.5, s))[0] for s in (0.005, 0.01))
+        limit = 2 * p1 - p2
+        assert limit == pytest.approx(1 - math.pi * a * a / kappa, rel=2e-3, abs=0)
+
+
+def test_outside_the_tables_is_refused_in_one_line(draft_base):
+    cases = [
+        ({"backplate.gap": "8 um"}, "backplate.gap: diaphragm radius/gap"),  # R/g = 62.5
+        ({"diaphragm.edge": "simply-supported"}, "clamped circles"),
+    ]
+    for changes, text in cases:
+        design = with_overrides(draft_base, changes)
+        with pytest.raises(FastPathUnavailable, match=text) as err:
+            electrostatics_outputs(design)
+        assert "\n" not in str(err.value)
+    tiny = with_overrides(draft_base, {"backplate.hole_radius": "0.8 um"})
+    with pytest.raises(FastPathUnavailable, match=r"backplate.hole_radius: .*0\.04.*\[0\.05, "):
+        electrostatics_outputs(tiny)
+
+
+def test_fast_summary_adds_the_section(draft_base):
+    from diagap.fastpath import fast_summary
+
+    out = fast_summary(draft_base)
+    assert "mechanics.center_compliance_m_per_pa" in out
+    assert "electrostatics.rest_capacitance_f" in out
+    layered = with_overrides(draft_base, {"layers.backplate_thickness": "0.2 um",
+                                          "layers.backplate_permittivity": 7.5})
+    with pytest.raises(FastPathUnavailable, match="layers"):
+        electrostatics_outputs(layered)
+    out = fast_summary(layered)  # mechanics still answered, the section left out
+    assert "mechanics.center_compliance_m_per_pa" in out
+    assert not any(k.startswith("electrostatics.") for k in out)
