@@ -53,11 +53,11 @@ def random_design(rng, base):
         "backplate.gap": gap, "backplate.electrode_radius": radius * rng.uniform(0.6, 1.0),
         "backplate.thickness": pitch * 10 ** rng.uniform(math.log10(0.07), math.log10(2.5)),
         "backplate.hole_lattice": str(lattice),
-        "backplate.hole_radius": None if lattice == "none" else pitch * rng.uniform(0.07, 0.43),
+        "backplate.hole_radius": None if lattice == "none" else max(
+            pitch * rng.uniform(0.07, 0.43), 0.2e-6),  # slip flow: a > 2 mean free paths
         "backplate.hole_pitch": None if lattice == "none" else pitch,
     }
-    if changes["backplate.thickness"] / gap > 140:
-        changes["backplate.thickness"] = 100 * gap
+    changes["backplate.thickness"] = min(changes["backplate.thickness"], 90 * gap)
     return with_overrides(base, changes)
 
 

@@ -47,6 +47,9 @@ CELL_RANGE = {
     "thickness_over_pitch": (0.05, 3.0),
     "gap_over_pitch": (0.02, 1.0),
 }
+#: changes with the table's reference function or axes (a new cache entry); the solver's code
+#: is in the key through :func:`diagap.fastpath.store.source_hash`
+TABLE_VERSION = 1
 #: lattices with a table (``"none"``, the solid plate, needs none: P = 1)
 CELL_LATTICES = ("hex", "square")
 
@@ -87,13 +90,6 @@ def cell_axes(n: int = 7) -> list:
             Axis("gap_over_pitch", True, (lg0, 0.5 * (lg0 + lg1), lg1), n)]
 
 
-def _source_tag() -> str:
-    import hashlib
-    from pathlib import Path
-
-    return hashlib.sha256(Path(__file__).read_bytes()).hexdigest()[:16]
-
-
 def cell_table(lattice: str, accuracy: str = "normal", *, tol: float = 5e-4, mapper=None,
                validate: int = 16, max_splits: int = 4) -> tuple[TensorTable, dict]:
     """The scaled cell table P(a/p, t/p, g/p) of one lattice (cached on disk, built on demand).
@@ -130,5 +126,5 @@ def cell_table(lattice: str, accuracy: str = "normal", *, tol: float = 5e-4, map
                            validate=validate, seed=1)
 
     params = {"lattice": lattice, "accuracy": accuracy, "tol": tol, "validate": validate,
-              "max_splits": max_splits, "range": CELL_RANGE, "module": _source_tag()}
+              "max_splits": max_splits, "range": CELL_RANGE, "version": TABLE_VERSION}
     return held_table("fastpath-cell", params, build)

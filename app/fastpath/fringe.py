@@ -52,6 +52,8 @@ RIM_RANGE = {
     "diaphragm_radius_over_gap": (MODEL_GAPS, math.inf),
     "thickness_over_gap": (0.05, 100.0),
 }
+#: changes with the table's reference function or axes (a new cache entry)
+TABLE_VERSION = 1
 SAMPLE_NAMES = tuple(f"rim_sample_{j}" for j in range(1, 6))
 
 
@@ -73,13 +75,6 @@ def rim_axes(n: int = 5) -> list:
             Axis("thickness_over_gap", True, (math.log(t0), math.log(t1)), n)]
 
 
-def _source_tag() -> str:
-    import hashlib
-    from pathlib import Path
-
-    return hashlib.sha256(Path(__file__).read_bytes()).hexdigest()[:16]
-
-
 def rim_table(accuracy: str = "normal", *, tol: float = 1e-3, mapper=None, validate: int = 8,
               max_splits: int = 4) -> tuple[TensorTable, dict]:
     """The scaled rim table of the large-pair regime (cached on disk, built on demand).
@@ -97,7 +92,7 @@ def rim_table(accuracy: str = "normal", *, tol: float = 1e-3, mapper=None, valid
 
     params = {"accuracy": accuracy, "tol": tol, "validate": validate, "max_splits": max_splits,
               "range": {"t": RIM_RANGE["thickness_over_gap"], "model": MODEL_GAPS},
-              "module": _source_tag()}
+              "version": TABLE_VERSION}
     return held_table("fastpath-rim", params, build)
 
 
