@@ -77,7 +77,8 @@ def test_random_designs_match_the_stage(draft_base):
         assert set(fast) == {f"electrostatics.{n}" for n in OUTPUTS}
         for key, value in fast.items():
             assert value == pytest.approx(full[key], rel=TOL, abs=0), (key, design.backplate)
-            worst = max(worst, abs(value / full[key] - 1.0))
+            if full[key] != 0.0:  # the open-area fraction of a solid plate is 0
+                worst = max(worst, abs(value / full[key] - 1.0))
     assert worst > 0.0  # the fast path is an approximation, not the stage itself
 
 

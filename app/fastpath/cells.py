@@ -19,7 +19,8 @@ hole rims for small g/p). The solver already meshes the cell in units of the gap
 value P is the same function of the three ratios for every absolute size: one table of P per
 lattice and accuracy setting serves every design. The table interpolates P (not c), which stays
 between about 0.2 and 1 across the range, on logarithmic axes of 1/2 − a/p (the half-width of
-the web between holes: P changes fastest as it narrows), t/p and g/p (g/p spans 2.5 decades). ``lattice = "none"`` is the solid plate, P ≡ 1 (no table).
+the web between holes: P changes fastest as it narrows), t/p and g/p (g/p spans 2.5 decades).
+``lattice = "none"`` is the solid plate, P ≡ 1 (no table).
 
 Validated range: :data:`CELL_RANGE` (the design values); the g/p axis of the table reaches
 from ``GAP_TABLE[0]`` times its lower to ``GAP_TABLE[1]`` times its upper end, because the

@@ -119,7 +119,8 @@ def _refuse(text: str):
 
 def _inside(path: str, value: float, bounds: tuple, what: str) -> None:
     lo, hi = bounds
-    if not (lo * (1 - 1e-9) <= value <= hi * (1 + 1e-9)):
+    pad = 1e-9 * max(abs(lo), abs(hi))
+    if not (lo - pad <= value <= hi + pad):
         _refuse(f"{path}: {what} = {value:.6g} is outside the electrostatics table's range "
                 f"[{lo:g}, {hi:g}]")
 
