@@ -27,7 +27,7 @@ CAUTION: bias voltages can be hazardous; results are design estimates, as for th
 from __future__ import annotations
 
 __all__ = ["FastPathUnavailable", "fast_summary", "StudyBox", "study_table", "plate_table",
-           "mapper_for"]
+           "mapper_for", "electrostatics_outputs"]
 
 
 class FastPathUnavailable(ValueError):
@@ -38,7 +38,7 @@ def __getattr__(name):
     from importlib import import_module
 
     where = {"StudyBox": "study", "study_table": "study", "plate_table": "plate",
-             "mapper_for": "refine"}
+             "mapper_for": "refine", "electrostatics_outputs": "field"}
     if name in where:
         return getattr(import_module(f"diagap.fastpath.{where[name]}"), name)
     raise AttributeError(name)
