@@ -6,6 +6,11 @@ on disk by :mod:`diagap.fastpath.store`):
 - the scaled diaphragm (:mod:`diagap.fastpath.plate`): the clamped disk depends on the tension
   ratio τ = σ·h·a²/D alone, so one table over τ gives the ``mechanics`` outputs of every
   clamped circular diaphragm in the plate model's range (−0.9·τ_b ≤ τ ≤ 1e4);
+- the scaled backplate cell and electrode rim (:mod:`diagap.fastpath.cells`,
+  :mod:`diagap.fastpath.fringe`, assembled by :mod:`diagap.fastpath.field`): the perforation
+  factor depends on (a/p, t/p, g/p) per lattice and the rim of a large pair on its overhang and
+  thickness in gaps, so two tables per accuracy give the ``electrostatics`` outputs of the same
+  diaphragms over a validated range of hole patterns, gaps and electrodes;
 - the summary over a study box (:mod:`diagap.fastpath.study`): every numeric output of the
   mechanics, electrostatics, coupled, damping and response sections of one design, over bounds
   of a few of its design values; each table point is a full FE analysis.
@@ -22,7 +27,7 @@ CAUTION: bias voltages can be hazardous; results are design estimates, as for th
 from __future__ import annotations
 
 __all__ = ["FastPathUnavailable", "fast_summary", "StudyBox", "study_table", "plate_table",
-           "mapper_for"]
+           "mapper_for", "electrostatics_outputs"]
 
 
 class FastPathUnavailable(ValueError):
@@ -33,7 +38,7 @@ def __getattr__(name):
     from importlib import import_module
 
     where = {"StudyBox": "study", "study_table": "study", "plate_table": "plate",
-             "mapper_for": "refine"}
+             "mapper_for": "refine", "electrostatics_outputs": "field"}
     if name in where:
         return getattr(import_module(f"diagap.fastpath.{where[name]}"), name)
     raise AttributeError(name)
@@ -59,6 +64,17 @@ def _plate_outputs(design, mapper=None) -> dict:
     return plate_summary(table, s, set(facts.get("uncertified", ())))
 
 
+def _field_outputs(design, mapper=None) -> dict:
+    """The ``electrostatics`` outputs where the scaled cell and rim tables cover the design,
+    else none."""
+    from diagap.fastpath.field import electrostatics_outputs
+
+    try:
+        return electrostatics_outputs(design, mapper)
+    except FastPathUnavailable:
+        return {}
+
+
 def fast_summary(design, box=None, *, mapper=None, **table_options) -> dict[str, float]:
     """Certified summary outputs of ``design`` from tables (built and cached on first use).
 
@@ -69,7 +85,9 @@ def fast_summary(design, box=None, *, mapper=None, **table_options) -> dict[str,
     box : StudyBox, optional
         A design and bounds of varied values containing ``design``: all numeric outputs of the
         mechanics, electrostatics, coupled, damping and response sections. Without a box: the
-        ``mechanics`` outputs of a clamped circular diaphragm from the scaled table.
+        ``mechanics`` outputs of a clamped circular diaphragm from the scaled table, and its
+        ``electrostatics`` outputs where the scaled cell and rim tables cover the design
+        (:mod:`diagap.fastpath.field`; left out otherwise).
     mapper : callable, optional
         How table points are computed when a table is built
         (:func:`diagap.fastpath.refine.mapper_for`: local processes or a Dask client).
@@ -89,7 +107,9 @@ def fast_summary(design, box=None, *, mapper=None, **table_options) -> dict[str,
         a value the box does not vary.
     """
     if box is None:
-        return _plate_outputs(design, mapper)
+        out = _plate_outputs(design, mapper)
+        out.update(_field_outputs(design, mapper))
+        return out
     from diagap.fastpath.study import box_coordinates, study_table
 
     x = box_coordinates(box, design)
