@@ -73,8 +73,8 @@ def fast_summary(design, box=None, *, mapper=None, **table_options) -> dict[str,
     ------
     FastPathUnavailable
         The design lies outside the tables: a tension ratio or Poisson ratio outside
-        :data:`diagap.fastpath.plate_range.VALIDATED_RANGE`, values outside the box, or a design that differs from the box's design in
-        a value the box does not vary.
+        :data:`diagap.fastpath.plate_range.VALIDATED_RANGE`, values outside the box, or a
+        design that differs from the box's design in a value the box does not vary.
     """
     if box is None:
         return _plate_outputs(design, mapper)
