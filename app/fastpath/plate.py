@@ -1,17 +1,17 @@
 r"""The diaphragm in scaled form: a few tables in (τ, ν) serve every disk and square.
 
-Kirchhoff plate with tension, D∇⁴w − T∇²w = p and D∇⁴w − T∇²w = ρ_s ω² w (SI: D in N·m, T = σh
-in N/m, ρ_s = ρh in kg/m², p in Pa) on a disk of radius L or a square of side 2L, clamped
-(w = ∂w/∂n = 0) or simply supported (w = 0 and zero edge moment: −D(w_rr + ν w_r/r) = 0 on the
-disk's edge, −D w_nn = 0 on the square's straight edges), as solved by
-:mod:`diagap.fem.plate.solver` (plate model; membrane model above its ``MEMBRANE_TAU``).
-With ξ = x/L, ŵ = wD/(pL⁴) and ω̂ = ω√(ρ_s L⁴/D) the problem becomes ∇̂⁴ŵ − τ∇̂²ŵ = 1, ∇̂⁴φ − τ∇̂²φ = ω̂²φ on the unit disk or [−1, 1]², with the same edge
-conditions: what is left is the tension ratio τ = T L²/D and, for the simply supported disk
+Kirchhoff plate with tension, D∇⁴w − T∇²w = p and D∇⁴w − T∇²w = ρ_s ω² w (SI: D in N·m, T = σh in
+N/m, ρ_s = ρh in kg/m², p in Pa) on a disk of radius L or a square of side 2L, clamped (w = ∂w/∂n =
+0) or simply supported (w = 0 and zero edge moment: −D(w_rr + ν w_r/r) = 0 on the disk's edge, −D
+w_nn = 0 on the square's straight edges), as solved by :mod:`diagap.fem.plate.solver` (plate model;
+membrane model above its ``MEMBRANE_TAU``). With ξ = x/L, ŵ = wD/(pL⁴) and ω̂ = ω√(ρ_s L⁴/D) the
+problem becomes ∇̂⁴ŵ − τ∇̂²ŵ = 1, ∇̂⁴φ − τ∇̂²φ = ω̂²φ on the unit disk or [−1, 1]², with the same
+edge conditions: what is left is the tension ratio τ = T L²/D and, for the simply supported disk
 only, Poisson's ratio ν (:mod:`diagap.fastpath.plate_range`). L is the solver's length unit: the
 radius, or *half* the side of a square (the solver's τ). The solver's meshes are made in these
-scaled coordinates and depend on τ alone (edge size capped by the layer width 1/√τ; the
-membrane mesh is fixed, its edge shrunk by 1/√τ when clamped), so the solver's answer for any
-diaphragm is the scaled answer times powers of (L, D, ρ_s), for every shape and edge alike:
+scaled coordinates and depend on τ alone (edge size capped by the layer width 1/√τ; the membrane
+mesh is fixed, its edge shrunk by 1/√τ when clamped), so the solver's answer for any diaphragm is
+the scaled answer times powers of (L, D, ρ_s), for every shape and edge alike:
 
 =================================  ==================  =========================
 quantity                           scaled value        SI factor
