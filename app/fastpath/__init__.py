@@ -3,14 +3,16 @@
 Two kinds of table (:mod:`diagap.fastpath.grid`, built by :mod:`diagap.fastpath.refine`, cached
 on disk by :mod:`diagap.fastpath.store`):
 
-- the scaled diaphragm (:mod:`diagap.fastpath.plate`): the clamped disk depends on the tension
-  ratio τ = σ·h·a²/D alone, so one table over τ gives the ``mechanics`` outputs of every
-  clamped circular diaphragm in the plate model's range (−0.9·τ_b ≤ τ ≤ 1e4);
+- the scaled diaphragm (:mod:`diagap.fastpath.plate`): a disk or square, clamped or simply
+  supported, depends on the tension ratio τ = σ·h·L²/D alone (and on ν for the simply
+  supported disk), so a few tables over τ (and ν) give the ``mechanics`` outputs of every
+  diaphragm in the validated range :data:`diagap.fastpath.plate_range.VALIDATED_RANGE`
+  (−0.9·τ_b ≤ τ ≤ 1e10, plate and membrane models);
 - the scaled backplate cell and electrode rim (:mod:`diagap.fastpath.cells`,
   :mod:`diagap.fastpath.fringe`, assembled by :mod:`diagap.fastpath.field`): the perforation
   factor depends on (a/p, t/p, g/p) per lattice and the rim of a large pair on its overhang and
-  thickness in gaps, so two tables per accuracy give the ``electrostatics`` outputs of the same
-  diaphragms over a validated range of hole patterns, gaps and electrodes;
+  thickness in gaps, so two tables per accuracy give the ``electrostatics`` outputs of clamped
+  circular diaphragms over a validated range of hole patterns, gaps and electrodes;
 - the summary over a study box (:mod:`diagap.fastpath.study`): every numeric output of the
   mechanics, electrostatics, coupled, damping and response sections of one design, over bounds
   of a few of its design values; each table point is a full FE analysis.
@@ -26,7 +28,7 @@ CAUTION: bias voltages can be hazardous; results are design estimates, as for th
 """
 from __future__ import annotations
 
-__all__ = ["FastPathUnavailable", "fast_summary", "StudyBox", "study_table", "plate_table",
+__all__ = ["FastPathUnavailable", "fast_summary", "StudyBox", "study_table", "plate_tables",
            "mapper_for", "electrostatics_outputs"]
 
 
@@ -37,7 +39,7 @@ class FastPathUnavailable(ValueError):
 def __getattr__(name):
     from importlib import import_module
 
-    where = {"StudyBox": "study", "study_table": "study", "plate_table": "plate",
+    where = {"StudyBox": "study", "study_table": "study", "plate_tables": "plate",
              "mapper_for": "refine", "electrostatics_outputs": "field"}
     if name in where:
         return getattr(import_module(f"diagap.fastpath.{where[name]}"), name)
@@ -45,23 +47,9 @@ def __getattr__(name):
 
 
 def _plate_outputs(design, mapper=None) -> dict:
-    from diagap.fastpath.plate import PlateScaling, covers, plate_summary, plate_table
+    from diagap.fastpath.plate import plate_outputs
 
-    d = design.diaphragm
-    if d.shape != "circle" or d.edge != "clamped":
-        raise FastPathUnavailable(
-            f"diaphragm: shape {d.shape!r}, edge {d.edge!r}; the scaled diaphragm table covers "
-            "clamped circles (give a StudyBox for other designs)")
-    nu = d.poisson_ratio
-    bend = d.youngs_modulus_pa * d.thickness_m**3 / (12.0 * (1.0 - nu * nu))
-    s = PlateScaling(d.size_m, bend, d.density_kg_m3 * d.thickness_m,
-                     d.residual_stress_pa * d.thickness_m)
-    if not covers(s):
-        raise FastPathUnavailable(
-            f"diaphragm: tension ratio sigma*h*a^2/D = {s.tau:.6g} is outside the table's "
-            "range [-13.2, 1e4] (the plate model of the solver)")
-    table, facts = plate_table(design.analysis.accuracy, mapper=mapper)
-    return plate_summary(table, s, set(facts.get("uncertified", ())))
+    return plate_outputs(design.diaphragm, design.analysis.accuracy, mapper)
 
 
 def _field_outputs(design, mapper=None) -> dict:
@@ -85,7 +73,7 @@ def fast_summary(design, box=None, *, mapper=None, **table_options) -> dict[str,
     box : StudyBox, optional
         A design and bounds of varied values containing ``design``: all numeric outputs of the
         mechanics, electrostatics, coupled, damping and response sections. Without a box: the
-        ``mechanics`` outputs of a clamped circular diaphragm from the scaled table, and its
+        ``mechanics`` outputs of the diaphragm from the scaled tables, and its
         ``electrostatics`` outputs where the scaled cell and rim tables cover the design
         (:mod:`diagap.fastpath.field`; left out otherwise).
     mapper : callable, optional
@@ -102,9 +90,9 @@ def fast_summary(design, box=None, *, mapper=None, **table_options) -> dict[str,
     Raises
     ------
     FastPathUnavailable
-        The design lies outside the tables: another shape or edge, a tension ratio beyond the
-        plate model, values outside the box, or a design that differs from the box's design in
-        a value the box does not vary.
+        The design lies outside the tables: a tension ratio or Poisson ratio outside
+        :data:`diagap.fastpath.plate_range.VALIDATED_RANGE`, values outside the box, or a
+        design that differs from the box's design in a value the box does not vary.
     """
     if box is None:
         out = _plate_outputs(design, mapper)

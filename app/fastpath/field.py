@@ -141,7 +141,8 @@ def check_covered(design) -> float:
     unless the tables cover ``design``; return the tension ratio τ."""
     from diagap.fastpath.cells import CELL_RANGE
     from diagap.fastpath.fringe import MODEL_GAPS, RIM_RANGE
-    from diagap.fastpath.plate import TAU_MAX, TAU_MIN
+    from diagap.fastpath.plate_range import COMPRESSION, buckling_tau
+    from diagap.fem.plate.solver import MEMBRANE_TAU
 
     d, b = design.diaphragm, design.backplate
     if getattr(design, "layers", None) is not None:
@@ -159,7 +160,9 @@ def check_covered(design) -> float:
     nu = d.poisson_ratio
     bend = d.youngs_modulus_pa * d.thickness_m**3 / (12.0 * (1.0 - nu * nu))
     tau = d.residual_stress_pa * d.thickness_m * d.size_m**2 / bend
-    _inside("diaphragm.residual_stress", tau, (TAU_MIN, TAU_MAX), "tension ratio sigma*h*a^2/D")
+    tau_min = -COMPRESSION * buckling_tau("circle", "clamped", nu)
+    _inside("diaphragm.residual_stress", tau, (tau_min, MEMBRANE_TAU),
+            "tension ratio sigma*h*a^2/D")
     g = b.gap_m
     if b.hole_lattice != "none":
         p = b.hole_pitch_m

@@ -2,10 +2,10 @@
 
 Run: ``python tests/bench/bench_fastpath.py [--accuracy normal] [--designs 50] [--workers 2]``.
 
-1. The scaled clamped-disk table (:mod:`diagap.fastpath.plate`): built (or read from the cache),
-   then ``--designs`` random clamped disks (radius 0.2–3 mm, thickness 0.3–20 µm, E 50–300 GPa,
-   ν 0–0.45, ρ 1000–8000 kg/m³, stress from −0.85 of buckling to the plate model's limit)
-   against :func:`diagap.fem.plate.solver.solve_plate`.
+1. The scaled diaphragm tables (:mod:`diagap.fastpath.plate`; disk and square, clamped and
+   simply supported, three τ pieces each): built (or read from the cache), then ``--designs``
+   random diaphragms across the validated range (:func:`random_problems`) against
+   :func:`diagap.fem.plate.solver.solve_plate`.
 2. A study box around the demo design (``--box process``: diaphragm thickness ±5 %, gap ±10 %,
    residual stress ±20 MPa around 10 MPa, i.e. −10 … 30 MPa; ``--box gap``: the gap alone):
    built, then ``--designs`` random designs inside it against the full analysis
@@ -53,33 +53,70 @@ def _report(title: str, build_s: float, facts: dict, times: list, worst: dict) -
     print(f"{bad} of {len(worst)} outputs above the limit")
 
 
+def random_problems(n: int, seed: int = 15) -> list:
+    """``n`` diaphragms across the validated range (:data:`diagap.fastpath.plate_range.
+    VALIDATED_RANGE`): the four shape/edge pairs in turn, every fifth compressed down to 0.9 of
+    buckling, the others with τ log-uniform over 0.1 … 1e10; ν over its range; L 0.2–2 mm;
+    E 2–300 GPa (lower where a thin film needs it); |σ| <= 5 GPa, h from 15 nm to L/20."""
+    from diagap.fastpath.plate_range import VALIDATED_RANGE, buckling_tau
+    from diagap.fem.plate.solver import PlateProblem
+
+    rng = np.random.default_rng(seed)
+    combos = [(s, e) for s in ("circle", "square") for e in ("clamped", "simply-supported")]
+    out = []
+    for i in range(n):
+        shape, edge = combos[i % 4]
+        box = VALIDATED_RANGE[(shape, edge)]
+        nu = rng.uniform(box.nu_min, box.nu_max) if box.nu_enters else rng.uniform(-0.9, 0.49)
+        length = 10 ** rng.uniform(np.log10(0.2e-3), np.log10(2e-3))
+        rho = rng.uniform(1000.0, 8000.0)
+        if i % 5 == 0:
+            tau = -box.compression * buckling_tau(shape, edge, nu) * rng.random()
+        else:
+            tau = 10 ** rng.uniform(-1.0, np.log10(box.tau_max))
+        k = 12 * (1 - nu * nu)
+        e_cap = k * 5e9 * (length / 15e-9) ** 2 / max(abs(tau), 1e-9)
+        e = 10 ** rng.uniform(np.log10(min(2e9, e_cap / 3)), np.log10(min(300e9, e_cap)))
+        h_max = min(length / 20, length * np.sqrt(k * 5e9 / (e * max(abs(tau), 1e-9))))
+        h = 10 ** rng.uniform(np.log10(15e-9), np.log10(h_max))
+        sigma = tau * e * h * h / (k * length * length)
+        size = length if shape == "circle" else 2 * length
+        out.append(PlateProblem(shape, size, e, nu, h, rho, sigma, edge))
+    return out
+
+
 def bench_plate(n: int, accuracy: str, mapper) -> None:
-    from diagap.fastpath.plate import PlateScaling, TAU_BUCKLING, plate_summary, plate_table
-    from diagap.fem.plate.solver import PlateProblem, solve_plate
+    from diagap.fastpath.plate import PIECES, plate_outputs, plate_tables
+    from diagap.fem.plate.solver import solve_plate
     from diagap.sweep.point import flatten_summary
 
-    t0 = time.perf_counter()
-    table, facts = plate_table(accuracy, mapper=mapper)
-    build = time.perf_counter() - t0
-    rng = np.random.default_rng(15)
+    combos = [(s, e) for s in ("circle", "square") for e in ("clamped", "simply-supported")]
+    facts_all, build = {}, 0.0
+    for shape, edge in combos:
+        for piece in PIECES:
+            t0 = time.perf_counter()
+            (_, facts), = plate_tables(accuracy, shape, edge, pieces=(piece,),
+                                       mapper=mapper).values()
+            dt = time.perf_counter() - t0
+            build += dt
+            print(f"  table {shape} {edge} {piece}: {dt:.1f} s, "
+                  f"{facts.get('reference_points')} reference points, "
+                  f"uncertified {facts.get('uncertified')}")
+            facts_all["reference_points"] = facts_all.get("reference_points", 0) + \
+                (facts.get("reference_points") or 0)
+            facts_all.setdefault("uncertified", []).extend(facts.get("uncertified", []))
     rows, times = [], []
-    for _ in range(n):
-        a = 10 ** rng.uniform(np.log10(0.2e-3), np.log10(3e-3))
-        h = 10 ** rng.uniform(np.log10(0.3e-6), np.log10(20e-6))
-        h = min(h, a / 12)
-        e, nu = rng.uniform(50e9, 300e9), rng.uniform(0.0, 0.45)
-        rho = rng.uniform(1000, 8000)
-        d = e * h**3 / (12 * (1 - nu**2))
-        tau = -0.85 * TAU_BUCKLING + (1e4 + 0.85 * TAU_BUCKLING) * rng.random() ** 3
-        sigma = tau * d / (a**2 * h)
-        s = PlateScaling(a, d, rho * h, sigma * h)
+    for problem in random_problems(n):
         t = time.perf_counter()
-        fast = plate_summary(table, s, set(facts["uncertified"]))
+        fast = plate_outputs(problem, accuracy)
         times.append(time.perf_counter() - t)
-        res = solve_plate(PlateProblem("circle", a, e, nu, h, rho, sigma, "clamped"), accuracy)
-        full, _ = flatten_summary({"mechanics": res.to_summary()})
+        full, _ = flatten_summary({"mechanics": solve_plate(problem, accuracy).to_summary()})
         rows.append((fast, full))
-    _report(f"scaled clamped disk, {accuracy}, {n} designs", build, facts, times, _worst(rows))
+    left = sum(1 for fast, full in rows for k in full
+               if k.startswith("mechanics.distinct") and k not in fast)
+    print(f"distinct frequencies left out (merge undecided): {left}")
+    _report(f"scaled diaphragms (disk, square; clamped, simply supported), {accuracy}, "
+            f"{n} designs", build, facts_all, times, _worst(rows))
 
 
 #: study boxes around the demo design: process spread of thickness, gap and stress, or the gap
