@@ -134,7 +134,7 @@ def _cmd_optimise(args) -> int:
     if args.starts:
         spec = replace(spec, starts=args.starts)
     res = run_optimise(design, spec, Path(args.out), exact=args.exact, workers=args.workers,
-                       scheduler=args.scheduler, progress=False)
+                       scheduler=args.scheduler, progress=not args.no_progress)
     doc = res.to_json()
     other = spec.constraints[0].path if spec.constraints else spec.objective
     write_study_files(Path(args.out), [

@@ -135,8 +135,10 @@ class StudyRunner:
         Local processes (default: the cores available; 1 runs in this process).
     scheduler : str or distributed.Client, optional
         A Dask scheduler: points run on that cluster.
-    progress : bool or callable
-        True: a progress bar on stderr per batch; a callable ``f(done, total, record)``.
+    progress : bool, callable or StudyProgress
+        True: a progress bar on stderr per batch; a callable ``f(done, total, record)``; an
+        object with ``batch(total)`` and ``batch_done(computed, replayed)`` (e.g.
+        :class:`diagap.studies.progress.StudyProgress`) is told of every batch.
     label : str
         The progress bar's label.
     """
@@ -183,6 +185,8 @@ class StudyRunner:
     def _bar(self, total: int):
         if self.progress is True:
             return ProgressBar(total, label=self.label)
+        if hasattr(self.progress, "batch"):
+            return self.progress.batch(total)
         return make_progress(self.progress, total)
 
     def _mesh_cache(self) -> bool:
@@ -201,7 +205,8 @@ class StudyRunner:
             if (rec is None or retry_on_resume(rec, False)) and pid not in seen:
                 seen.add(pid)
                 todo.append(PointTask(pid, self.base, tuple(over), self.evaluate, cache))
-        self.reused += len(set(ids)) - len(todo)
+        reused = len(set(ids)) - len(todo)
+        self.reused += reused
         self.computed += len(todo)
         if todo:
             bar = self._bar(len(todo))
@@ -214,6 +219,8 @@ class StudyRunner:
                 self._runner(len(todo))(todo, emit)
             finally:
                 bar.close()
+        if hasattr(self.progress, "batch_done"):
+            self.progress.batch_done(len(todo), reused)
         return [self.log.records[pid] for pid in ids]
 
     def _runner(self, n: int):
