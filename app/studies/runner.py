@@ -3,7 +3,8 @@
 A study evaluates copies of a base design, each with a few design values replaced
 (``((path, SI value), ...)``). The points run through the sweep machinery
 (:mod:`diagap.sweep.exec`, :func:`diagap.sweep.point.run_point`): the same worker processes,
-fault handling and Dask client. Only this process writes files.
+fault handling and Dask client; local worker processes are kept from the first batch that needs
+them to the end of the study (:mod:`diagap.studies.pool`). Only this process writes files.
 
 Resuming: every finished evaluation is one line of ``OUT/evaluations.jsonl`` (flushed and
 fsync'ed; a truncated last line left by a killed process is cut off when the log is opened).
@@ -22,7 +23,7 @@ import os
 from pathlib import Path
 from typing import Any, Callable, Sequence
 
-from diagap.sweep.exec import available_cores, connect, run_dask, run_pool, run_serial
+from diagap.sweep.exec import available_cores, connect, run_dask, run_serial
 from diagap.sweep.faults import retry_on_resume
 from diagap.sweep.point import PointTask
 from diagap.sweep.progress import ProgressBar, make_progress
@@ -153,6 +154,7 @@ class StudyRunner:
             raise SweepError(f"workers = {workers!r}: must be >= 1")
         self.scheduler, self.progress, self.label = scheduler, progress, label
         self.client, self._owned = None, False
+        self.pool = None  # local worker processes, started by the first batch that needs them
         self.computed = self.reused = 0
 
     def __enter__(self):
@@ -174,6 +176,9 @@ class StudyRunner:
         return self
 
     def __exit__(self, *exc):
+        if self.pool is not None:
+            self.pool.close()
+            self.pool = None
         self.log.close()
         self._close_client()
 
@@ -226,6 +231,10 @@ class StudyRunner:
     def _runner(self, n: int):
         if self.client is not None:
             return lambda tasks, emit: run_dask(tasks, self.client, emit)
-        if self.workers > 1 and n > 1:
-            return lambda tasks, emit: run_pool(tasks, min(self.workers, n), emit)
+        if self.workers > 1 and n > 1:  # one pool for all the batches of the study
+            if self.pool is None:
+                from diagap.studies.pool import WorkerPool
+
+                self.pool = WorkerPool(self.workers)
+            return self.pool.run
         return run_serial
