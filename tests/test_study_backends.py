@@ -231,3 +231,31 @@ def test_bad_cv_headers_and_units(tmp_path, capsys, text, match):
     argv = ["fit", *_files(tmp_path, "fit"), "-o", str(out)]
     (tmp_path / "cv.csv").write_text(text, encoding="utf-8")
     _one_line_exit_2(capsys, argv, out, match)
+
+
+def test_fit_command_resumes_and_keeps_stdout_for_results(tmp_path, capsys):
+    """The command on synthetic data of its own model (draft): fit.json, the evaluation log,
+    progress on stderr only; run again, it computes nothing and writes the same values."""
+    from diagap.cli import main
+    from diagap.design import load_design
+    from diagap.studies.cvmodel import CVModel
+
+    argv = _files(tmp_path, "fit")
+    model = CVModel(load_design(argv[0]))
+    V = np.linspace(-12.0, 12.0, 7)
+    C = model.curve({"diaphragm.residual_stress": 3e6, "backplate.gap": 4.1e-6}, V)
+    (tmp_path / "cv.csv").write_text("bias (V),capacitance (pF)\n" + "".join(
+        f"{float(v)!r},{float(c) * 1e12!r}\n" for v, c in zip(V, C)), encoding="utf-8")
+    out = tmp_path / "out"
+    assert main(["fit", *argv, "-o", str(out)]) == 0
+    first = capsys.readouterr()
+    assert "fit C–V fit, start" in first.err and "fit C–V fit" not in first.out
+    doc = json.loads((out / "fit.json").read_text())
+    gap = doc["parameters"]["backplate.gap"]["value"]
+    # the command's contract is checked here; the estimator's accuracy in tests/test_fit.py
+    assert gap == pytest.approx(4.1e-6, rel=5e-3, abs=0)
+    assert doc["computed_now"] == doc["evaluations"] > 0
+    assert main(["fit", *argv, "-o", str(out), "--no-progress"]) == 0
+    again = capsys.readouterr()
+    assert "fit C–V fit" not in again.err and "0 computed now" in again.out
+    assert json.loads((out / "fit.json").read_text())["parameters"] == doc["parameters"]
