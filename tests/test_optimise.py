@@ -83,3 +83,98 @@ def test_objective_sense_is_kept():
     assert parse_optimise({**{k: v for k, v in TABLE.items() if k != "minimise"},
                            "maximise": "response.snr_db"}).sense == 1.0
     assert math.isclose(parse_optimise(TABLE).sense, -1.0)
+
+
+class Interrupting:
+    """The cost above, counting its calls; raises KeyboardInterrupt (as Ctrl-C does) once
+    ``after`` evaluations are done."""
+
+    def __init__(self, after=None):
+        self.after, self.calls = after, 0
+
+    def __call__(self, design):
+        if self.after is not None and self.calls >= self.after:
+            raise KeyboardInterrupt
+        self.calls += 1
+        return cost(design)
+
+
+def test_an_interrupted_run_resumes_without_recomputing(tmp_path):
+    """Interrupted after k evaluations and run again into the same folder: only the missing
+    evaluations are computed, and the optimum is that of a run without interruption."""
+    import json
+
+    spec = parse_optimise({**TABLE, "starts": 2})
+    whole = Interrupting()
+    full = run_optimise(demo_design(), spec, tmp_path / "whole", evaluate=whole, verify=cost)
+    total = full.evaluations
+    assert whole.calls == total > 10
+    k = total // 2
+    with pytest.raises(KeyboardInterrupt):
+        run_optimise(demo_design(), spec, tmp_path / "cut", evaluate=Interrupting(k),
+                     verify=cost)
+    lines = (tmp_path / "cut" / "evaluations.jsonl").read_text().splitlines()
+    assert len(lines) == k and all(json.loads(x)["status"] == "ok" for x in lines)
+    rest = Interrupting()
+    resumed = run_optimise(demo_design(), spec, tmp_path / "cut", evaluate=rest, verify=cost)
+    assert rest.calls == resumed.evaluations == total - k
+    for path, x in full.optimum.items():
+        assert resumed.optimum[path] == pytest.approx(x, rel=1e-12, abs=0)
+    assert resumed.values == full.values and resumed.active == full.active
+
+
+class Tty:
+    """A stream that says it is a terminal."""
+
+    def __init__(self):
+        import io
+
+        self.buf = io.StringIO()
+
+    def isatty(self):
+        return True
+
+    def write(self, text):
+        self.buf.write(text)
+
+    def flush(self):
+        pass
+
+
+def test_progress_reports_start_iteration_and_best_feasible(tmp_path, capsys):
+    """Without a terminal: one line per batch on stderr, nothing on stdout; the last best
+    feasible value is the optimum's (the projection's cost)."""
+    spec = parse_optimise({**TABLE, "starts": 2})
+    res = run_optimise(demo_design(), spec, tmp_path, evaluate=cost, verify=cost, progress=True)
+    out, err = capsys.readouterr()
+    assert out == ""
+    lines = err.splitlines()
+    batches = [x for x in lines if x.startswith("optimise start")]
+    assert batches[0].startswith("optimise start 1/2, iteration 1: 5 points | 5 computed")
+    assert any(x.startswith("optimise start 2/2, iteration 3") for x in batches)
+    assert sum(int(x.split(": ")[1].split()[0]) for x in batches) == res.evaluations
+    best = float(batches[-1].split("best feasible mechanics.test_cost_um2 = ")[1].split()[0])
+    assert best == pytest.approx(res.values["mechanics.test_cost_um2"], rel=1e-5, abs=0)
+    assert lines[-1] == "optimise: checking the optimum with the full FE pipeline"
+    # again: every point is replayed from the log
+    run_optimise(demo_design(), spec, tmp_path, evaluate=cost, verify=cost, progress=True)
+    err = capsys.readouterr().err
+    assert f"0 computed, {res.evaluations} replayed" in err
+
+
+def test_progress_on_a_terminal_redraws_one_line(tmp_path):
+    from diagap.studies.progress import StudyProgress
+
+    tty = Tty()
+    spec = parse_optimise({**TABLE, "starts": 1})
+    run_optimise(demo_design(), spec, tmp_path, evaluate=cost, verify=cost,
+                 progress=StudyProgress("optimise", tty))
+    text = tty.buf.getvalue()
+    assert text.count("\r") > 5 and "[################] 5/5" in text
+    assert "\n" in text and "best feasible" in text
+
+
+def test_no_progress_draws_nothing(tmp_path, capsys):
+    spec = parse_optimise({**TABLE, "starts": 1})
+    run_optimise(demo_design(), spec, tmp_path, evaluate=cost, verify=cost, progress=False)
+    assert capsys.readouterr() == ("", "")

@@ -16,10 +16,11 @@ _RESUME = ("resuming: finished evaluations are kept in OUT/evaluations.jsonl; ru
            "130 interrupted.")
 
 
-def _runner_options(p) -> None:
-    p.add_argument("--exact", action="store_true",
-                   help="evaluate every design with the full FE pipeline (default: the fast "
-                   "tables where they cover the design)")
+def _runner_options(p, exact: bool = True) -> None:
+    if exact:
+        p.add_argument("--exact", action="store_true",
+                       help="evaluate every design with the full FE pipeline (default: the "
+                       "fast tables where they cover the design)")
     p.add_argument("--workers", type=positive_int, default=1, metavar="K",
                    help="local worker processes (default 1: this process)")
     p.add_argument("--scheduler", metavar="ADDRESS", help="run the evaluations on a Dask "
@@ -57,8 +58,7 @@ def add_parsers(sub, add_common) -> None:
                        "terminals, parasitic included) with the coupled FE model; write "
                        "OUT/fit.json (values, 95 % intervals, residual) and a residual plot.",
                        formatter_class=fmt, epilog="CSV: a header such as 'bias (V),capacitance "
-                       "(pF)', then one row of numbers per point.\nexit codes: 0 success, 2 "
-                       "bad input (one line on stderr, no outputs written).")
+                       "(pF)', then one row of numbers per point.\n" + _RESUME)
     f.add_argument("design", help="design file (TOML): the nominal design")
     f.add_argument("--cv", required=True, metavar="FILE.csv", help="the measured C-V curve")
     f.add_argument("--response", metavar="FILE.csv", help="a measured frequency response "
@@ -67,6 +67,7 @@ def add_parsers(sub, add_common) -> None:
     f.add_argument("--free", metavar="PATH,PATH", help="free design values (default "
                    "diaphragm.residual_stress,backplate.gap)")
     f.add_argument("-o", "--out", default="diagap-fit", help="output folder")
+    _runner_options(f, exact=False)
     add_common(f)
 
 
@@ -134,7 +135,7 @@ def _cmd_optimise(args) -> int:
     if args.starts:
         spec = replace(spec, starts=args.starts)
     res = run_optimise(design, spec, Path(args.out), exact=args.exact, workers=args.workers,
-                       scheduler=args.scheduler, progress=False)
+                       scheduler=args.scheduler, progress=not args.no_progress)
     doc = res.to_json()
     other = spec.constraints[0].path if spec.constraints else spec.objective
     write_study_files(Path(args.out), [
@@ -170,8 +171,19 @@ def _cmd_fit(args) -> int:
     from diagap.cli import check_output_folder
 
     check_output_folder(Path(args.out))
-    model = CVModel(design)
-    res = fit_cv(model, data["bias"], data["capacitance"], free, response=response)
+    client, owned = None, False
+    if args.scheduler is not None:  # refuse an unreachable cluster before building the model
+        from diagap.studies.runner import connect
+
+        client, owned = connect(args.scheduler)
+    try:
+        model = CVModel(design)
+        res = fit_cv(model, data["bias"], data["capacitance"], free, response=response,
+                     out_dir=Path(args.out), workers=args.workers, scheduler=client,
+                     progress=not args.no_progress)
+    finally:
+        if owned:
+            client.close()
     doc = res.to_json()
     files = [("fit.json", lambda p: p.write_text(json_text(doc), encoding="utf-8")),
              ("plots/cv_fit.png",
@@ -187,7 +199,8 @@ def _cmd_fit(args) -> int:
         lo, hi = v["ci95"]
         ci = "not identifiable" if lo is None else f"95 % interval [{lo:.6g}, {hi:.6g}]"
         print(f"  {k} = {v['value']:.6g} {v['unit']} ({ci})")
-    print(f"rms residual: {res.rms_residual * 1e15:.3g} fF over {res.biases_v.size} points")
+    print(f"rms residual: {res.rms_residual * 1e15:.3g} fF over {res.biases_v.size} points "
+          f"({res.evaluations} model evaluations, {res.computed} computed now)")
     if response is not None:
         print(f"response: rms residual {doc['response']['rms_residual_db']:.3g} dB over "
               f"{doc['response']['points']} points")

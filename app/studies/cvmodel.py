@@ -106,6 +106,7 @@ class CVModel:
                                  b.electrode_size_m)
         if mesh not in ("fine", "coarse"):
             raise ValueError(f"mesh = {mesh!r}: must be fine or coarse")
+        self.mesh = mesh
         chosen = plates[-2:] if mesh == "fine" else plates[-2:-1]
         self.levels = [_Level(p, d.shape, b.electrode_size_m) for p in chosen]
         g = b.gap_m

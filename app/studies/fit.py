@@ -4,7 +4,12 @@ Model and data: measured terminal capacitances C_j at biases V_j, j = 1..m, agai
 C_t(V; θ) (:class:`diagap.studies.cvmodel.CVModel`) with the free design values θ (default the
 residual stress and the gap). The fit minimises Σ r_j², r_j = C_t(V_j; θ) − C_j, with
 :func:`scipy.optimize.least_squares` (trust region reflective, inside bounds that keep the model
-in its range) on scaled parameters p_i = θ_i / s_i; the Jacobian is taken by forward differences.
+in its range) on scaled parameters p_i = θ_i / s_i. The Jacobian is taken by central
+differences, ∂r/∂p_i ≈ (r(p + h_i e_i) − r(p − h_i e_i)) / 2h_i with h_i = STEP·max(|p_i|, 1)
+(one-sided at a bound): error O(h²) against O(h) of forward differences. The model evaluations
+of a step — the start with its 2n neighbours, a Jacobian's 2n neighbours, a trial point — form one
+batch, computed in parallel on local processes or a Dask cluster and stored, so that a fit run
+again after an interruption replays them (:mod:`diagap.studies.fitrun`).
 
 Confidence intervals (asymptotic, Jacobian-based; Seber & Wild, Nonlinear Regression, 1989,
 sec. 5.1; Bates & Watts 1988, sec. 2.3): with J = ∂r/∂p at the optimum, s² = Σ r_j²/(m − n) and
@@ -29,6 +34,10 @@ _UNITS = {"diaphragm.residual_stress": "Pa", "backplate.gap": "m", "diaphragm.th
           "diaphragm.youngs_modulus": "Pa", "electrical.parasitic_capacitance": "F"}
 MAX_CONDITION = 1e8
 MAX_CORRELATION = 0.99
+#: central-difference step in the scaled parameters, relative to max(|p_i|, 1): the truncation
+#: error (∝ h²) and the model's round-off (∝ 1/h, the branch solve and the spline inversion are
+#: accurate to ~1e-12 relative) balance near 1e-4
+STEP = 1e-4
 
 
 @dataclass(frozen=True)
@@ -47,6 +56,7 @@ class FitResult:
     model_rel_error: float | None = None
     evaluations: int = 0
     extra: dict = field(default_factory=dict)
+    computed: int = 0                # evaluations computed now (the others were replayed)
 
     @property
     def residuals_f(self) -> np.ndarray:
@@ -67,7 +77,7 @@ class FitResult:
                 "rms_residual_unit": "F", "points": int(self.biases_v.size),
                 "correlation": self.correlation.tolist(), "condition_number": self.condition,
                 "warnings": list(self.warnings), "model_rel_error": self.model_rel_error,
-                "evaluations": self.evaluations, **self.extra}
+                "evaluations": self.evaluations, "computed_now": self.computed, **self.extra}
 
 
 def confidence_intervals(J: np.ndarray, residuals: np.ndarray, values, scales):
@@ -142,8 +152,83 @@ def _bounds(model, paths, scales):
     return np.array(lo), np.array(hi)
 
 
+class _Residuals:
+    """Residual vectors at scaled parameters p (memoised, each batch evaluated together) and
+    their central-difference Jacobians."""
+
+    def __init__(self, evals, scales, lo, hi, stage: str, display=None):
+        self.evals, self.scales, self.lo, self.hi = evals, scales, lo, hi
+        self.stage, self.display = stage, display
+        self.vector = None          # f(curve, level) -> residual vector
+        self.describe = None        # f(residual vector) -> text of the best so far
+        self.raw: dict = {}
+        self.best = math.inf
+        self.trials = self.jacobians = 0
+
+    def values(self, xs) -> list:
+        keys = [tuple(float(v) for v in x) for x in xs]
+        new = list(dict.fromkeys(k for k in keys if k not in self.raw))
+        if new:
+            for k, out in zip(new, self.evals.run([np.array(k) * self.scales for k in new])):
+                self.raw[k] = out
+                self._note(out)
+        return [self.raw[k] for k in keys]
+
+    def _note(self, out) -> None:
+        if self.vector is None or self.describe is None:
+            return
+        r = self.vector(*out)
+        ss = float(r @ r)
+        if ss < self.best:
+            self.best = ss
+            if hasattr(self.display, "best"):
+                self.display.best = self.describe(r)
+
+    def _where(self, text: str) -> None:
+        if hasattr(self.display, "where"):
+            self.display.where = f"{self.stage}, {text}"
+
+    def _stencil(self, x):
+        pts, pairs = [], []
+        for i in range(x.size):
+            h = STEP * max(abs(x[i]), 1.0)
+            up, down = x.copy(), x.copy()
+            up[i], down[i] = min(x[i] + h, self.hi[i]), max(x[i] - h, self.lo[i])
+            pairs.append((len(pts), len(pts) + 1, up[i] - down[i]))
+            pts += [up, down]
+        return pts, pairs
+
+    def start(self, x) -> None:
+        """Evaluate the start and its Jacobian's neighbours in one batch."""
+        self._where("start")
+        x = np.asarray(x, float)
+        self.values([x, *self._stencil(x)[0]])
+
+    def fun(self, x) -> np.ndarray:
+        self.trials += 1
+        self._where(f"trial point {self.trials}")
+        return self.vector(*self.values([x])[0]).copy()
+
+    def jac(self, x) -> np.ndarray:
+        self.jacobians += 1
+        self._where(f"Jacobian {self.jacobians}")
+        x = np.asarray(x, float)
+        pts, pairs = self._stencil(x)
+        r = [self.vector(*v) for v in self.values(pts)]
+        return np.column_stack([(r[a] - r[b]) / w for a, b, w in pairs])
+
+
+def _display(progress):
+    if progress is True:
+        from diagap.studies.progress import StudyProgress
+
+        return StudyProgress("fit")
+    return progress or None
+
+
 def fit_cv(model, biases_v, capacitances_f, free=DEFAULT_FREE, *, start: dict | None = None,
-           error_estimate: bool = True, response=None, response_model=None) -> FitResult:
+           error_estimate: bool = True, response=None, response_model=None, out_dir=None,
+           workers: int | None = 1, scheduler=None, progress=False) -> FitResult:
     """Fit the free design values ``free`` of ``model`` to a measured C–V curve (and optionally
     a measured frequency response).
 
@@ -165,12 +250,21 @@ def fit_cv(model, biases_v, capacitances_f, free=DEFAULT_FREE, *, start: dict | 
         squares).
     response_model : callable, optional
         ``f(values, freqs_hz) -> level_db`` (default
-        :class:`diagap.studies.response_model.PipelineResponse` of the design).
+        :class:`diagap.studies.response_model.PipelineResponse` of the design); picklable for
+        worker processes.
+    out_dir : path, optional
+        Folder of ``evaluations.jsonl``: every model evaluation is stored there, and a fit run
+        again into it replays them (None: nothing stored).
+    workers, scheduler : optional
+        Local worker processes, or a Dask scheduler address or client, for the batches of
+        evaluations (with ``out_dir``).
+    progress : bool or StudyProgress
+        True: the fit's progress on stderr (stage, step, evaluations, best residual so far).
     """
     from scipy.optimize import least_squares
 
-    from diagap.fem.coupling.branch import CoupledError
     from diagap.studies.cvmodel import FREE_PATHS
+    from diagap.studies.fitrun import FitEvaluations
 
     paths = tuple(free)
     for p in paths:
@@ -181,28 +275,31 @@ def fit_cv(model, biases_v, capacitances_f, free=DEFAULT_FREE, *, start: dict | 
     if V.size < len(paths) + 1:
         raise DesignError(f"the C–V data has {V.size} points; fitting {len(paths)} values "
                           f"needs at least {len(paths) + 1}")
+    if response is not None and response_model is None:  # the sections it needs, or a
+        from diagap.studies.response_model import PipelineResponse  # one-line error now
+
+        PipelineResponse(model.design)
     scales = _scales(model, paths)
     lo, hi = _bounds(model, paths, scales)
     x0 = np.array([(start or model.nominal()).get(p, model.nominal()[p]) for p in paths]) / scales
     x0 = np.clip(x0, lo + 1e-6 * (hi - lo), hi - 1e-6 * (hi - lo))
     c_unit = 1e-4 * float(np.mean(np.abs(C)))  # residuals in this unit: O(1) numbers
     penalty = 10.0 * max(float(np.ptp(C)), 1e-3 * float(np.mean(np.abs(C)))) / c_unit
-    count = {"n": 0}
-
-    def residuals(x):
-        count["n"] += 1
-        values = dict(zip(paths, x * scales))
-        try:
-            return (model.curve(values, V) - C) / c_unit
-        except (CoupledError, DesignError, ValueError):
-            return np.full(C.size, penalty)
-
-    opts = dict(bounds=(lo, hi), x_scale=1.0, diff_step=1e-5, xtol=1e-8, ftol=1e-10, gtol=1e-10)
-    sol = least_squares(residuals, x0, **opts)
-    extra, cv_weight = {}, c_unit
-    if response is not None:
-        sol, cv_weight, extra = _joint(sol, residuals, c_unit, paths, scales, model, response,
-                                       response_model, opts, count)
+    display = _display(progress)
+    opts = dict(bounds=(lo, hi), x_scale=1.0, xtol=1e-8, ftol=1e-10, gtol=1e-10)
+    with FitEvaluations(model, V, paths, out_dir=out_dir, workers=workers, scheduler=scheduler,
+                        progress=display) as evals:
+        cv = _Residuals(evals, scales, lo, hi, "C–V fit", display)
+        cv.vector = lambda c, _: (c - C) / c_unit if c is not None else np.full(C.size, penalty)
+        cv.describe = lambda r: f"best rms residual {c_unit * math.sqrt(r @ r / r.size):.3g} F"
+        cv.start(x0)
+        sol = least_squares(cv.fun, x0, jac=cv.jac, **opts)
+        extra, cv_weight, count = {}, c_unit, len(cv.raw)
+        if response is not None:
+            sol, cv_weight, extra, n = _joint(sol, cv.vector, c_unit, paths, evals, response,
+                                              response_model, opts, (scales, lo, hi), display)
+            count += n
+        computed = evals.computed
     values = tuple(float(v) for v in sol.x * scales)
     ci, corr, cond, warns = confidence_intervals(sol.jac, sol.fun, values, scales)
     at_bound = [p for p, x, a, b in zip(paths, sol.x, lo, hi)
@@ -210,45 +307,52 @@ def fit_cv(model, biases_v, capacitances_f, free=DEFAULT_FREE, *, start: dict | 
     if at_bound:
         warns = [*warns, f"{', '.join(at_bound)} stopped at the bound of the model's range"]
     fitted = C + sol.fun[:C.size] * cv_weight
+    if error_estimate and hasattr(display, "note"):
+        display.note("estimating the model's discretisation error (coarser mesh)")
     err = model.discretisation_error(dict(zip(paths, values)), V) if error_estimate else None
+    if hasattr(display, "close"):
+        display.close()
     rms = float(np.sqrt(np.mean((fitted - C) ** 2)))
     if err is not None and err * float(np.mean(np.abs(C))) > rms:
         warns = [*warns, f"the model's discretisation error ({err:.2g} relative) exceeds the "
                  f"rms residual: a finer --accuracy makes the fitted values more trustworthy"]
-    return FitResult(paths, values, ci, V, C, fitted, corr, cond, tuple(warns), err, count["n"],
-                     extra)
+    return FitResult(paths, values, ci, V, C, fitted, corr, cond, tuple(warns), err, count,
+                     extra, computed)
 
 
-def _joint(sol, cv_residuals, c_unit, paths, scales, model, response, response_model, opts,
-           count):
+def _joint(sol, cv_vector, c_unit, paths, evals, response, response_model, opts, box,
+           display):
     """The second stage: C–V and response residuals, each over its own noise level."""
     from scipy.optimize import least_squares
 
+    scales, lo, hi = box
     freqs, level = (np.asarray(a, float) for a in response)
-    if response_model is None:
-        from diagap.studies.response_model import PipelineResponse
-
-        response_model = PipelineResponse(model.design)
+    evals.with_response(freqs, response_model)
     n = len(paths)
     m_cv = sol.fun.size
     sigma_cv = c_unit * max(math.sqrt(float(sol.fun @ sol.fun) / max(m_cv - n, 1)), 1e-6)
-    r0 = response_model(dict(zip(paths, sol.x * scales)), freqs) - level
+    joint = _Residuals(evals, scales, lo, hi, "joint fit", display)
+    _, resp0 = joint.values([sol.x])[0]
+    if resp0 is None:
+        raise DesignError("--response: the response cannot be evaluated at the C–V fit's "
+                          f"values {dict(zip(paths, sol.x * scales))}")
+    r0 = resp0 - level
     sigma_db = max(math.sqrt(float(np.mean(r0**2))), 1e-3)
     bad = 10.0 * max(float(np.ptp(level)), 1.0) / sigma_db
 
-    def joint(x):
-        cv = cv_residuals(x) * (c_unit / sigma_cv)
-        try:
-            resp = (response_model(dict(zip(paths, x * scales)), freqs) - level) / sigma_db
-        except (DesignError, ValueError, RuntimeError):
-            resp = np.full(freqs.size, bad)
+    def vector(c, db):
+        cv = cv_vector(c, None) * (c_unit / sigma_cv)
+        resp = (db - level) / sigma_db if db is not None else np.full(freqs.size, bad)
         return np.concatenate([cv, resp])
 
-    sol = least_squares(joint, sol.x, **opts)
+    joint.vector = vector
+    joint.describe = lambda r: f"best weighted rms residual {math.sqrt(r @ r / r.size):.3g}"
+    joint.start(sol.x)
+    sol = least_squares(joint.fun, sol.x, jac=joint.jac, **opts)
     resp = sol.fun[m_cv:] * sigma_db
     extra = {"response": {"points": int(freqs.size),
                           "rms_residual_db": float(np.sqrt(np.mean(resp**2))),
                           "noise_db": sigma_db, "cv_noise_f": sigma_cv,
                           "frequencies_hz": freqs.tolist(),
                           "fitted_db": (level + resp).tolist()}}
-    return sol, sigma_cv, extra
+    return sol, sigma_cv, extra, len(joint.raw)

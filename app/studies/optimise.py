@@ -159,6 +159,8 @@ class _Problem:
         self.history: list = []
         self.paths: set = set()  # which evaluation paths answered
         self.obj_scale = 1.0
+        self.best = math.nan      # best feasible objective among the visited points
+        self.progress = getattr(runner, "progress", None)
 
     def x(self, z) -> np.ndarray:
         return self.lo + np.clip(z, 0.0, 1.0) * (self.hi - self.lo)
@@ -184,7 +186,17 @@ class _Problem:
             grads = {k: np.array([(vals[a][k] - vals[b][k]) / width for a, b, width in pairs])
                      for k in self.spec.keys}
             self.memo[key] = (vals[0], grads)
+            self._note_best(vals[0])
         return self.memo[key]
+
+    def _note_best(self, v: dict) -> None:
+        y = v[self.spec.objective]
+        if not (math.isfinite(y) and _feasible(self.spec, v)):
+            return
+        if not math.isfinite(self.best) or self.spec.sense * (y - self.best) > 0:
+            self.best = y
+            if hasattr(self.progress, "best"):
+                self.progress.best = f"best feasible {self.spec.objective} = {y:.6g}"
 
     def _values(self, rec) -> dict:
         from diagap.evaluate import PATH_KEY
@@ -240,6 +252,25 @@ def _feasible(spec, values) -> bool:
     return all(c.met(values.get(c.path, math.nan)) for c in spec.constraints)
 
 
+def _display(progress):
+    """The progress sink of the search: True → a :class:`StudyProgress` on stderr."""
+    if progress is True:
+        from diagap.studies.progress import StudyProgress
+
+        return StudyProgress("optimise")
+    return progress or None
+
+
+def _where(display, text: str) -> None:
+    if hasattr(display, "where"):
+        display.where = text
+
+
+def _note(display, text: str) -> None:
+    if hasattr(display, "note"):
+        display.note(text)
+
+
 def run_optimise(design, spec: OptimiseSpec, out_dir, *, evaluate=None, verify=None,
                  exact: bool = False, workers: int | None = 1, scheduler=None,
                  progress=False, active_tol: float = 1e-3,
@@ -253,6 +284,11 @@ def run_optimise(design, spec: OptimiseSpec, out_dir, *, evaluate=None, verify=N
     bounds is built first, once, with the same ``workers`` or ``scheduler``
     (:mod:`diagap.studies.tables`; ``table_options`` as in :func:`diagap.fastpath.study_table`);
     the search reads it and the verification of the optimum stays a full FE run.
+
+    ``progress``: True draws the search's progress on stderr (start, iteration, evaluations
+    computed and replayed, best feasible objective so far;
+    :class:`diagap.studies.progress.StudyProgress`, which may also be given), False draws
+    nothing; a callable ``f(done, total, record)`` is called for every evaluated point.
     """
     from scipy.optimize import minimize
 
@@ -266,10 +302,12 @@ def run_optimise(design, spec: OptimiseSpec, out_dir, *, evaluate=None, verify=N
     evaluate = evaluate or KeyEvaluator(spec.keys, exact)
     full_fe_check = verify is None
     verify = verify or KeyEvaluator(spec.keys, True)
+    display = _display(progress)
     with StudyRunner(design, evaluate, out_dir, tag=evaluator_tag(evaluate), workers=workers,
-                     scheduler=scheduler, progress=progress, label="optimise") as runner:
+                     scheduler=scheduler, progress=display, label="optimise") as runner:
         tables: dict = {}
         if own and not exact:
+            _note(display, "building the fast table over the variables' bounds")
             evaluate, built = prepare_tables(design, spec.keys, spec.variables,
                                              workers=runner.workers, client=runner.client,
                                              table_options=table_options)
@@ -286,13 +324,21 @@ def run_optimise(design, spec: OptimiseSpec, out_dir, *, evaluate=None, verify=N
         if spec.starts > 1:
             starts += list(unit_samples(max(spec.starts - 1, 2), len(z0), "lhs",
                                         spec.seed))[:spec.starts - 1]
+        _where(display, f"start 1/{len(starts)}, iteration 1")
         y0 = prob.values_and_gradients(starts[0])[0][spec.objective]
         prob.obj_scale = max(abs(y0), 1e-300) if math.isfinite(y0) else 1.0
         ends = []
-        for s in starts:
+        for i, s in enumerate(starts):
+            iteration = [0]
+
+            def advance(*_, i=i, iteration=iteration):
+                iteration[0] += 1
+                _where(display, f"start {i + 1}/{len(starts)}, iteration {iteration[0] + 1}")
+
+            _where(display, f"start {i + 1}/{len(starts)}, iteration 1")
             res = minimize(prob.objective, s, jac=prob.objective_grad, method="SLSQP",
                            bounds=[(0.0, 1.0)] * len(s), constraints=prob.constraints(),
-                           options={"maxiter": 40, "ftol": FTOL})
+                           options={"maxiter": 40, "ftol": FTOL}, callback=advance)
             z = np.clip(res.x, 0, 1)
             vals = prob.values_and_gradients(z)[0]
             ends.append({"start": prob._point(s), "end": prob._point(z), "z": z,
@@ -305,7 +351,10 @@ def run_optimise(design, spec: OptimiseSpec, out_dir, *, evaluate=None, verify=N
     point = dict(best["end"])
     from diagap.sweep.point import apply_overrides
 
+    _note(display, "checking the optimum with the full FE pipeline")
     final = verify(apply_overrides(design, tuple(point.items())))
+    if hasattr(display, "close"):
+        display.close()
     values = {k: float(final.get(k, math.nan)) for k in spec.keys}
     active = tuple(c.text for c in spec.constraints
                    if math.isfinite(values[c.path]) and abs(c.margin(values[c.path]))

@@ -3,7 +3,8 @@
 A study evaluates copies of a base design, each with a few design values replaced
 (``((path, SI value), ...)``). The points run through the sweep machinery
 (:mod:`diagap.sweep.exec`, :func:`diagap.sweep.point.run_point`): the same worker processes,
-fault handling and Dask client. Only this process writes files.
+fault handling and Dask client; local worker processes are kept from the first batch that needs
+them to the end of the study (:mod:`diagap.studies.pool`). Only this process writes files.
 
 Resuming: every finished evaluation is one line of ``OUT/evaluations.jsonl`` (flushed and
 fsync'ed; a truncated last line left by a killed process is cut off when the log is opened).
@@ -22,7 +23,7 @@ import os
 from pathlib import Path
 from typing import Any, Callable, Sequence
 
-from diagap.sweep.exec import available_cores, connect, run_dask, run_pool, run_serial
+from diagap.sweep.exec import available_cores, connect, run_dask, run_serial
 from diagap.sweep.faults import retry_on_resume
 from diagap.sweep.point import PointTask
 from diagap.sweep.progress import ProgressBar, make_progress
@@ -135,8 +136,10 @@ class StudyRunner:
         Local processes (default: the cores available; 1 runs in this process).
     scheduler : str or distributed.Client, optional
         A Dask scheduler: points run on that cluster.
-    progress : bool or callable
-        True: a progress bar on stderr per batch; a callable ``f(done, total, record)``.
+    progress : bool, callable or StudyProgress
+        True: a progress bar on stderr per batch; a callable ``f(done, total, record)``; an
+        object with ``batch(total)`` and ``batch_done(computed, replayed)`` (e.g.
+        :class:`diagap.studies.progress.StudyProgress`) is told of every batch.
     label : str
         The progress bar's label.
     """
@@ -151,6 +154,7 @@ class StudyRunner:
             raise SweepError(f"workers = {workers!r}: must be >= 1")
         self.scheduler, self.progress, self.label = scheduler, progress, label
         self.client, self._owned = None, False
+        self.pool = None  # local worker processes, started by the first batch that needs them
         self.computed = self.reused = 0
 
     def __enter__(self):
@@ -172,6 +176,9 @@ class StudyRunner:
         return self
 
     def __exit__(self, *exc):
+        if self.pool is not None:
+            self.pool.close()
+            self.pool = None
         self.log.close()
         self._close_client()
 
@@ -183,6 +190,8 @@ class StudyRunner:
     def _bar(self, total: int):
         if self.progress is True:
             return ProgressBar(total, label=self.label)
+        if hasattr(self.progress, "batch"):
+            return self.progress.batch(total)
         return make_progress(self.progress, total)
 
     def _mesh_cache(self) -> bool:
@@ -201,7 +210,8 @@ class StudyRunner:
             if (rec is None or retry_on_resume(rec, False)) and pid not in seen:
                 seen.add(pid)
                 todo.append(PointTask(pid, self.base, tuple(over), self.evaluate, cache))
-        self.reused += len(set(ids)) - len(todo)
+        reused = len(set(ids)) - len(todo)
+        self.reused += reused
         self.computed += len(todo)
         if todo:
             bar = self._bar(len(todo))
@@ -214,11 +224,17 @@ class StudyRunner:
                 self._runner(len(todo))(todo, emit)
             finally:
                 bar.close()
+        if hasattr(self.progress, "batch_done"):
+            self.progress.batch_done(len(todo), reused)
         return [self.log.records[pid] for pid in ids]
 
     def _runner(self, n: int):
         if self.client is not None:
             return lambda tasks, emit: run_dask(tasks, self.client, emit)
-        if self.workers > 1 and n > 1:
-            return lambda tasks, emit: run_pool(tasks, min(self.workers, n), emit)
+        if self.workers > 1 and n > 1:  # one pool for all the batches of the study
+            if self.pool is None:
+                from diagap.studies.pool import WorkerPool
+
+                self.pool = WorkerPool(self.workers)
+            return self.pool.run
         return run_serial
