@@ -69,7 +69,8 @@ def fast_summary(design, box=None, *, mapper=None, **table_options) -> dict[str,
     box : StudyBox, optional
         A design and bounds of varied values containing ``design``: all numeric outputs of the
         mechanics, electrostatics, coupled, damping and response sections. Without a box: the
-        ``mechanics`` outputs of a clamped circular diaphragm from the scaled table.
+        ``mechanics`` outputs of a clamped circular diaphragm from the scaled table, and its
+        ``damping`` outputs where covered (:mod:`diagap.fastpath.film`).
     mapper : callable, optional
         How table points are computed when a table is built
         (:func:`diagap.fastpath.refine.mapper_for`: local processes or a Dask client).
@@ -89,7 +90,10 @@ def fast_summary(design, box=None, *, mapper=None, **table_options) -> dict[str,
         a value the box does not vary.
     """
     if box is None:
-        return _plate_outputs(design, mapper)
+        out = _plate_outputs(design, mapper)
+        from diagap.fastpath.film import covered_damping_outputs
+        out.update(covered_damping_outputs(design, out, mapper))
+        return out
     from diagap.fastpath.study import box_coordinates, study_table
 
     x = box_coordinates(box, design)
