@@ -16,7 +16,7 @@ groups,
 The table holds Ẑ as a smooth factor F = Ẑ / Ẑ₀ over a closed form with first-order slip
 (scaled units: μ = 1, g = 1, lengths in gaps):
 
-    Ẑ₀ = (3/(2π R_c⁴)) (4A − A² − 2 ln A − 3)/(1 + 6 Kn)       film of the cell (Škvor 1969;
+    Ẑ₀ = (3/(2π)) (4A − A² − 2 ln A − 3)/(1 + 6 Kn)            film of the cell (Škvor 1969;
                                                                 Bao et al. 2003; Maxwell slip
                                                                 between plates: flow × (1 + 6 Kn))
        + 8t / (π r⁴ (1 + 4 Kn/r))                               Hagen–Poiseuille with slip
@@ -72,7 +72,7 @@ def closed_form_scaled(lattice: str, x) -> float:
     rc = CELL_RADIUS_OVER_PITCH[lattice] / gp
     r, t = rp / gp, tp / gp
     a = (r / rc) ** 2
-    film = 3.0 / (2.0 * math.pi * rc**4) * (4 * a - a * a - 2 * math.log(a) - 3) / (1 + 6 * kn)
+    film = 3.0 / (2.0 * math.pi) * (4 * a - a * a - 2 * math.log(a) - 3) / (1 + 6 * kn)
     return film + 8.0 * t / (math.pi * r**4 * (1.0 + 4.0 * kn / r)) + 3.0 / r**3
 
 
