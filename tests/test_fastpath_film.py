@@ -51,7 +51,7 @@ def random_design(rng, accuracy: str = ACCURACY):
         p0 = math.exp(rng.uniform(math.log(20e3), math.log(200e3)))
         lam = air_properties(temp, p0).mean_free_path_m
         gap = gp * pitch
-        if not (1e-3 < lam / gap < 0.9 and lam / (rp * pitch) < 0.5 and 0.5e-6 < gap < 60e-6):
+        if not (1.2e-3 < lam / gap < 0.09 and lam / (rp * pitch) < 0.5 and 0.5e-6 < gap < 60e-6):
             continue
         changes = {
             "analysis.accuracy": accuracy,

@@ -32,7 +32,9 @@ radius, ε = L/a, τ = σha²/D and α = 12 μ_eff L² n_h/(g³ Z),
 J the film functional and Φ₂ = ∫φ² dA on the unit electrode; the static shape of the clamped
 disk is known in closed form in τ, so J, σ̂_c and Φ₂ are computed from the radial problem of
 :mod:`diagap.fastpath.radial` (a one-dimensional solve, exact to the damping stage's own
-discretisation error) rather than tabulated on three axes. Everything else is a closed form.
+discretisation error) rather than tabulated on three axes; the plate FE's small departure from
+the closed-form shape is tabulated on τ (:mod:`diagap.fastpath.shape`). Everything else is a
+closed form.
 
 Not given by the fast path: the error estimates of the stage (``*_relative_uncertainty``), the
 b(f), k(f) curve (a nested list, not a flat output), texts; the resonance outputs of a design
@@ -115,6 +117,14 @@ def _cell(design, air, mapper) -> dict:
             "hole_knudsen_number": air.mean_free_path_m / r}
 
 
+def _correction(design, tau: float, mapper):
+    """The plate FE's departure from the closed-form static shape at τ (a callable of u)."""
+    from diagap.fastpath.shape import shape_correction, shape_table
+
+    table, _ = shape_table(design.analysis.accuracy, mapper=mapper)
+    return shape_correction(table, tau)
+
+
 def _resonance(design, mechanics_outputs, resonance_hz):
     if resonance_hz is not None:
         return float(resonance_hz)
@@ -178,7 +188,7 @@ def damping_outputs(design, mechanics_outputs: dict, *, resonance_hz: float | No
     perf = _cell(design, air, mapper) if b.hole_lattice != "none" else None
     sink = 0.0 if perf is None else perf["holes_per_m2"] / perf["resistance_per_hole_pa_s_per_m3"]
     alpha = 12.0 * mu_eff * L**2 * sink / g**3
-    film = RadialFilm(alpha, L / d.size_m, tau)
+    film = RadialFilm(alpha, L / d.size_m, tau, _correction(design, tau, mapper))
     z0 = 12.0 * mu_eff * L**4 / g**3
     sigma_per_omega = 12.0 * mu_eff * L**2 / (p0 * g**2)
     j0 = film.response(0j).real

@@ -37,7 +37,8 @@ the Bessel closed form of the uniformly moving perforated disk).
 
 This is the same continuous problem the damping stage solves in two dimensions (quadratic
 triangles, three nested levels, its own error 1e-5 … 1e-4 relative), so the two agree to the
-stage's discretisation error.
+stage's discretisation error, once the shape carries the plate FE's own departure from the
+closed form (:mod:`diagap.fastpath.shape`).
 """
 from __future__ import annotations
 
@@ -95,7 +96,7 @@ def static_shape(u, tau: float) -> np.ndarray:
 class _Mesh:
     """Two-zone radial mesh, its halving, Gauss points and the load of the shape."""
 
-    def __init__(self, layer: float, eps: float, tau: float, refine: int):
+    def __init__(self, layer: float, eps: float, tau: float, refine: int, correction=None):
         width = min(0.5, 20.0 * layer)
         n = _N_ZONE * refine
         self.x = np.concatenate([np.linspace(0.0, 1.0 - width, n + 1)[:-1],
@@ -106,6 +107,8 @@ class _Mesh:
         xq = 0.5 * (a + b)[:, None] + 0.5 * self.h[:, None] * _GAUSS_X[None, :]
         wq = 0.5 * self.h[:, None] * _GAUSS_W[None, :] * xq
         phi = static_shape(eps * xq, tau)
+        if correction is not None:
+            phi = phi * (1.0 + correction(eps * xq))
         n1 = (b[:, None] - xq) / self.h[:, None]
         load = np.zeros(self.x.size)
         np.add.at(load, np.arange(a.size), np.sum(phi * n1 * wq, axis=1))
@@ -133,10 +136,12 @@ class _Mesh:
 
 
 class RadialFilm:
-    """The scaled film of one design: sink α, electrode/diaphragm radius ε, tension ratio τ."""
+    """The scaled film of one design: sink α, electrode/diaphragm radius ε, tension ratio τ;
+    ``correction`` r(u) makes the shape φ(u)(1 + r(u)) (:mod:`diagap.fastpath.shape`)."""
 
-    def __init__(self, alpha: float, eps: float, tau: float):
+    def __init__(self, alpha: float, eps: float, tau: float, correction=None):
         self.alpha, self.eps, self.tau = float(alpha), float(eps), float(tau)
+        self.correction = correction
         self._meshes: dict = {}
 
     def _pair(self, c: complex):
@@ -144,8 +149,8 @@ class RadialFilm:
         key = round(math.log(layer) * 8.0)  # meshes shared within a factor ~1.13 of layers
         if key not in self._meshes:
             lay = math.exp(key / 8.0)
-            self._meshes[key] = (_Mesh(lay, self.eps, self.tau, 1),
-                                 _Mesh(lay, self.eps, self.tau, 2))
+            self._meshes[key] = (_Mesh(lay, self.eps, self.tau, 1, self.correction),
+                                 _Mesh(lay, self.eps, self.tau, 2, self.correction))
         return self._meshes[key]
 
     def response(self, s: complex) -> complex:
