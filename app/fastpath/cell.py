@@ -1,4 +1,4 @@
-r"""The perforation cell in scaled form: one table per lattice serves every hole of the range.
+r"""The perforation cell in scaled form: one table serves every hole of the range.
 
 The Stokes cell (:mod:`diagap.fem.film.stokes`) is solved in lengths of the gap g, velocities
 of the diaphragm speed v and pressures of μv/g, so that its flow resistance is
@@ -8,13 +8,18 @@ of the diaphragm speed v and pressures of μv/g, so that its flow resistance is
 with r the hole radius, t the backplate thickness, R_c the radius of the circle of the cell's
 area (√(√3/2π)·p for the hexagonal lattice of pitch p, p/√π for the square one), H = p the
 exit chamber and ℓ_s = λ the Maxwell slip length (accommodation 1, as in the damping stage).
-For one lattice R_c/p and H/p are fixed numbers, so Ẑ is a function of four dimensionless
-groups,
+The exit chamber is long enough for the jet to have merged (H/R_c = 1.90 hex, 1.77 square):
+changing H/R_c between the two, or to 3, moves Ẑ by ≤ 1e-4 (measured), below the Stokes FE's
+own mesh scatter, so one table made with H/R_c = 1.90 serves both lattices. The table axes
+(all logarithmic) are four dimensionless groups,
 
-    x = (r/p, g/p, t/p, Kn = λ/g).
+    x = (r/(R_c − r), g/R_c, t/R_c, Kn = λ/g),
 
-The table holds Ẑ as a smooth factor F = Ẑ / Ẑ₀ over a closed form with first-order slip
-(scaled units: μ = 1, g = 1, lengths in gaps):
+the first a logit of r/R_c that sends the touching-holes limit r → R_c (where the annulus of
+film around the hole closes) to infinity, so that Ẑ stays smooth on it.
+
+The table holds Ẑ as a factor F = Ẑ / Ẑ₀ over a closed form with first-order slip (scaled
+units: μ = 1, g = 1, lengths in gaps):
 
     Ẑ₀ = (3/(2π)) (4A − A² − 2 ln A − 3)/(1 + 6 Kn)            film of the cell (Škvor 1969;
                                                                 Bao et al. 2003; Maxwell slip
@@ -22,12 +27,15 @@ The table holds Ẑ as a smooth factor F = Ẑ / Ẑ₀ over a closed form with 
        + 8t / (π r⁴ (1 + 4 Kn/r))                               Hagen–Poiseuille with slip
        + 3 / r³                                                 Sampson's orifice (1891),
 
-A = r²/R_c². Ẑ₀ carries the power laws over the decades of the range, so F stays within a
-factor of a few and is nearly polynomial on log axes. F is interpolated as its logarithm on
-Chebyshev segments in ln x (:mod:`diagap.fastpath.grid`), refined until held-out midpoints and
-random points agree with the Stokes FE within 1e-3 relative (:mod:`diagap.fastpath.refine`).
-The table reproduces the Stokes FE of one accuracy setting (its mesh levels); the FE's own
-Richardson estimate of Ẑ (``rel_error``) is tabulated beside it.
+A = r²/R_c². Ẑ₀ carries the power laws over the decades of the range, so F stays within
+0.8 … 2 and is interpolated as its logarithm on Chebyshev segments
+(:mod:`diagap.fastpath.grid`), refined until held-out midpoints and random points agree with
+the Stokes FE within 1e-3 relative (:mod:`diagap.fastpath.refine`). F changes fastest with the
+gap where the film around the hole is about as wide as the gap (the flow turning into the hole
+then costs as much as the film): that axis starts with three segments. The table reproduces
+the Stokes FE of one accuracy setting (its mesh levels); the FE's own Richardson estimate of Ẑ
+(``rel_error``: ≈ 1e-3 at "draft", 2e-4 … 1e-3 at "normal") is tabulated beside it where it
+interpolates within the tolerance.
 
 Validated range: :data:`CELL_RANGE`.
 """
@@ -41,53 +49,68 @@ import numpy as np
 from diagap.fastpath.grid import Axis, TensorTable
 
 __all__ = ["CELL_RANGE", "CELL_RADIUS_OVER_PITCH", "cell_table", "scaled_cell",
-           "closed_form_scaled", "cell_coordinates", "cell_resistance_scaled"]
+           "closed_form_scaled", "cell_coordinates", "cell_resistance_scaled", "outside"]
 
-#: The validated range of the cell table, (low, high) of each dimensionless group:
+#: The validated range of the cell table, (low, high) of each dimensionless group (R_c the
+#: radius of the circle of the cell's area, 0.525 p hex, 0.564 p square):
 #:
-#: - ``hole_radius_over_pitch`` r/p: open area 0.9 % … 58 % (hex), from sparse condenser
-#:   backplates to MEMS backplates close to the r < p/2 limit of the schema;
-#: - ``gap_over_pitch`` g/p: a 25 µm gap over 0.8 mm holes to a 6 µm gap over 10 µm holes
-#:   (the demo: 0.2; measurement capsule 0.067);
-#: - ``thickness_over_pitch`` t/p: thin MEMS backplates (1 µm over 30 µm) to thick condenser
-#:   plates (the electret example: 1.0);
+#: - ``hole_radius_over_cell_radius`` r/R_c: open area 2.3 % … 58 %, r/p 0.08 … 0.4 (hex),
+#:   from sparse condenser backplates to MEMS backplates near the r < p/2 limit of the schema;
+#: - ``gap_over_cell_radius`` g/R_c: g/p 0.053 … 0.53 (hex): a 16 µm gap over 0.3 mm pitch
+#:   to a 5 µm gap over 10 µm pitch (the demo: 0.38; measurement capsule 0.13);
+#: - ``thickness_over_cell_radius`` t/R_c: t/p 0.05 … 2.1 (hex): thin MEMS backplates (1 µm
+#:   over 20 µm) to thick condenser plates (the electret example: 1.9);
 #: - ``knudsen`` λ/g: 25 µm gaps at sea level (2.6e-3) to 1 µm gaps at 65 kPa (0.1), the limit
 #:   of the Stokes cell's first-order slip model (Kn ≲ 0.1, :mod:`diagap.fem.film.stokes`);
 #:   beyond it the slip model is out of its range and the cell FE's mesh-to-mesh scatter at
 #:   "draft" (≈5e-4 at Kn = 1) no longer allows a 1e-3 table.
 CELL_RANGE = {
-    "hole_radius_over_pitch": (0.05, 0.4),
-    "gap_over_pitch": (0.03, 0.6),
-    "thickness_over_pitch": (0.03, 3.0),
+    "hole_radius_over_cell_radius": (0.15, 0.76),
+    "gap_over_cell_radius": (0.1, 1.0),
+    "thickness_over_cell_radius": (0.1, 4.0),
     "knudsen": (1.0e-3, 0.1),
 }
 #: R_c/p of the circle of equal area
 CELL_RADIUS_OVER_PITCH = {"hex": math.sqrt(math.sqrt(3.0) / (2.0 * math.pi)),
                           "square": 1.0 / math.sqrt(math.pi)}
-_NODES = 5
+#: H/R_c of the tabulated cells (the hexagonal lattice's exit chamber H = p)
+_EXIT_OVER_CELL = 1.0 / CELL_RADIUS_OVER_PITCH["hex"]
+#: (segments, Chebyshev nodes per segment) of each axis at the start of the refinement
+_START = ((1, 7), (3, 5), (1, 6), (1, 5))
 
 
-def closed_form_scaled(lattice: str, x) -> float:
-    """Ẑ₀ of the module docstring (scaled: μ = 1, g = 1)."""
-    rp, gp, tp, kn = (float(v) for v in x)
-    rc = CELL_RADIUS_OVER_PITCH[lattice] / gp
-    r, t = rp / gp, tp / gp
-    a = (r / rc) ** 2
+def _table_x(x) -> tuple:
+    """Table coordinates (r/(R_c − r), g/R_c, t/R_c, Kn) of the groups of CELL_RANGE."""
+    q, gc, tc, kn = (float(v) for v in x)
+    return (q / (1.0 - q), gc, tc, kn)
+
+
+def _groups(y) -> tuple:
+    lg, gc, tc, kn = (float(v) for v in y)
+    return (lg / (1.0 + lg), gc, tc, kn)
+
+
+def closed_form_scaled(x) -> float:
+    """Ẑ₀ of the module docstring (scaled: μ = 1, g = 1) at the groups x of CELL_RANGE."""
+    q, gc, tc, kn = (float(v) for v in x)
+    r, t = q / gc, tc / gc
+    a = q * q
     film = 3.0 / (2.0 * math.pi) * (4 * a - a * a - 2 * math.log(a) - 3) / (1 + 6 * kn)
     return film + 8.0 * t / (math.pi * r**4 * (1.0 + 4.0 * kn / r)) + 3.0 / r**3
 
 
-def scaled_cell(lattice: str, accuracy: str, x) -> dict:
-    """The Stokes FE of the cell at x = (r/p, g/p, t/p, Kn): the factor over Ẑ₀ and the FE's
+def scaled_cell(accuracy: str, y) -> dict:
+    """The Stokes FE of the cell at table coordinates y: the factor over Ẑ₀ and the FE's
     error estimate."""
     from diagap.fem.film.stokes import scaled_cell_resistance
     from diagap.meshes.flow_cell import FlowCellGeometry
 
-    rp, gp, tp, kn = (float(v) for v in x)
-    p = 1.0 / gp
-    geo = FlowCellGeometry(CELL_RADIUS_OVER_PITCH[lattice] * p, rp * p, tp * p, p)
+    x = _groups(y)
+    q, gc, tc, kn = x
+    rc = 1.0 / gc
+    geo = FlowCellGeometry(rc, q * rc, tc * rc, _EXIT_OVER_CELL * rc)
     res = scaled_cell_resistance(geo, kn, accuracy)
-    return {"resistance_factor": res["resistance"] / closed_form_scaled(lattice, x),
+    return {"resistance_factor": res["resistance"] / closed_form_scaled(x),
             "rel_error": float(res["rel_error"])}
 
 
@@ -104,17 +127,22 @@ def module_hash(path: str) -> str:
 
 
 def cell_axes() -> list:
-    return [Axis(name, True, (math.log(lo), math.log(hi)), _NODES)
-            for name, (lo, hi) in CELL_RANGE.items()]
+    lo = _table_x([v[0] for v in CELL_RANGE.values()])
+    hi = _table_x([v[1] for v in CELL_RANGE.values()])
+    axes = []
+    for name, a, b, (segments, n) in zip(("hole_radius_over_film_width", *list(CELL_RANGE)[1:]),
+                                         lo, hi, _START):
+        breaks = tuple(np.linspace(math.log(a), math.log(b), segments + 1))
+        axes.append(Axis(name, True, breaks, n))
+    return axes
 
 
-def cell_table(lattice: str, accuracy: str = "normal", *, tol: float = 1e-3, mapper=None,
-               validate: int = 8, max_splits: int = 2) -> tuple[TensorTable, dict]:
-    """The scaled cell table of a lattice and accuracy setting (cached on disk).
+def cell_table(accuracy: str = "normal", *, tol: float = 1e-3, mapper=None,
+               validate: int = 8, max_splits: int = 1) -> tuple[TensorTable, dict]:
+    """The scaled cell table of an accuracy setting (cached on disk, built on demand).
 
     Parameters
     ----------
-    lattice : {"hex", "square"}
     accuracy : {"draft", "normal", "fine"}
         The Stokes cell's mesh levels the table reproduces.
     tol : float
@@ -130,22 +158,22 @@ def cell_table(lattice: str, accuracy: str = "normal", *, tol: float = 1e-3, map
     from diagap.fastpath.store import held_table
 
     def build():
-        return build_table(partial(scaled_cell, lattice, accuracy), cell_axes(), tol=tol,
+        return build_table(partial(scaled_cell, accuracy), cell_axes(), tol=tol,
                            mapper=mapper or mapper_for(), validate=validate,
                            max_splits=max_splits, drive=_drives)
 
-    params = {"lattice": lattice, "accuracy": accuracy, "tol": tol, "validate": validate,
-              "max_splits": max_splits,
-              "range": {k: list(v) for k, v in CELL_RANGE.items()}, "nodes": _NODES,
+    params = {"accuracy": accuracy, "tol": tol, "validate": validate, "max_splits": max_splits,
+              "range": {k: list(v) for k, v in CELL_RANGE.items()}, "start": _START,
               "code": module_hash(__file__)}
     return held_table("fastpath-cell", params, build)
 
 
-def cell_coordinates(hole_radius_m: float, hole_pitch_m: float, backplate_thickness_m: float,
-                     gap_m: float, mean_free_path_m: float) -> tuple:
-    """x = (r/p, g/p, t/p, λ/g) of a backplate."""
-    p = float(hole_pitch_m)
-    return (hole_radius_m / p, gap_m / p, backplate_thickness_m / p, mean_free_path_m / gap_m)
+def cell_coordinates(lattice: str, hole_radius_m: float, hole_pitch_m: float,
+                     backplate_thickness_m: float, gap_m: float,
+                     mean_free_path_m: float) -> tuple:
+    """The groups (r/R_c, g/R_c, t/R_c, λ/g) of :data:`CELL_RANGE` of a backplate."""
+    rc = CELL_RADIUS_OVER_PITCH[lattice] * float(hole_pitch_m)
+    return (hole_radius_m / rc, gap_m / rc, backplate_thickness_m / rc, mean_free_path_m / gap_m)
 
 
 def outside(x) -> str | None:
@@ -156,10 +184,10 @@ def outside(x) -> str | None:
     return None
 
 
-def cell_resistance_scaled(table: TensorTable, lattice: str, x) -> tuple[float, float]:
-    """(Ẑ, FE error estimate) from the table at x (scaled: R_cell = μ Ẑ / g³)."""
+def cell_resistance_scaled(table: TensorTable, x) -> tuple[float, float]:
+    """(Ẑ, FE error estimate) from the table at the groups x (scaled: R_cell = μ Ẑ / g³)."""
     names = list(table.names)
-    vals = table(x)
+    vals = table(_table_x(x))
     factor = float(vals[names.index("resistance_factor")])
     err = float(vals[names.index("rel_error")]) if "rel_error" in names else float("nan")
-    return factor * closed_form_scaled(lattice, x), err
+    return factor * closed_form_scaled(x), err

@@ -54,10 +54,11 @@ __all__ = ["damping_outputs", "covered_damping_outputs", "SPECTRUM_HZ"]
 
 #: the frequencies of the damping stage's b(f) spectrum (Hz)
 SPECTRUM_HZ = np.logspace(0, 5, 51)
+_CELL = "cell radius (sqrt(cell area/pi), from backplate.hole_pitch and hole_lattice)"
 _GROUP_FIELDS = {
-    "hole_radius_over_pitch": "backplate.hole_radius / backplate.hole_pitch",
-    "gap_over_pitch": "backplate.gap / backplate.hole_pitch",
-    "thickness_over_pitch": "backplate.thickness / backplate.hole_pitch",
+    "hole_radius_over_cell_radius": f"backplate.hole_radius / {_CELL}",
+    "gap_over_cell_radius": f"backplate.gap / {_CELL}",
+    "thickness_over_cell_radius": f"backplate.thickness / {_CELL}",
     "knudsen": "Knudsen number mean free path / backplate.gap (air temperature, pressure)",
 }
 # below this |σ̂|/λ₁ the spectrum equals b(0) to ~(|σ̂|/λ₁)² < 1e-8
@@ -90,17 +91,17 @@ def _cell(design, air, mapper) -> dict:
 
     b = design.backplate
     g, r, p, t = b.gap_m, b.hole_radius_m, b.hole_pitch_m, b.thickness_m
-    x = cell_coordinates(r, p, t, g, air.mean_free_path_m)
+    x = cell_coordinates(b.hole_lattice, r, p, t, g, air.mean_free_path_m)
     note = outside(x)
     if note is not None:
         name = note.split(" = ", 1)[0]
         raise FastPathUnavailable(note.replace(name, _GROUP_FIELDS[name], 1))
-    table, facts = cell_table(b.hole_lattice, design.analysis.accuracy, mapper=mapper)
+    table, facts = cell_table(design.analysis.accuracy, mapper=mapper)
     if "resistance_factor" in facts.get("uncertified", ()):
         raise FastPathUnavailable(
-            f"backplate.hole_lattice = {b.hole_lattice!r}: the cell table did not reach its "
-            f"tolerance (range {CELL_RANGE})")
-    z_hat, _ = cell_resistance_scaled(table, b.hole_lattice, x)
+            f"analysis.accuracy = {design.analysis.accuracy!r}: the cell table did not reach "
+            f"its tolerance over {CELL_RANGE}")
+    z_hat, _ = cell_resistance_scaled(table, x)
     mu = air.viscosity_pa_s
     area = cf.lattice_cell_area(p, b.hole_lattice)
     rc = math.sqrt(area / math.pi)
