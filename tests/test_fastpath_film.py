@@ -137,7 +137,9 @@ def test_long_hole_adds_slip_poiseuille_resistance(cell_tables):
 @pytest.fixture(scope="module")
 def cell_tables():
     from diagap.fastpath.cell import cell_table
+    from diagap.fastpath.film import prepare_damping_tables
 
+    prepare_damping_tables(ACCURACY)
     return cell_table(ACCURACY)[0]
 
 

@@ -70,7 +70,9 @@ def fast_summary(design, box=None, *, mapper=None, **table_options) -> dict[str,
         A design and bounds of varied values containing ``design``: all numeric outputs of the
         mechanics, electrostatics, coupled, damping and response sections. Without a box: the
         ``mechanics`` outputs of a clamped circular diaphragm from the scaled table, and its
-        ``damping`` outputs where covered (:mod:`diagap.fastpath.film`).
+        ``damping`` outputs where covered (:mod:`diagap.fastpath.film`; their tables are
+        built with an explicit ``mapper`` or
+        :func:`diagap.fastpath.film.prepare_damping_tables`, else only read).
     mapper : callable, optional
         How table points are computed when a table is built
         (:func:`diagap.fastpath.refine.mapper_for`: local processes or a Dask client).

@@ -50,7 +50,8 @@ import numpy as np
 
 from diagap.fastpath import FastPathUnavailable
 
-__all__ = ["damping_outputs", "covered_damping_outputs", "SPECTRUM_HZ"]
+__all__ = ["damping_outputs", "covered_damping_outputs", "prepare_damping_tables",
+           "SPECTRUM_HZ"]
 
 #: the frequencies of the damping stage's b(f) spectrum (Hz)
 SPECTRUM_HZ = np.logspace(0, 5, 51)
@@ -224,9 +225,25 @@ def damping_outputs(design, mechanics_outputs: dict, *, resonance_hz: float | No
     return {f"damping.{k}": float(v) for k, v in out.items()}
 
 
+def _no_building(func, points):
+    raise FastPathUnavailable("the damping tables have not been built "
+                              "(diagap.fastpath.film.prepare_damping_tables)")
+
+
+def prepare_damping_tables(accuracy: str = "normal", mapper=None) -> dict:
+    """Build (or read) the cell and shape tables of an accuracy setting; their build facts."""
+    from diagap.fastpath.cell import cell_table
+    from diagap.fastpath.shape import shape_table
+
+    return {"cell": cell_table(accuracy, mapper=mapper)[1],
+            "shape": shape_table(accuracy, mapper=mapper)[1]}
+
+
 def covered_damping_outputs(design, outputs: dict, mapper=None) -> dict[str, float]:
-    """:func:`damping_outputs`, or nothing where the design is not covered."""
+    """:func:`damping_outputs`, or nothing where the design is not covered. Without a
+    ``mapper`` the tables are only read (from memory or the cache), never built here: a
+    summary call does not turn into a table build of minutes."""
     try:
-        return damping_outputs(design, outputs, mapper=mapper)
+        return damping_outputs(design, outputs, mapper=mapper or _no_building)
     except FastPathUnavailable:
         return {}
