@@ -192,3 +192,16 @@ def test_outside_the_range_is_one_line_naming_the_field(changes, field):
         damping_outputs(design, {"mechanics.static_shape_area_m2": 1e-7})
     msg = str(info.value)
     assert field in msg and "\n" not in msg
+
+
+def test_summary_calls_do_not_build_tables(monkeypatch):
+    """Without a mapper the damping tables are only read: with nothing stored the damping
+    outputs are left out at once instead of a table build."""
+    from diagap.fastpath import store
+    from diagap.fastpath.film import covered_damping_outputs
+    from diagap.meshes import cache
+
+    monkeypatch.setattr(store, "_HELD", {})
+    monkeypatch.setattr(cache, "enabled", lambda: False)
+    design = with_overrides(demo_design(), {"analysis.accuracy": "fine"})
+    assert covered_damping_outputs(design, {"mechanics.static_shape_area_m2": 2e-7}) == {}
