@@ -3,7 +3,9 @@
 References:
 
 - the full damping stage itself (``solve_plate`` + ``damping_stage``, same design and accuracy,
-  run in the test): every numeric output within 1e-3 relative (0.01 dB for levels);
+  run in the test): every numeric output within 1e-3 relative (0.01 dB for levels), those
+  carrying the tabulated Stokes resistance within the cell table's held-out error
+  (:data:`diagap.fastpath.film.CELL_TOL`);
 - the squeeze film of a rigid disk, b = 3πμa⁴/(2g³) (W. E. Langlois, "Isothermal squeeze
   films", Quart. Appl. Math. 20 (1962) 131 [from memory]), and of a uniformly moving disk
   with a uniform hole sink α, J = (π/α)(1 − 2 I₁(√α)/(√α I₀(√α))) — the Bessel solution of
@@ -17,7 +19,10 @@ References:
   (G. Karniadakis, A. Beskok, N. Aluru, Microflows and Nanoflows, Springer 2005, §4.1
   [from memory]): the resistance added per length of a long hole.
 
-The 50-design check at "normal" accuracy is tests/bench/bench_fastpath_film.py.
+The checks that need the perforation-cell table (a build of 7751 Stokes solves, minutes on two
+cores, too long for the suite's fresh cache) are in tests/bench/bench_fastpath_film.py: random
+designs and the demo's fast summary against the full stage, and the slip Hagen–Poiseuille
+check of long holes.
 """
 from __future__ import annotations
 
@@ -29,7 +34,7 @@ from scipy.special import iv
 
 from diagap import demo_design, with_overrides
 from diagap.design import DesignError
-from diagap.fastpath import FastPathUnavailable, fast_summary
+from diagap.fastpath import FastPathUnavailable
 from diagap.fastpath.film import damping_outputs
 from diagap.fastpath.grid import is_level_db
 from diagap.fastpath.radial import RadialFilm, static_shape
@@ -87,11 +92,25 @@ def stage_outputs(design) -> tuple[dict, dict, float]:
     return flat, {"mechanics.static_shape_area_m2": mech.static_shape_area_m2}, f1
 
 
+#: outputs that carry the tabulated cell resistance: held to the cell table's tolerance
+RESISTANCE_BORNE = ("damping_n_s_per_m", "cutoff_frequency_hz", "decay_length_m",
+                    "resonance_to_cutoff_ratio", "resistance_per_hole_pa_s_per_m3",
+                    "hole_resistance_pa_s_per_m3", "mechanical_noise_dba_spl",
+                    "force_noise_n_per_rthz")
+
+
 def errors(fast: dict, full: dict) -> dict:
+    """Error of each output in units of its allowed error (1: at the limit): 1e-3 relative
+    (0.01 dB) for closed forms and the film, the cell table's CELL_TOL where the Stokes
+    resistance enters."""
+    from diagap.fastpath.film import CELL_TOL
+
     out = {}
     for k, v in fast.items():
         ref = full[k]
-        out[k] = abs(v - ref) / (0.01 / TOL) if is_level_db(k) else abs(v - ref) / abs(ref)
+        e = abs(v - ref) / (0.01 / TOL) if is_level_db(k) else abs(v - ref) / abs(ref)
+        tol = CELL_TOL if k.rsplit(".", 1)[-1] in RESISTANCE_BORNE else TOL
+        out[k] = e / tol
     return out
 
 
@@ -122,63 +141,33 @@ def test_static_shape_closed_forms():
         np.testing.assert_allclose(static_shape(u, tau), w(u) / w(0.0), rtol=1e-9, atol=0)
 
 
-def test_long_hole_adds_slip_poiseuille_resistance(cell_tables):
-    """Lengthening a long hole by Δt adds 8μΔt/(πr⁴(1 + 4λ/r)) (slip Hagen–Poiseuille)."""
-    from diagap.fastpath.cell import cell_resistance_scaled
-
-    q, gc, kn = 0.2, 0.5, 0.02  # r/R_c, g/R_c, λ/g
-    lo, hi = (cell_resistance_scaled(cell_tables, (q, gc, tc, kn))[0] for tc in (3.0, 4.0))
-    r, dt = q / gc, 1.0 / gc  # in gaps
-    ref = 8.0 * dt / (math.pi * r**4 * (1.0 + 4.0 * kn / r))
-    assert hi - lo == pytest.approx(ref, rel=1e-2, abs=0)
-
-
 # ------------------------------------------------------------------- against the full stage
-@pytest.fixture(scope="module")
-def cell_tables():
-    from diagap.fastpath.cell import cell_table
-    from diagap.fastpath.film import prepare_damping_tables
+def test_radial_film_matches_the_full_stage_without_holes():
+    """The radial film on the closed-form shape against the stage's 2-D film FE on the plate
+    FE's shape (no tables): damping, gas spring and cut-off within 1e-3. The plate FE's own
+    shape error (4e-4 at "draft") is inside; :mod:`diagap.fastpath.shape` removes it."""
+    from diagap.fastpath.radial import RadialFilm
+    from diagap.fem.air import air_properties
+    from diagap.fem.film.perforation import film_viscosity
 
-    prepare_damping_tables(ACCURACY)
-    return cell_table(ACCURACY)[0]
-
-
-def test_random_designs_match_the_full_damping_stage(cell_tables):
-    rng = np.random.default_rng(7)
-    worst: dict = {}
-    for _ in range(10):
-        design = random_design(rng)
-        full, mech, f1 = stage_outputs(design)
-        fast = damping_outputs(design, mech, resonance_hz=f1)
-        assert "damping.damping_n_s_per_m" in fast and "damping.hole_resistance_pa_s_per_m3" in fast
-        for k, e in errors(fast, full).items():
-            worst[k] = max(worst.get(k, 0.0), e)
-    bad = {k: e for k, e in worst.items() if e > TOL}
-    assert not bad, bad
-
-
-def test_fast_summary_adds_damping_of_the_demo(cell_tables):
-    design = with_overrides(demo_design(), {"analysis.accuracy": ACCURACY})
-    out = fast_summary(design)
-    full, _, _ = stage_outputs(design)
-    damping = {k: v for k, v in out.items() if k.startswith("damping.")}
-    assert "mechanics.center_compliance_m_per_pa" in out
-    # with a bias the resonance is the coupled one, not known here: left out
-    assert "damping.squeeze_number_at_resonance" not in damping
-    bad = {k: e for k, e in errors(damping, full).items() if e > TOL}
-    assert len(damping) >= 15 and not bad, bad
-
-
-def test_no_holes_matches_the_full_stage():
     design = with_overrides(demo_design(), {"analysis.accuracy": ACCURACY,
                                             "backplate.hole_lattice": "none",
                                             "backplate.hole_radius": None,
                                             "backplate.hole_pitch": None})
-    full, mech, f1 = stage_outputs(design)
-    fast = damping_outputs(design, mech, resonance_hz=f1)
-    assert "damping.decay_length_m" not in fast
-    bad = {k: e for k, e in errors(fast, full).items() if e > TOL}
-    assert not bad, bad
+    full, _, _ = stage_outputs(design)
+    d, b = design.diaphragm, design.backplate
+    air = air_properties(*design.air_conditions)
+    mu = film_viscosity(air.viscosity_pa_s, air.mean_free_path_m, b.gap_m)
+    tau = d.residual_stress_pa * d.thickness_m * d.size_m**2 * 12 * (1 - d.poisson_ratio**2) \
+        / (d.youngs_modulus_pa * d.thickness_m**3)
+    film = RadialFilm(0.0, b.electrode_size_m / d.size_m, tau)
+    length, g, p0 = b.electrode_size_m, b.gap_m, air.static_pressure_pa
+    damping = 12 * mu * length**4 / b.gap_m**3 * film.response(0j).real
+    assert damping == pytest.approx(full["damping.damping_n_s_per_m"], rel=TOL, abs=0)
+    spring = p0 * length**2 * film.shape_square_integral() / g
+    assert spring == pytest.approx(full["damping.gas_spring_stiffness_n_per_m"], rel=TOL, abs=0)
+    cutoff = film.cutoff() * p0 * g**2 / (24 * math.pi * mu * length**2)
+    assert cutoff == pytest.approx(full["damping.cutoff_frequency_hz"], rel=TOL, abs=0)
 
 
 @pytest.mark.parametrize("changes, field", [
