@@ -206,10 +206,17 @@ def _cmd_run(args) -> int:
 
     check_run_size(design, max_memory)
     check_output_folder(Path(args.out))
-    result = run_design(design, max_memory_b=max_memory)
+    drawn: dict = {}  # report plots drawn while the run waits for its second process
+
+    def draw_meanwhile(partial, busy):
+        from diagap.report.outputs import draw_early
+
+        draw_early(partial, drawn, busy)
+    result = run_design(design, max_memory_b=max_memory,
+                        on_wait=None if args.no_report else draw_meanwhile)
     summary = result.summary()
     try:
-        write_outputs(result, Path(args.out), report=not args.no_report)
+        write_outputs(result, Path(args.out), report=not args.no_report, drawn=drawn)
     except OSError as exc:
         raise output_error(Path(args.out), exc) from None
     if args.json:

@@ -143,6 +143,15 @@ class ForkedCall:
             return got[1]
         return self._inline()
 
+    def busy(self) -> bool:
+        """True while a forked child is still working (its result not yet sent)."""
+        if self._conn is None:
+            return False
+        try:
+            return not self._conn.poll(0)
+        except (EOFError, OSError):
+            return False
+
     def cancel(self) -> None:
         """Stop the child (if any) without waiting for its result."""
         self._close()

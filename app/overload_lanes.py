@@ -79,9 +79,12 @@ class LargeDeflectionLanes:
         self._claim = _Claim()
         self._call = ForkedCall(_lane, design, problem, es, self._claim, fork=parallel)
 
-    def section(self, resp: dict | None, with_bias: bool):
+    def section(self, resp: dict | None, with_bias: bool, on_wait=None):
         """The ``large_deflection`` section, given the response section's summary (None if not
         computed) and whether the bias point is stable (the biased part is kept).
+
+        ``on_wait(busy)``: called once if this process would otherwise wait for the child, with
+        ``busy()`` telling whether the child is still working (for other work meanwhile).
 
         Raises
         ------
@@ -97,6 +100,8 @@ class LargeDeflectionLanes:
         except BaseException:
             self.cancel()
             raise
+        if on_wait is not None and self._call.busy():
+            on_wait(self._call.busy)
         biased, theirs = self._call.result()
         if plain is None:  # the child took it (or took it and failed: then it is computed here)
             plain = theirs or plain_part(self.design, self.problem, audit)

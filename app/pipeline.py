@@ -165,7 +165,7 @@ def _skipped(design: Design, collapsed: bool) -> dict[str, str]:
 
 
 def run_design(design: Design, max_memory_b: float | None = None,
-               parallel: bool | None = None) -> RunResult:
+               parallel: bool | None = None, on_wait=None) -> RunResult:
     """Run every stage of the analysis for ``design``.
 
     Parameters
@@ -201,7 +201,11 @@ def run_design(design: Design, max_memory_b: float | None = None,
     False keeps it in this process, None (default) forks where :func:`diagap.forked.can_fork`
     allows (not inside a sweep's or a study's worker processes). The results are the same to
     the last bit either way; ``timings_s["large_deflection"]`` is then the time this process
-    spent on it after the response (its share and the wait for the child).
+    spent on it after the response (its share and the wait for the child). ``on_wait(result,
+    busy)``: called at most once, when this process would otherwise wait for the child, with
+    the result so far (mechanics through response; the response section is final only after
+    the large deflection) and ``busy()`` telling whether the child is still working: e.g. to
+    draw plots meanwhile (:func:`diagap.report.outputs.draw_early`).
     """
     from diagap.fem.plate.solver import solve_plate
 
@@ -231,7 +235,7 @@ def run_design(design: Design, max_memory_b: float | None = None,
     # the large deflection needs only the electrostatic table: on the second core meanwhile
     lane = LargeDeflectionLanes(design, problem, es, parallel)
     try:
-        _middle_stages(result, design, problem, es, mech, lane)
+        _middle_stages(result, design, problem, es, mech, lane, on_wait)
     except BaseException:
         lane.cancel()
         raise
@@ -245,6 +249,14 @@ def run_design(design: Design, max_memory_b: float | None = None,
     return result
 
 
+def _timed_wait(result: RunResult, on_wait, busy) -> None:
+    t0 = time.perf_counter()
+    try:
+        on_wait(result, busy)
+    finally:
+        result.timings_s["while_waiting"] = time.perf_counter() - t0
+
+
 def _share_coupling_plates(design: Design, problem) -> None:
     """Assemble the plate systems of the coupling meshes now, before the second process starts:
     the coupled stage (here) and the biased large deflection (there) both use them, and the
@@ -255,7 +267,8 @@ def _share_coupling_plates(design: Design, problem) -> None:
     plate_levels(problem, COUPLING_MESHES.get(acc, acc), design.backplate.electrode_size_m)
 
 
-def _middle_stages(result: RunResult, design: Design, problem, es, mech, lane) -> None:
+def _middle_stages(result: RunResult, design: Design, problem, es, mech, lane,
+                   on_wait=None) -> None:
     """Coupled, damping and response here, then the large deflection from ``lane``."""
     from diagap.fem.plate.vonkarman import NewtonError
 
@@ -281,6 +294,8 @@ def _middle_stages(result: RunResult, design: Design, problem, es, mech, lane) -
     resp = result.sections["response"].to_summary() if "response" in result.sections else None
     try:
         _stage(result, "large_deflection", lane.section, resp,
-               not (result.collapsed or design.electrical is None))
+               not (result.collapsed or design.electrical is None),
+               None if on_wait is None else (lambda busy: _timed_wait(result, on_wait, busy)))
+        result.timings_s["large_deflection"] -= result.timings_s.get("while_waiting", 0.0)
     except NewtonError as exc:  # the section is then absent, the rest of the run stands
         log.warning("large deflection not computed: %s", exc)

@@ -46,7 +46,7 @@ def json_ready(obj):
     return obj
 
 
-def _producers(result, report: bool = True):
+def _producers(result, report: bool = True, drawn: dict | None = None):
     """(relative file name, function(path)) pairs for every output this run can produce
     (``report=False``: summary.json and response.csv only)."""
     from diagap.report.outputs import report_files
@@ -54,7 +54,7 @@ def _producers(result, report: bool = True):
     summary = json_ready(result.summary())
     yield "summary.json", lambda p: p.write_text(json.dumps(summary, indent=2) + "\n",
                                                  encoding="utf-8")
-    yield from report_files(result, report=report)
+    yield from report_files(result, report=report, drawn=drawn)
 
 
 def _tmp_prefix(out: Path) -> str:
@@ -85,7 +85,8 @@ def _remove_earlier(out: Path, earlier: set[str], names: list[str]) -> None:
                 pass
 
 
-def write_outputs(result, out: Path, report: bool = True) -> list[Path]:
+def write_outputs(result, out: Path, report: bool = True, drawn: dict | None = None
+                  ) -> list[Path]:
     """Write every output of ``result`` into ``out`` (created if needed).
 
     Parameters
@@ -96,6 +97,9 @@ def write_outputs(result, out: Path, report: bool = True) -> list[Path]:
         The output folder: summary.json, response.csv, model.cir, report.html, plots/, VTK files.
     report : bool
         False writes summary.json and response.csv only (no plots, HTML, SPICE or VTK).
+    drawn : dict, optional
+        Plots already drawn while the run was waiting for its second process
+        (:func:`diagap.report.outputs.draw_early`).
 
     Returns
     -------
@@ -115,7 +119,7 @@ def write_outputs(result, out: Path, report: bool = True) -> list[Path]:
     tmp = out.parent / f"{_tmp_prefix(out)}{os.getpid()}-{secrets.token_hex(6)}"
     try:
         tmp.mkdir(mode=0o700)
-        names = produce_into(tmp, _producers(result, report))
+        names = produce_into(tmp, _producers(result, report, drawn))
         earlier = earlier_outputs(out)
         written = move_into(tmp, out, names)
         _remove_earlier(out, earlier, names)

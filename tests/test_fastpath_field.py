@@ -66,6 +66,7 @@ def draft_base():
     return demo_design().with_accuracy("draft")
 
 
+@pytest.mark.tables
 def test_random_designs_match_the_stage(draft_base):
     """Every output within 1e-3 of the full stage at the same ("draft") accuracy."""
     rng = np.random.default_rng(20261202)
@@ -109,6 +110,7 @@ def test_static_shape_tends_to_the_buckling_mode():
     assert np.max(np.abs(static_shape(rho, -0.99 * k * k) - mode)) > 1e-4  # not yet there
 
 
+@pytest.mark.tables
 def test_solid_thin_pair_follows_kirchhoffs_disk_formula(draft_base):
     """No holes, electrode = diaphragm, thin electrode: C(0) is Kirchhoff's two-disk formula
     (Kirchhoff 1877 [from memory]) within its O(d/R) accuracy and the electrode's thickness."""
@@ -130,6 +132,7 @@ def test_solid_thin_pair_follows_kirchhoffs_disk_formula(draft_base):
         area + kirchhoff, rel=1e-3, abs=0)
 
 
+@pytest.mark.tables
 @pytest.mark.parametrize("lattice,kappa", [("hex", math.sqrt(3) / 2), ("square", 1.0)])
 def test_small_gap_limit_is_the_solid_area(lattice, kappa):
     """As s = g/p → 0 the perforation factor tends to 1 − φ_open, φ_open = πa²/(κp²) (common
@@ -165,10 +168,11 @@ def test_outside_the_tables_is_refused_in_one_line(draft_base):
         electrostatics_outputs(tiny)
 
 
+@pytest.mark.tables
 def test_fast_summary_adds_the_section(draft_base):
-    from diagap.fastpath import fast_summary
+    from diagap.fastpath import fast_summary, mapper_for
 
-    out = fast_summary(draft_base)
+    out = fast_summary(draft_base, mapper=mapper_for())
     assert "mechanics.center_compliance_m_per_pa" in out
     assert "electrostatics.rest_capacitance_f" in out
     layered = with_overrides(draft_base, {"layers.backplate_thickness": "0.2 um",
@@ -178,3 +182,16 @@ def test_fast_summary_adds_the_section(draft_base):
     out = fast_summary(layered)  # mechanics still answered, the section left out
     assert "mechanics.center_compliance_m_per_pa" in out
     assert not any(k.startswith("electrostatics.") for k in out)
+
+
+def test_summary_calls_only_read_the_electrostatics_tables(draft_base, tmp_path, monkeypatch):
+    """Without a mapper a summary never builds the cell or rim tables (minutes): with an empty
+    cache the section is left out and the mechanics still answered."""
+    from diagap.fastpath import fast_summary, store
+
+    monkeypatch.setenv("DIAGAP_CACHE_DIR", str(tmp_path))
+    monkeypatch.setattr(store, "_HELD", {})
+    out = fast_summary(draft_base)
+    assert "mechanics.center_compliance_m_per_pa" in out
+    assert not any(k.startswith("electrostatics.") for k in out)
+    assert not any(k.startswith("damping.") for k in out)

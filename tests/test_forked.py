@@ -129,3 +129,29 @@ def test_plots_drawn_on_two_processes_are_the_bytes_drawn_here():
     alone = {p.name: b for p, b in RenderedPlots(plots, parallel=False).items()}
     assert list(got) == [p.name for p in plots]
     assert got == alone
+
+
+@needs_fork
+def test_plots_drawn_while_waiting_are_the_bytes_of_the_finished_run(monkeypatch):
+    """The early plots (sections no later stage changes) drawn from the run in progress equal
+    those drawn from the finished run, and the report takes them."""
+    from diagap.design import demo_design
+    from diagap.pipeline import run_design
+    from diagap.report.fields import cell_field
+    from diagap.report.outputs import EARLY_SECTIONS, draw_early
+    from diagap.report.plots import RenderedPlots, report_plots
+
+    monkeypatch.setattr(ForkedCall, "busy", lambda self: True)  # always wait: draw them all
+    drawn, calls = {}, []
+
+    def meanwhile(partial, busy):
+        calls.append(sorted(partial.sections))
+        draw_early(partial, drawn, busy)
+    result = run_design(demo_design().with_accuracy("draft"), parallel=True, on_wait=meanwhile)
+    assert calls and "large_deflection" not in calls[0]
+    plots = report_plots(result, cell_field(result.design))
+    early = [p for p in plots if p.section in EARLY_SECTIONS]
+    assert {p.name for p in early} == set(drawn) and len(drawn) >= 5
+    final = dict((p.name, b) for p, b in RenderedPlots(early, parallel=False).items())
+    assert drawn == final
+    assert "while_waiting" in result.timings_s

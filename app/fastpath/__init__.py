@@ -29,7 +29,7 @@ CAUTION: bias voltages can be hazardous; results are design estimates, as for th
 from __future__ import annotations
 
 __all__ = ["FastPathUnavailable", "fast_summary", "StudyBox", "study_table", "plate_tables",
-           "mapper_for", "electrostatics_outputs"]
+           "mapper_for", "electrostatics_outputs", "prepare_tables", "read_only"]
 
 
 class FastPathUnavailable(ValueError):
@@ -52,15 +52,36 @@ def _plate_outputs(design, mapper=None) -> dict:
     return plate_outputs(design.diaphragm, design.analysis.accuracy, mapper)
 
 
+def read_only(func, points):
+    """A table mapper that computes nothing: a missing table means the outputs are left out."""
+    raise FastPathUnavailable("the table has not been built (diagap.fastpath.prepare_tables)")
+
+
 def _field_outputs(design, mapper=None) -> dict:
-    """The ``electrostatics`` outputs where the scaled cell and rim tables cover the design,
-    else none."""
+    """The ``electrostatics`` outputs where the scaled cell and rim tables cover the design (and
+    exist, without a ``mapper``), else none."""
     from diagap.fastpath.field import electrostatics_outputs
 
     try:
-        return electrostatics_outputs(design, mapper)
+        return electrostatics_outputs(design, mapper or read_only)
     except FastPathUnavailable:
         return {}
+
+
+def prepare_tables(accuracy: str = "normal", mapper=None) -> dict:
+    """Build (or read) the scaled cell, rim and film tables of an accuracy setting (minutes on
+    two cores, once; cached on disk); their build facts by table."""
+    from diagap.fastpath.cells import cell_table
+    from diagap.fastpath.film import prepare_damping_tables
+    from diagap.fastpath.fringe import rim_table
+    from diagap.fastpath.refine import mapper_for
+
+    mapper = mapper or mapper_for()
+    facts = {f"cell_{lattice}": cell_table(lattice, accuracy, mapper=mapper)[1]
+             for lattice in ("hex", "square")}
+    facts["rim"] = rim_table(accuracy, mapper=mapper)[1]
+    facts.update({f"film_{k}": v for k, v in prepare_damping_tables(accuracy, mapper).items()})
+    return facts
 
 
 def fast_summary(design, box=None, *, mapper=None, **table_options) -> dict[str, float]:
@@ -73,9 +94,11 @@ def fast_summary(design, box=None, *, mapper=None, **table_options) -> dict[str,
     box : StudyBox, optional
         A design and bounds of varied values containing ``design``: all numeric outputs of the
         mechanics, electrostatics, coupled, damping and response sections. Without a box: the
-        ``mechanics`` outputs of the diaphragm from the scaled tables, and its
-        ``electrostatics`` outputs where the scaled cell and rim tables cover the design
-        (:mod:`diagap.fastpath.field`; left out otherwise).
+        ``mechanics`` outputs of the diaphragm from the scaled tables (built on first use), and
+        its ``electrostatics`` and ``damping`` outputs where the scaled cell, rim and film
+        tables cover the design (:mod:`diagap.fastpath.field`, :mod:`diagap.fastpath.film`;
+        left out otherwise). Those tables take minutes to build: they are built with an
+        explicit ``mapper`` (or :func:`prepare_tables`), else only read.
     mapper : callable, optional
         How table points are computed when a table is built
         (:func:`diagap.fastpath.refine.mapper_for`: local processes or a Dask client).
@@ -96,7 +119,10 @@ def fast_summary(design, box=None, *, mapper=None, **table_options) -> dict[str,
     """
     if box is None:
         out = _plate_outputs(design, mapper)
+        from diagap.fastpath.film import covered_damping_outputs
+
         out.update(_field_outputs(design, mapper))
+        out.update(covered_damping_outputs(design, out, mapper))
         return out
     from diagap.fastpath.study import box_coordinates, study_table
 

@@ -87,9 +87,33 @@ def _field_files(result, cell):
         yield "cell_potential.vtu", lambda p: write_cell_vtu(cell, p)
 
 
-def report_files(result, report: bool = True):
+#: sections that no later stage changes: their plots can be drawn before the run ends
+EARLY_SECTIONS = ("mechanics", "electrostatics", "coupled", "damping")
+
+
+def draw_early(result, drawn: dict, busy=lambda: True) -> None:
+    """Draw, into ``drawn`` (plot name → PNG bytes), the plots of :data:`EARLY_SECTIONS` of a
+    run still in progress, one at a time while ``busy()`` (e.g. while the run's second process
+    computes the large deflection: :func:`diagap.run_design`'s ``on_wait``). The report then
+    uses these bytes: the plots are drawn from the same section objects as at the end, so they
+    are the same bytes."""
+    from diagap.report.fields import cell_field
+    from diagap.report.plots import png_bytes, print_style, report_plots
+
+    cell = cell_field(result.design) if "electrostatics" in result.sections else None
+    with print_style():
+        for plot in report_plots(result, cell):
+            if not busy():
+                return
+            if plot.section in EARLY_SECTIONS and plot.name not in drawn:
+                drawn[plot.name] = png_bytes(plot.draw())
+
+
+def report_files(result, report: bool = True, drawn: dict | None = None):
     """Yield (relative file name, function(path)) for every file this run can produce
-    (``report=False``: response.csv only, no plots, page, VTK or SPICE files)."""
+    (``report=False``: response.csv only, no plots, page, VTK or SPICE files); ``drawn``: PNG
+    bytes of plots already drawn (:func:`draw_early`; only those of :data:`EARLY_SECTIONS` are
+    taken)."""
     if not report:
         csv = [f for f in _lumped_files(result) if f[0] == "response.csv"]
         yield from csv
@@ -101,7 +125,9 @@ def report_files(result, report: bool = True):
     from diagap.report.plots import RenderedPlots, report_plots
 
     cell = cell_field(result.design) if "electrostatics" in result.sections else None
-    rendered = RenderedPlots(report_plots(result, cell))
+    plots = report_plots(result, cell)
+    early = {p.name for p in plots if p.section in EARLY_SECTIONS}
+    rendered = RenderedPlots(plots, drawn={k: v for k, v in (drawn or {}).items() if k in early})
     rendered.start()  # a second process draws while the other files are written here
     try:
         others = list(_lumped_files(result)) + list(_field_files(result, cell))

@@ -131,15 +131,21 @@ class RenderedPlots:
     busy to the end whatever each plot costs). :meth:`start` lets the child begin while this
     process writes other files; a plot the child did not deliver is drawn here."""
 
-    def __init__(self, plots: list[Plot], parallel: bool | None = None):
+    def __init__(self, plots: list[Plot], parallel: bool | None = None,
+                 drawn: dict[str, bytes] | None = None):
         self.plots = list(plots)
         self.parallel = PARALLEL if parallel is None else parallel
-        self._png: dict[str, bytes] = {}
+        names = {p.name for p in self.plots}
+        self._png: dict[str, bytes] = {k: v for k, v in (drawn or {}).items() if k in names}
         self._call = self._counter = None
+        self._queue: list[Plot] = []
+
+    def _todo(self) -> list[Plot]:
+        return [p for p in self.plots if p.name not in self._png]
 
     def start(self) -> None:
         """Start the forked child drawing (no-op when not parallel or already started)."""
-        if not self.parallel or self._call is not None or len(self.plots) < 2:
+        if not self.parallel or self._call is not None or len(self._todo()) < 2:
             return
         import multiprocessing as mp
 
@@ -148,7 +154,8 @@ class RenderedPlots:
         if not can_fork():
             return
         self._counter = mp.get_context("fork").Value("i", 0)
-        self._call = ForkedCall(_take_child, self.plots, self._counter)
+        self._queue = self._todo()
+        self._call = ForkedCall(_take_child, self._queue, self._counter)
         if not self._call.forked:
             self._call = self._counter = None
 
@@ -156,7 +163,7 @@ class RenderedPlots:
         self.start()
         if self._call is not None:
             try:
-                self._png.update(_take(self.plots, self._counter))
+                self._png.update(_take(self._queue, self._counter))
             except BaseException:
                 self._call.cancel()
                 raise
