@@ -135,14 +135,29 @@ def _scales(model, paths) -> np.ndarray:
     return np.array(out)
 
 
+#: the fit's compressive stress stays above this fraction of the buckling stress (the design
+#: schema refuses a diaphragm at or beyond it)
+BUCKLING_MARGIN = 0.95
+
+
+def _buckling_stress_pa(model) -> float:
+    """Critical compressive stress of the nominal diaphragm (Pa, positive)."""
+    from diagap.lumped.buckling import critical_tension_n_per_m
+
+    d = model.design.diaphragm
+    return critical_tension_n_per_m(d.shape, d.edge, d.size_m, d.bending_stiffness_n_m,
+                                    d.poisson_ratio) / d.thickness_m
+
+
 def _bounds(model, paths, scales):
     nom = model.nominal()
     lo, hi = [], []
     for p, s in zip(paths, scales):
         if p == "backplate.gap":
             a, b = model.gap_bounds()
-        elif p == "diaphragm.residual_stress":
-            a, b = nom[p] - 5 * s, nom[p] + 5 * s
+        elif p == "diaphragm.residual_stress":  # compression stays short of buckling
+            a, b = max(nom[p] - 5 * s, -BUCKLING_MARGIN * _buckling_stress_pa(model)), \
+                nom[p] + 5 * s
         elif p == "electrical.parasitic_capacitance":
             a, b = 0.0, nom[p] + 10 * s
         else:
