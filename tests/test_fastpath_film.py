@@ -194,3 +194,19 @@ def test_summary_calls_do_not_build_tables(monkeypatch):
     monkeypatch.setattr(cache, "enabled", lambda: False)
     design = with_overrides(demo_design(), {"analysis.accuracy": "fine"})
     assert covered_damping_outputs(design, {"mechanics.static_shape_area_m2": 2e-7}) == {}
+
+
+def test_shape_table_axis_spans_the_plate_model_range():
+    """The τ axis of the static-shape correction covers −0.9 τ_b ≤ τ ≤ 1e4 (τ_b = j₁,₁², the
+    clamped disk's buckling ratio, Timoshenko & Gere 1961 §9.2 [from memory]) with a segment
+    end at τ = 0."""
+    import math
+
+    from diagap.fastpath.shape import tau_axis
+
+    axis = tau_axis("draft")
+    tb = 14.681970642123893
+    ends = [math.exp(b) - tb for b in axis.breaks]
+    assert ends[0] == pytest.approx(-0.9 * tb, rel=1e-12, abs=0)
+    assert ends[-1] == pytest.approx(1e4, rel=1e-12, abs=0)
+    assert min(abs(e) for e in ends) < 1e-9 * tb

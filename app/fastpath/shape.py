@@ -10,20 +10,21 @@ rather than the exact shape, the ratios
 
     q_k(τ) = φ_FE(u_k; τ) / φ(u_k; τ),   u_k ∈ :data:`SHAPE_POINTS`,
 
-are tabulated on the plate table's axis ln(τ + τ_b) (one plate solve of the unit disk per
+are tabulated on the axis ln(τ + τ_b) (:func:`tau_axis`) (one plate solve of the unit disk per
 node) and the film uses φ(u)·(1 + r(u)), r the monotone cubic (PCHIP) through
 (0, 0), (u_k, q_k − 1) held constant beyond the last point. The correction is itself ~1e-3,
 so its interpolation error enters the damping at the 1e-5 level.
 """
 from __future__ import annotations
 
+import math
 from functools import partial
 
 import numpy as np
 
-from diagap.fastpath.grid import TensorTable
+from diagap.fastpath.grid import Axis, TensorTable
 
-__all__ = ["SHAPE_POINTS", "shape_table", "shape_correction"]
+__all__ = ["SHAPE_POINTS", "shape_table", "shape_correction", "tau_axis"]
 
 #: radii u = r/a where the FE shape is sampled
 SHAPE_POINTS = (0.2, 0.4, 0.55, 0.7, 0.8, 0.87, 0.92, 0.96, 0.985)
@@ -45,16 +46,29 @@ def scaled_shape(accuracy: str, x) -> dict:
     return {f"shape_ratio_{i}": float(v) for i, v in enumerate(fe / static_shape(u, tau))}
 
 
+def tau_axis(accuracy: str, n: int = 5) -> Axis:
+    """ln(τ + τ_b) over the plate model's range of the clamped disk, −0.9 τ_b ≤ τ ≤
+    ``MEMBRANE_TAU``, with segment ends at τ = 0 and where the solver's edge mesh starts to
+    follow the tension layer."""
+    from diagap.fastpath.plate import TAU_BUCKLING, _layer_tau
+    from diagap.fastpath.plate_range import COMPRESSION
+    from diagap.fem.plate.solver import MEMBRANE_TAU
+
+    cuts = sorted({-COMPRESSION * TAU_BUCKLING, 0.0,
+                   min(_layer_tau("circle", accuracy), 0.5 * MEMBRANE_TAU), MEMBRANE_TAU})
+    return Axis("tension_ratio_plus_buckling", True,
+                tuple(math.log(t + TAU_BUCKLING) for t in cuts), n)
+
+
 def shape_table(accuracy: str = "normal", *, tol: float = 1e-4, mapper=None
                 ) -> tuple[TensorTable, dict]:
-    """The table of q_k over the plate table's τ axis (cached; built on demand)."""
+    """The table of q_k over :func:`tau_axis` (cached; built on demand)."""
     from diagap.fastpath.flowcell import module_hash
-    from diagap.fastpath.plate import plate_axis
     from diagap.fastpath.refine import build_table, mapper_for
     from diagap.fastpath.store import held_table
 
     def build():
-        return build_table(partial(scaled_shape, accuracy), [plate_axis(accuracy)], tol=tol,
+        return build_table(partial(scaled_shape, accuracy), [tau_axis(accuracy)], tol=tol,
                            mapper=mapper or mapper_for(), validate=4, max_splits=2)
 
     return held_table("fastpath-shape", {"accuracy": accuracy, "tol": tol,
