@@ -59,7 +59,7 @@ import math
 
 import numpy as np
 
-__all__ = ["electrostatics_outputs", "static_shape", "density_from_table", "OUTPUTS"]
+__all__ = ["electrostatics_outputs", "field_objects", "static_shape", "density_from_table", "OUTPUTS"]
 
 #: the section's outputs this module gives (flat summary paths without the section prefix)
 OUTPUTS = ("rest_capacitance_f", "parallel_plate_capacitance_f", "capacitance_slope_f_per_m",
@@ -201,6 +201,17 @@ def electrostatics_outputs(design, mapper=None) -> dict[str, float]:
     FastPathUnavailable
         The design lies outside the tables (module docstring).
     """
+    _, dev, skip = field_objects(design, mapper)
+    summary = dev.to_summary()
+    return {f"electrostatics.{n}": float(summary[n]) for n in OUTPUTS if n not in skip}
+
+
+def field_objects(design, mapper=None):
+    """(density, device, skipped outputs) of ``design`` from the scaled tables: the stage's
+    c(g) fit (:func:`density_from_table`, the coupled solve's load), its C(x) on the static
+    shape (:class:`~diagap.fem.field.device.DeviceCapacitance`, called with centre
+    displacements in m) and the outputs an uncertified table leaves out. Raises :class:`~diagap.fastpath.FastPathUnavailable` as
+    :func:`electrostatics_outputs`."""
     from diagap.fem.field.device import device_capacitance
 
     from diagap.fastpath.cells import cell_table
@@ -229,5 +240,4 @@ def electrostatics_outputs(design, mapper=None) -> dict[str, float]:
     phi_rim = float(np.mean(static_shape(np.hypot(xr, yr) / a, tau)))
     dev = device_capacitance(w, phi, density, g, rim=rim,
                              x_values_m=np.linspace(-g / 3, g / 3, 41), phi_rim=phi_rim)
-    summary = dev.to_summary()
-    return {f"electrostatics.{n}": float(summary[n]) for n in OUTPUTS if n not in skip}
+    return density, dev, skip
