@@ -80,11 +80,10 @@ def check_keys(keys: Iterable[str], what: str = "summary path") -> tuple[str, ..
 def _partial_run(design, sections: set):
     """The pipeline's stages up to the last one that ``sections`` need (a RunResult)."""
     from diagap.budget import check_run_size
-    from diagap.extract import plate_problem, response_inputs
+    from diagap.extract import plate_problem
     from diagap.fem.plate.solver import solve_plate
-    from diagap.pipeline import RunResult, _skipped, _stage
-    from diagap.stages import (coupled_stage, damping_stage, electrostatics_stage,
-                               lumped_model, response_stage)
+    from diagap.pipeline import RunResult, _skipped, _stage, response_step
+    from diagap.stages import coupled_stage, damping_stage, electrostatics_stage
 
     last = max(_ORDER.index(s) for s in sections)
     check_run_size(design, None)
@@ -107,11 +106,7 @@ def _partial_run(design, sections: set):
     damp = _stage(result, "damping", damping_stage, design, mech, f_res)
     result.skipped = _skipped(design, result.collapsed)
     if last >= 4 and "response" not in result.skipped:
-        model = lumped_model(design, mech, es, cp, damp)
-        dist = response_inputs(design, es.objects["density"], es.objects["rim"],
-                               damp.objects["air"])
-        _stage(result, "response", response_stage, model, result.summary()["uncertainty"],
-               dist, acc)
+        response_step(result, design, mech, es, cp, damp)
     return result
 
 

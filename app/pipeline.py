@@ -257,6 +257,23 @@ def _timed_wait(result: RunResult, on_wait, busy) -> None:
         result.timings_s["while_waiting"] = time.perf_counter() - t0
 
 
+def response_step(result: RunResult, design: Design, mech, es, cp, damp) -> None:
+    """The response stage of ``result`` from the sections before it: the lumped model, the
+    distributed reference (none for a compliant backplate: the reference has a rigid one), the
+    readout and the response scope. Every caller that stops after the response (the full run,
+    :func:`diagap.evaluate.exact_summary`, the study tables) runs this one step."""
+    from diagap.stages import lumped_model, response_stage
+
+    model = lumped_model(design, mech, es, cp, damp)
+    dist = response_inputs(design, es.objects["density"], es.objects["rim"],
+                           damp.objects["air"])
+    if design.backplate.plate is not None:  # the distributed reference has a rigid backplate
+        dist = None
+        result.skipped["response.distributed"] = SKIP_REASONS["compliant_backplate"]
+    _stage(result, "response", response_stage, model, result.summary()["uncertainty"],
+           dist, design.analysis.accuracy, readout=design.readout, scope=response_scope(design))
+
+
 def _share_coupling_plates(design: Design, problem) -> None:
     """Assemble the plate systems of the coupling meshes now, before the second process starts:
     the coupled stage (here) and the biased large deflection (there) both use them, and the
@@ -272,9 +289,8 @@ def _middle_stages(result: RunResult, design: Design, problem, es, mech, lane,
     """Coupled, damping and response here, then the large deflection from ``lane``."""
     from diagap.fem.plate.vonkarman import NewtonError
 
-    from diagap.stages import coupled_stage, damping_stage, lumped_model, response_stage
+    from diagap.stages import coupled_stage, damping_stage
 
-    acc = design.analysis.accuracy
     cp = _stage(result, "coupled", coupled_stage, design, problem, es, mech)
     coupled = cp.objects["coupled"]
     result.collapsed = design.electrical is not None and bool(coupled.collapsed)
@@ -283,14 +299,7 @@ def _middle_stages(result: RunResult, design: Design, problem, es, mech, lane,
     damp = _stage(result, "damping", damping_stage, design, mech, f_res)
     result.skipped = _skipped(design, result.collapsed)
     if "response" not in result.skipped:
-        model = lumped_model(design, mech, es, cp, damp)
-        dist = response_inputs(design, es.objects["density"], es.objects["rim"],
-                               damp.objects["air"])
-        if design.backplate.plate is not None:  # the distributed reference has a rigid backplate
-            dist = None
-            result.skipped["response.distributed"] = SKIP_REASONS["compliant_backplate"]
-        _stage(result, "response", response_stage, model, result.summary()["uncertainty"],
-               dist, acc, readout=design.readout, scope=response_scope(design))
+        response_step(result, design, mech, es, cp, damp)
     resp = result.sections["response"].to_summary() if "response" in result.sections else None
     try:
         _stage(result, "large_deflection", lane.section, resp,

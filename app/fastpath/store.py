@@ -26,9 +26,11 @@ _HELD: dict = {}  # tables already read in this process, by kind and parameters
 
 #: application modules whose code shapes tabulated values (the pipeline's stages and inputs,
 #: and the fast path's own table code); other application modules (CLI, reports) do not
-VALUE_MODULES = ("stages.py", "pipeline.py", "extract.py", "design.py", "schema.py",
-                 "materials.py", "quantities.py", "sweep/point.py", "fastpath/grid.py",
-                 "fastpath/refine.py", "fastpath/plate.py", "fastpath/study.py")
+VALUE_MODULES = ("stages.py", "response_stage.py", "pipeline.py", "extract.py", "design.py",
+                 "schema.py", "materials.py", "quantities.py", "dielectrics.py", "backplate.py",
+                 "package_design.py", "readout_design.py", "scope.py", "sweep/point.py",
+                 "fastpath/grid.py", "fastpath/refine.py", "fastpath/plate.py",
+                 "fastpath/study.py")
 
 
 @lru_cache(maxsize=None)

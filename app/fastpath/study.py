@@ -98,11 +98,10 @@ class StudyBox:
 
 def _sections(design: Design) -> dict:
     """The summary sections of :func:`diagap.pipeline.run_design` up to the response."""
-    from diagap.extract import plate_problem, response_inputs
+    from diagap.extract import plate_problem
     from diagap.fem.plate.solver import solve_plate
-    from diagap.pipeline import RunResult, _skipped
-    from diagap.stages import (coupled_stage, damping_stage, electrostatics_stage, lumped_model,
-                               response_stage)
+    from diagap.pipeline import RunResult, _skipped, response_step
+    from diagap.stages import coupled_stage, damping_stage, electrostatics_stage
 
     result = RunResult(design)
     acc = design.analysis.accuracy
@@ -117,11 +116,7 @@ def _sections(design: Design) -> dict:
     damp = result.sections["damping"] = damping_stage(design, mech, f_res)
     result.skipped = _skipped(design, result.collapsed)
     if "response" not in result.skipped:
-        model = lumped_model(design, mech, es, cp, damp)
-        dist = response_inputs(design, es.objects["density"], es.objects["rim"],
-                               damp.objects["air"])
-        result.sections["response"] = response_stage(model, result.summary()["uncertainty"],
-                                                     dist, acc)
+        response_step(result, design, mech, es, cp, damp)
     return result.summary()
 
 

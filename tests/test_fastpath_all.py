@@ -1,0 +1,106 @@
+"""The whole fast summary against the full FE pipeline on random designs (diagap.fastpath).
+
+Reference: the full FE pipeline itself (:func:`diagap.fastpath.study.pipeline_outputs`: every
+stage from the diaphragm FE to the lumped response, run in the test on the same design at the
+same accuracy). Tolerance: 1e-3 relative, 0.01 dB for levels (the fast path's certification
+target, :func:`diagap.fastpath.grid.scaled_error`).
+
+Designs: random clamped circles inside the tables' validated range (stress, gap, hole pattern,
+electrode, air) — invented, not any product's. The check needs the draft cell, rim and film
+tables (minutes to build once), so it is marked ``tables``: ``pytest -m tables
+tests/test_fastpath_all.py``. The count and the spread of designs are those of
+tests/bench/bench_fastpath_all.py, which prints the worst error of every output.
+"""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+
+from diagap import demo_design, with_overrides
+from diagap.design import DesignError
+
+#: sections the fast path gives for every covered design with a bias below pull-in
+SECTIONS = ("mechanics", "electrostatics", "damping")
+
+
+def random_design(rng, accuracy: str = "draft"):
+    """A clamped disk inside the cell, rim and film tables' ranges: radius, thickness, stress,
+    gap, hole pattern, electrode and air conditions (an invented design)."""
+    from diagap.fastpath.field import check_covered
+    from diagap.fastpath.flowcell import CELL_RADIUS_OVER_PITCH
+    from diagap.fem.air import air_properties
+
+    while True:
+        lattice = str(rng.choice(["hex", "square"]))
+        radius = 10 ** rng.uniform(math.log10(0.4e-3), math.log10(1.5e-3))
+        gap = radius / 10 ** rng.uniform(math.log10(110), math.log10(400))
+        pitch = gap / 10 ** rng.uniform(math.log10(0.1), math.log10(0.8))
+        rc = CELL_RADIUS_OVER_PITCH[lattice] * pitch
+        hole = rc * math.exp(rng.uniform(math.log(0.2), math.log(0.7)))
+        thickness = min(rc * math.exp(rng.uniform(math.log(0.15), math.log(3.0))), 80 * gap)
+        temp = rng.uniform(260.0, 360.0)
+        p0 = math.exp(rng.uniform(math.log(60e3), math.log(120e3)))
+        lam = air_properties(temp, p0).mean_free_path_m
+        if not (1.2e-3 < lam / gap < 0.09 and lam / hole < 0.5 and 0.5e-6 < gap < 60e-6):
+            continue
+        changes = {
+            "analysis.accuracy": accuracy,
+            "diaphragm.radius": radius,
+            "diaphragm.thickness": radius / rng.uniform(150, 400),
+            "diaphragm.residual_stress": rng.uniform(1e6, 40e6),
+            "backplate.gap": gap,
+            "backplate.electrode_radius": radius * rng.uniform(0.6, 0.98),
+            "backplate.thickness": thickness,
+            "backplate.hole_lattice": lattice,
+            "backplate.hole_radius": hole,
+            "backplate.hole_pitch": pitch,
+            "acoustics.temperature": temp,
+            "acoustics.static_pressure": p0,
+        }
+        try:
+            design = with_overrides(demo_design(), changes)
+            check_covered(design)
+        except (DesignError, ValueError):
+            continue
+        return design
+
+
+def compare(fast: dict, full: dict) -> dict:
+    """Scaled error of every fast output (relative; 0.01 dB counts as 1e-3 for levels) against the
+    pipeline; NaN where the pipeline has no number."""
+    from diagap.fastpath.grid import scaled_error
+
+    out = {}
+    for key, value in fast.items():
+        ref = full.get(key)
+        if not isinstance(ref, (int, float)) or isinstance(ref, bool):
+            out[key] = math.nan
+            continue
+        out[key] = float(scaled_error([key], [value], [float(ref)])[0])
+    return out
+
+
+@pytest.mark.tables
+def test_fifty_random_designs_match_the_pipeline():
+    """Every output the fast summary reports, on 50 random designs, within 1e-3 (0.01 dB)."""
+    from diagap.fastpath import fast_summary, prepare_tables
+    from diagap.fastpath.study import pipeline_outputs
+
+    prepare_tables("draft")
+    rng = np.random.default_rng(5020261202)
+    bad, count = [], 0
+    for _ in range(50):
+        design = random_design(rng)
+        fast = fast_summary(design)
+        full = pipeline_outputs(design)
+        for section in SECTIONS:
+            assert any(k.startswith(section + ".") for k in fast), (section, design.backplate)
+        for key, err in compare(fast, full).items():
+            assert not math.isnan(err), (key, "not in the pipeline's summary")
+            count += 1
+            if err > 1e-3:
+                bad.append((key, err))
+    assert not bad, bad[:10]
+    assert count > 50 * 30
