@@ -279,7 +279,8 @@ def _study_command(name: str):
     return run
 
 
-_COMMANDS.update({name: _study_command(name) for name in ("tolerance", "optimise", "fit")})
+_COMMANDS.update({name: _study_command(name)
+                  for name in ("tolerance", "optimise", "fit", "tables")})
 
 
 def main(argv: list[str] | None = None) -> int:

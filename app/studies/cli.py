@@ -1,4 +1,5 @@
-"""The ``diagap tolerance``, ``diagap optimise`` and ``diagap fit`` subcommands. Only this module
+"""The ``diagap tolerance``, ``diagap optimise``, ``diagap fit`` and ``diagap tables``
+subcommands. Only this module
 of the studies prints; registered by :mod:`diagap.cli` with :func:`add_parsers`."""
 from __future__ import annotations
 
@@ -69,6 +70,20 @@ def add_parsers(sub, add_common) -> None:
     f.add_argument("-o", "--out", default="diagap-fit", help="output folder")
     _runner_options(f, exact=False)
     add_common(f)
+    b = sub.add_parser("tables", help="build the fast path's global tables (or list them)",
+                       description="Build, or with --check only look up, the scaled tables of "
+                       "an accuracy setting that the fast path reads: diaphragms, backplate "
+                       "cells, electrode rim, flow cell and film shape. They are cached on disk "
+                       "and refined until held-out FE points agree within their tolerance "
+                       "(1e-3); building them all takes minutes to hours on two cores, once.",
+                       epilog="exit codes: 0 success, 2 bad input (one line on stderr).",
+                       formatter_class=fmt)
+    b.add_argument("--check", action="store_true",
+                   help="compute nothing: list which tables exist in the cache")
+    b.add_argument("--only", metavar="NAME,NAME", help="a subset of the tables (names as "
+                   "listed by --check)")
+    _runner_options(b, exact=False)
+    add_common(b)
 
 
 def _load(args, section):
@@ -210,6 +225,49 @@ def _cmd_fit(args) -> int:
     return 0
 
 
+def _cmd_tables(args) -> int:
+    from diagap.fastpath.catalog import table_names, table_status
+    from diagap.fastpath.refine import mapper_for
+    from diagap.sweep.spec import SweepError
+
+    accuracy = args.accuracy or "normal"
+    names = None
+    if args.only:
+        names = [n.strip() for n in args.only.split(",") if n.strip()]
+        bad = [n for n in names if n not in table_names()]
+        if bad or not names:
+            raise SweepError(f"--only {args.only!r}: unknown table {bad[0] if bad else ''!r}; "
+                             f"allowed: {', '.join(table_names())}")
+    client, owned = None, False
+    if args.scheduler is not None and not args.check:
+        from diagap.studies.runner import connect
+
+        client, owned = connect(args.scheduler)
+    print(f"fast-path tables at accuracy {accuracy!r}"
+          + (" (look-up only)" if args.check else ""), flush=True)
+
+    def show(st) -> None:
+        if st.state == "missing":
+            print(f"  {st.name:40s} missing", flush=True)
+            return
+        cert = "certified" if not st.uncertified else \
+            f"uncertified: {', '.join(st.uncertified)}"
+        print(f"  {st.name:40s} {st.state:6s} {st.points:6d} FE points, held-out error "
+              f"{st.held_out_error:.2e}, {st.seconds:7.1f} s, {cert}", flush=True)
+
+    try:
+        mapper = None if args.check else mapper_for(args.workers, client)
+        rows = table_status(accuracy, mapper, build=not args.check, names=names, on_table=show)
+    finally:
+        if owned:
+            client.close()
+    missing = sum(r.state == "missing" for r in rows)
+    print(f"{len(rows) - missing} of {len(rows)} tables available"
+          + (f"; build the missing ones with: diagap tables --accuracy {accuracy}"
+             if missing else ""))
+    return 0
+
+
 def _guard(func):
     def run(args) -> int:
         from diagap.sweep.spec import SweepError
@@ -227,4 +285,4 @@ def _guard(func):
 
 
 COMMANDS = {"tolerance": _guard(_cmd_tolerance), "optimise": _guard(_cmd_optimise),
-            "fit": _guard(_cmd_fit)}
+            "fit": _guard(_cmd_fit), "tables": _guard(_cmd_tables)}
