@@ -328,7 +328,15 @@ class NonlinearTransducer:
         self.readout_nonlinear, self.force_nonlinear = readout_nonlinear, force_nonlinear
 
     def _c(self, x):
-        return self.curve.capacitance(x), self.curve.slope(x), self.curve.curvature(x)
+        """(C, dC/dx, d²C/dx²) at ``x``: one spline evaluation per derivative, kept for the
+        next call at the same points (the force and the voltage of one iterate)."""
+        last = getattr(self, "_last", None)
+        if last is not None and last[0].shape == np.shape(x) and np.array_equal(last[0], x):
+            return last[1]
+        s, s1, s2 = self.curve._parts(x)  # the spline of 1/C and its derivatives
+        out = (1.0 / s, -s1 / s**2, 2.0 * s1**2 / s**3 - s2 / s**2)
+        self._last = (np.array(x, dtype=float, copy=True), out)
+        return out
 
     def force(self, xi, q):
         """F_e(x_b + ξ, q) − F_e(x_b, Q0) and its derivatives by ξ and q."""

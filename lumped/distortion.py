@@ -35,6 +35,7 @@ short of the backplate, where C diverges) or Newton fails; the reason is reporte
 """
 from __future__ import annotations
 
+import functools
 import math
 from dataclasses import dataclass, field
 
@@ -86,7 +87,10 @@ class HarmonicSolution:
     _coefficients: np.ndarray = field(repr=False)
 
 
+@functools.lru_cache(maxsize=16)
 def _basis(n_harm: int, m_time: int):
+    """Samples e (M × (2N+1)) of [1, cos θ, sin θ, …] and the projection w back (read-only,
+    shared by every solve with the same N and M)."""
     th = 2.0 * np.pi * np.arange(m_time) / m_time
     cols = [np.ones(m_time)]
     for n in range(1, n_harm + 1):
@@ -94,6 +98,8 @@ def _basis(n_harm: int, m_time: int):
     e = np.column_stack(cols)
     w = e.T * (2.0 / m_time)
     w[0] /= 2.0
+    e.flags.writeable = False
+    w.flags.writeable = False
     return e, w
 
 
@@ -126,20 +132,28 @@ def _forcing(model: LumpedModel, f_hz: float, spl_db: float, n_harm: int) -> np.
     return out
 
 
+@functools.lru_cache(maxsize=16)
 def _derivative_operator(n_harm: int) -> np.ndarray:
-    """d/dθ on [a0, a1, b1, ...]: (a_n, b_n) → (n b_n, −n a_n)."""
+    """d/dθ on [a0, a1, b1, ...]: (a_n, b_n) → (n b_n, −n a_n) (read-only, shared)."""
     d = np.zeros((2 * n_harm + 1, 2 * n_harm + 1))
     for n in range(1, n_harm + 1):
         j = 2 * n - 1
         d[j, j + 1], d[j + 1, j] = n, -n
+    d.flags.writeable = False
     return d
 
 
-def _newton(model, es: NonlinearTransducer, f_hz, spl_db, n_harm, guess):
-    """Solve the harmonic-balance equations; unknowns [ξ/g coefficients, (q − Q0)/Q0 ones]."""
+def _newton(model, es: NonlinearTransducer, f_hz, spl_db, n_harm, guess, lops=None):
+    """Solve the harmonic-balance equations; unknowns [ξ/g coefficients, (q − Q0)/Q0 ones].
+    ``lops``: a dict keeping the linear operator per (f, N) over a scan of one model."""
     m_time, nb = 4 * n_harm, 2 * n_harm + 1
     e, w = _basis(n_harm, m_time)
-    lop = _linear_operator(model, f_hz, n_harm)
+    if lops is None:
+        lop = _linear_operator(model, f_hz, n_harm)
+    else:
+        lop = lops.get((f_hz, n_harm))
+        if lop is None:
+            lop = lops[(f_hz, n_harm)] = _linear_operator(model, f_hz, n_harm)
     fext = _forcing(model, f_hz, spl_db, n_harm)
     dop = 2.0 * np.pi * f_hz * model.bias_resistance_ohm * _derivative_operator(n_harm)
     g, kref, q0, vb = model.gap_m, model.stiffness_n_per_m, es.q0, es.vb
@@ -220,12 +234,15 @@ def harmonic_balance(model: LumpedModel, spl_db: float, frequency_hz: float = 10
     readout_nonlinear, force_nonlinear : switch either nonlinearity off (linearised instead).
     initial : a solution to continue from (e.g. at a nearby SPL).
     """
-    es = NonlinearTransducer(model, readout_nonlinear, force_nonlinear)
+    es = _scan_state.get("es")
+    if es is None or _scan_state.get("key") != (id(model), readout_nonlinear, force_nonlinear):
+        es = NonlinearTransducer(model, readout_nonlinear, force_nonlinear)
+    lops = _scan_state.get("lops")
     n = harmonics
     guess = None if initial is None else _pad(initial._coefficients, n)
     while True:
         sol = _solution(model, es, frequency_hz, spl_db, n,
-                        _newton(model, es, frequency_hz, spl_db, n, guess))
+                        _newton(model, es, frequency_hz, spl_db, n, guess, lops))
         if sol.truncation * sol.thd < max(1e-4 * sol.thd, 1e-10) or 2 * n > max_harmonics:
             return sol
         guess, n = _pad(sol._coefficients, 2 * n), 2 * n
@@ -358,7 +375,20 @@ def distortion_vs_spl(model: LumpedModel, frequency_hz: float = 1000.0, spl_db=N
     range or does not converge; thresholds not reached by then are None (see ``limit_reason``).
     """
     levels = np.arange(60.0, 160.0 + 1e-9, 2.0) if spl_db is None else np.asarray(spl_db, float)
-    curve = model.curve()
+    key = (id(model), kw.get("readout_nonlinear", True), kw.get("force_nonlinear", True))
+    _scan_state.update(key=key, es=NonlinearTransducer(model, key[1], key[2]), lops={})
+    try:
+        return _scan(model, frequency_hz, levels, kw)
+    finally:
+        _scan_state.clear()
+
+
+#: the transducer and linear operators of the scan in progress (one model, many solves)
+_scan_state: dict = {}
+
+
+def _scan(model: LumpedModel, frequency_hz: float, levels, kw) -> DistortionResult:
+    curve = _scan_state["es"].curve
     sols, reason, prev = [], None, None
     for spl in levels:
         try:
