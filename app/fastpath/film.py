@@ -74,6 +74,21 @@ CELL_TOL = 2.5e-3
 _FLAT = 1e-4
 
 
+def _noise_band() -> slice:
+    """The points of SPECTRUM_HZ that the A-weighted noise level reads: it interpolates b(f)
+    (log–log, :func:`diagap.lumped.noise.a_weighted_level_db`) on the audio band, so only the
+    points from the last one at or below its lower end to the first one at or above its upper
+    end enter; the level from this slice is the level from the whole spectrum, bit for bit."""
+    from diagap.lumped.weighting import AUDIO_BAND_HZ
+
+    lo = int(np.searchsorted(SPECTRUM_HZ, AUDIO_BAND_HZ[0], side="right")) - 1
+    hi = int(np.searchsorted(SPECTRUM_HZ, AUDIO_BAND_HZ[1], side="left"))
+    return slice(max(lo, 0), min(hi, SPECTRUM_HZ.size - 1) + 1)
+
+
+_NOISE_BAND = _noise_band()
+
+
 def _tension_ratio(design) -> float:
     from diagap.fastpath.plate_range import COMPRESSION, buckling_tau
     from diagap.fem.plate.solver import MEMBRANE_TAU
@@ -206,9 +221,13 @@ def damping_outputs(design, mechanics_outputs: dict, *, resonance_hz: float | No
     sigma_per_omega = 12.0 * mu_eff * L**2 / (p0 * g**2)
     j0 = film.response(0j).real
     lam = alpha + DISK_EIGENVALUE
-    sig = sigma_per_omega * 2.0 * math.pi * SPECTRUM_HZ
-    spectrum = np.array([z0 * (j0 if s < _FLAT * lam else film.response(1j * s).real)
-                         for s in sig])
+    band = _NOISE_BAND
+    sig = sigma_per_omega * 2.0 * math.pi * SPECTRUM_HZ[band]
+    flat = sig < _FLAT * lam
+    spectrum = np.full(sig.size, z0 * j0)
+    spectrum[~flat] = z0 * film.responses(1j * sig[~flat]).real
+    b_first = z0 * (j0 if sigma_per_omega * 2.0 * math.pi * SPECTRUM_HZ[0] < _FLAT * lam
+                    else film.response(2j * math.pi * sigma_per_omega * SPECTRUM_HZ[0]).real)
     cutoff_hz = film.cutoff() / (2.0 * math.pi * sigma_per_omega)
     out = {
         "damping_n_s_per_m": z0 * j0,
@@ -228,11 +247,11 @@ def damping_outputs(design, mechanics_outputs: dict, *, resonance_hz: float | No
         out["hole_resistance_pa_s_per_m3"] = perf["resistance_per_hole_pa_s_per_m3"]
         out["hole_resistance_closed_form_pa_s_per_m3"] = \
             perf["resistance_per_hole_closed_form_pa_s_per_m3"]
-    noise = mechanical_thermal_noise(SPECTRUM_HZ, spectrum, temperature_k,
+    noise = mechanical_thermal_noise(SPECTRUM_HZ[band], spectrum, temperature_k,
                                      mechanics_outputs[area_key])
     out["mechanical_noise_dba_spl"] = noise.a_weighted_spl_db()
     out["force_noise_n_per_rthz"] = math.sqrt(4.0 * BOLTZMANN_J_PER_K * temperature_k
-                                              * spectrum[0])
+                                              * b_first)
     return {f"damping.{k}": float(v) for k, v in out.items()}
 
 
