@@ -15,7 +15,8 @@ evaluated from the power series of I₀ in τ with the 1/τ terms cancelled anal
     ŵ(u) = (1 − u²) R/(4τ(1 + R)) + S(u)/(τ²(1 + R)),
     R = Σ_{m≥1} (τ/4)^m/(m!(m+1)!),   S(u) = Σ_{m≥2} (τ/4)^m (u^{2m} − 1)/(m!)²,
 
-and with exponentially scaled Bessel functions above. The film sees φ(u) = ŵ(u)/ŵ(0).
+and with exponentially scaled Bessel functions above (Cephes' i0e, i1e; j0, j1 under
+compression). The film sees φ(u) = ŵ(u)/ŵ(0).
 
 The film
 --------
@@ -34,6 +35,13 @@ each; the ρ-weighted stiffness and mass are integrated exactly, the load by 3-p
 functional J_h = Fᵀ Π_h converges as h²; Richardson's extrapolation of the mesh and its
 halving, J = (4 J_{h/2} − J_h)/3, leaves an error far below 1e-6 (checked in the tests against
 the Bessel closed form of the uniformly moving perforated disk).
+
+Solving: the system (K + cM) Π = F of a mesh is tridiagonal and symmetric; K, M and F are
+assembled once per mesh, and each c then costs one LAPACK tridiagonal solve (``zgtsv``, LU with
+partial pivoting: O(n)). A design's meshes depend on c only through the rounded layer width (a
+factor 1.13 in δ), so the frequencies of a spectrum and the steps of the cut-off search share a
+few mesh pairs. The spectrum below |σ̂| = 10⁻⁴ λ₁ (λ₁ = α + j₀₁²) is the static value, one
+solve.
 
 This is the same continuous problem the damping stage solves in two dimensions (quadratic
 triangles, three nested levels, its own error 1e-5 … 1e-4 relative), so the two agree to the
