@@ -36,6 +36,15 @@ discretisation error) rather than tabulated on three axes; the plate FE's small 
 the closed-form shape is tabulated on τ (:mod:`diagap.fastpath.shape`). Everything else is a
 closed form.
 
+Cost: the b(f) spectrum is solved only at the points of :data:`SPECTRUM_HZ` that the
+A-weighted noise level reads (it interpolates b(f) on 20 Hz … 20 kHz, so the points from 19.95 Hz
+to 25.1 kHz; the level is the one of the whole spectrum, bit for bit), points below the flat
+limit are the static value, and the radial film solves each frequency with one tridiagonal
+LAPACK call on meshes built once per design (:mod:`diagap.fastpath.radial`). One evaluation of
+the demo at "draft" with the tables in memory: 4.7 ms of CPU (13.8 ms before these changes,
+values equal to 2e-14), 25–35 ms wall on the shared two-core machine at a load of 10
+(tests/bench/bench_fastpath_film.py).
+
 Not given by the fast path: the error estimates of the stage (``*_relative_uncertainty``), the
 b(f), k(f) curve (a nested list, not a flat output), texts; the resonance outputs of a design
 with a bias when no coupled resonance is known. Covered: circular clamped diaphragms in the
@@ -63,13 +72,10 @@ _GROUP_FIELDS = {
     "knudsen": "Knudsen number mean free path / backplate.gap (air temperature, pressure)",
 }
 #: largest held-out error of the cell table's resistance (relative) for which it is used. The
-#: table is refined to 1e-3 (:mod:`diagap.fastpath.flowcell`); at "draft" the Stokes FE itself
-#: scatters by 2e-4 … 5e-4 from one geometry's mesh to the next, and the table over the whole
-#: range ends at 2.4e-3 at its worst held-out point (160 further random points: 98 % within
-#: 1e-3, 95 % within 7.8e-4, worst 1.9e-3, at thin backplates with Kn > 0.06; 50 random
-#: designs against the full stage: 48 within 1e-3, worst 1.6e-3 on the hole resistance and
-#: 1.5e-3 on the damping, tests/bench/bench_fastpath_film.py)
-CELL_TOL = 2.5e-3
+#: table is refined to 1e-3 (:mod:`diagap.fastpath.flowcell`); at "draft" (Stokes cell level
+#: 0.35) it ends at 8.4e-4 at its worst held-out point, the Stokes FE scattering by ≤ 1.7e-4
+#: from one geometry's mesh to the next (tests/bench/bench_fastpath_film.py)
+CELL_TOL = 1e-3
 # below this |σ̂|/λ₁ the spectrum equals b(0) to ~(|σ̂|/λ₁)² < 1e-8
 _FLAT = 1e-4
 
