@@ -210,3 +210,122 @@ def test_shape_table_axis_spans_the_plate_model_range():
     assert ends[0] == pytest.approx(-0.9 * tb, rel=1e-12, abs=0)
     assert ends[-1] == pytest.approx(1e4, rel=1e-12, abs=0)
     assert min(abs(e) for e in ends) < 1e-9 * tb
+
+
+# ------------------------------------------------------------------ the radial solve itself
+def _reference_response(nodes: np.ndarray, eps: float, tau: float, correction, c: complex
+                        ) -> complex:
+    """J_h = Fᵀ Π_h on the given nodes, written out: P1 elements of −(ρΠ')'/ρ + cΠ = φ(ερ),
+    Π(1) = 0, ρ-weighted stiffness and mass integrated by 4-point Gauss (exact for them), the
+    load by the 3-point Gauss rule of the fast solver, one sparse direct solve per c."""
+    import scipy.sparse as sp
+    import scipy.sparse.linalg as spla
+
+    a, b = nodes[:-1], nodes[1:]
+    h = b - a
+    n = nodes.size
+    rows, cols, vals = [], [], []
+    x4, w4 = np.polynomial.legendre.leggauss(4)
+    load = np.zeros(n)
+    x3, w3 = np.polynomial.legendre.leggauss(3)
+    for e in range(a.size):
+        rho = 0.5 * (a[e] + b[e]) + 0.5 * h[e] * x4
+        wq = 0.5 * h[e] * w4 * rho
+        shape = [(b[e] - rho) / h[e], (rho - a[e]) / h[e]]
+        grad = [-1.0 / h[e], 1.0 / h[e]]
+        for i in range(2):
+            for j in range(2):
+                rows.append(e + i)
+                cols.append(e + j)
+                vals.append(np.sum(wq * (grad[i] * grad[j] + c * shape[i] * shape[j])))
+        rho3 = 0.5 * (a[e] + b[e]) + 0.5 * h[e] * x3
+        w = 0.5 * h[e] * w3 * rho3
+        phi = static_shape(eps * rho3, tau) * (1.0 + correction(eps * rho3))
+        load[e] += np.sum(w * phi * (b[e] - rho3) / h[e])
+        load[e + 1] += np.sum(w * phi * (rho3 - a[e]) / h[e])
+    k = sp.csc_matrix((np.array(vals, complex), (rows, cols)), shape=(n, n))[:-1, :-1]
+    sol = spla.spsolve(k.tocsc(), load[:-1].astype(complex))
+    return complex(2.0 * math.pi * load[:-1] @ sol)
+
+
+@pytest.mark.parametrize("alpha, eps, tau", [(0.0, 0.8, 3.0), (250.0, 0.55, 400.0),
+                                             (4.0e4, 1.0, -12.0)])
+def test_radial_solve_matches_a_direct_solve_per_frequency(alpha, eps, tau):
+    """The tridiagonal solves of the radial film (both meshes, Richardson) reproduce a
+    straightforward sparse assembly and solve per frequency on the same nodes to 1e-9."""
+    def correction(u):
+        return -2e-3 * np.asarray(u) ** 6
+
+    film = RadialFilm(alpha, eps, tau, correction)
+    s = np.array([0.0, 0.3j, 30j, 3e3j, 3e5j])
+    fast = film.responses(s)
+    for v, got in zip(s, fast):
+        c = alpha + v
+        coarse, fine = film._pair(c)
+        ref = (4 * _reference_response(fine.x, eps, tau, correction, c)
+               - _reference_response(coarse.x, eps, tau, correction, c)) / 3
+        assert abs(got - ref) <= 1e-9 * abs(ref), (v, got, ref)
+
+
+def test_noise_from_the_audio_band_slice_equals_the_whole_spectrum(monkeypatch):
+    """The A-weighted mechanical noise from the slice of the spectrum the level reads equals the
+    level from all 51 frequencies (each solved on its own), and the force noise is 4kT·b(1 Hz)."""
+    import diagap.fastpath.film as film_mod
+    from diagap.fem.air import air_properties
+    from diagap.fem.constants import BOLTZMANN_J_PER_K
+    from diagap.fem.film.perforation import film_viscosity
+    from diagap.lumped.noise import mechanical_thermal_noise
+
+    def correction(u):
+        return -1e-3 * np.asarray(u) ** 4
+
+    monkeypatch.setattr(film_mod, "_correction", lambda design, tau, mapper: correction)
+    design = with_overrides(demo_design(), {"analysis.accuracy": ACCURACY,
+                                            "backplate.hole_lattice": "none",
+                                            "backplate.hole_radius": None,
+                                            "backplate.hole_pitch": None,
+                                            "backplate.gap": "3 um"})
+    area = 2e-7
+    fast = damping_outputs(design, {"mechanics.static_shape_area_m2": area})
+    d, b = design.diaphragm, design.backplate
+    temperature_k, p0 = design.air_conditions
+    air = air_properties(temperature_k, p0)
+    mu = film_viscosity(air.viscosity_pa_s, air.mean_free_path_m, b.gap_m)
+    tau = d.residual_stress_pa * d.thickness_m * d.size_m**2 * 12 * (1 - d.poisson_ratio**2) \
+        / (d.youngs_modulus_pa * d.thickness_m**3)
+    film = RadialFilm(0.0, b.electrode_size_m / d.size_m, tau, correction)
+    length, g = b.electrode_size_m, b.gap_m
+    sig = 12 * mu * length**2 / (p0 * g**2) * 2 * math.pi * film_mod.SPECTRUM_HZ
+    spectrum = 12 * mu * length**4 / g**3 * np.array([film.response(1j * v).real for v in sig])
+    assert spectrum[-1] < 0.99 * spectrum[0]  # the film does roll off inside the spectrum
+    level = mechanical_thermal_noise(film_mod.SPECTRUM_HZ, spectrum, temperature_k,
+                                     area).a_weighted_spl_db()
+    assert fast["damping.mechanical_noise_dba_spl"] == pytest.approx(level, rel=1e-9, abs=0)
+    force = math.sqrt(4 * BOLTZMANN_J_PER_K * temperature_k * spectrum[0])
+    assert fast["damping.force_noise_n_per_rthz"] == pytest.approx(force, rel=1e-7, abs=0)
+
+
+# ------------------------------------------------------ random designs (tables, on purpose)
+@pytest.mark.tables
+def test_random_designs_match_the_stage_within_1e3():
+    """20 random designs inside the validated range (perforation, gap, air, stress,
+    electrode): every damping output within 1e-3 relative (0.01 dB for the noise level) of
+    ``solve_plate`` + ``damping_stage`` at "draft"; builds (or reads) the draft cell and shape
+    tables."""
+    from diagap.fastpath.film import prepare_damping_tables
+
+    prepare_damping_tables(ACCURACY)
+    rng = np.random.default_rng(20261203)
+    worst = 0.0
+    for _ in range(20):
+        design = random_design(rng)
+        full, mech, f1 = stage_outputs(design)
+        fast = damping_outputs(design, mech, resonance_hz=f1)
+        assert len(fast) >= 15
+        for key, value in fast.items():
+            if is_level_db(key):
+                assert abs(value - full[key]) <= 0.01, (key, value, full[key])
+            else:
+                assert value == pytest.approx(full[key], rel=TOL, abs=0), (key, design.backplate)
+                worst = max(worst, abs(value / full[key] - 1.0))
+    assert worst > 0.0  # the fast path is an approximation, not the stage itself

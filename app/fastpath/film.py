@@ -36,6 +36,15 @@ discretisation error) rather than tabulated on three axes; the plate FE's small 
 the closed-form shape is tabulated on τ (:mod:`diagap.fastpath.shape`). Everything else is a
 closed form.
 
+Cost: the b(f) spectrum is solved only at the points of :data:`SPECTRUM_HZ` that the
+A-weighted noise level reads (it interpolates b(f) on 20 Hz … 20 kHz, so the points from 19.95 Hz
+to 25.1 kHz; the level is the one of the whole spectrum, bit for bit), points below the flat
+limit are the static value, and the radial film solves each frequency with one tridiagonal
+LAPACK call on meshes built once per design (:mod:`diagap.fastpath.radial`). One evaluation of
+the demo at "draft" with the tables in memory: 4.7 ms of CPU (13.8 ms before these changes,
+values equal to 2e-14), 25–35 ms wall on the shared two-core machine at a load of 10
+(tests/bench/bench_fastpath_film.py).
+
 Not given by the fast path: the error estimates of the stage (``*_relative_uncertainty``), the
 b(f), k(f) curve (a nested list, not a flat output), texts; the resonance outputs of a design
 with a bias when no coupled resonance is known. Covered: circular clamped diaphragms in the
@@ -63,15 +72,27 @@ _GROUP_FIELDS = {
     "knudsen": "Knudsen number mean free path / backplate.gap (air temperature, pressure)",
 }
 #: largest held-out error of the cell table's resistance (relative) for which it is used. The
-#: table is refined to 1e-3 (:mod:`diagap.fastpath.flowcell`); at "draft" the Stokes FE itself
-#: scatters by 2e-4 … 5e-4 from one geometry's mesh to the next, and the table over the whole
-#: range ends at 2.4e-3 at its worst held-out point (160 further random points: 98 % within
-#: 1e-3, 95 % within 7.8e-4, worst 1.9e-3, at thin backplates with Kn > 0.06; 50 random
-#: designs against the full stage: 48 within 1e-3, worst 1.6e-3 on the hole resistance and
-#: 1.5e-3 on the damping, tests/bench/bench_fastpath_film.py)
-CELL_TOL = 2.5e-3
+#: table is refined to 1e-3 (:mod:`diagap.fastpath.flowcell`); at "draft" (Stokes cell level
+#: 0.35) it ends at 8.4e-4 at its worst held-out point, the Stokes FE scattering by ≤ 1.7e-4
+#: from one geometry's mesh to the next (tests/bench/bench_fastpath_film.py)
+CELL_TOL = 1e-3
 # below this |σ̂|/λ₁ the spectrum equals b(0) to ~(|σ̂|/λ₁)² < 1e-8
 _FLAT = 1e-4
+
+
+def _noise_band() -> slice:
+    """The points of SPECTRUM_HZ that the A-weighted noise level reads: it interpolates b(f)
+    (log–log, :func:`diagap.lumped.noise.a_weighted_level_db`) on the audio band, so only the
+    points from the last one at or below its lower end to the first one at or above its upper
+    end enter; the level from this slice is the level from the whole spectrum, bit for bit."""
+    from diagap.lumped.weighting import AUDIO_BAND_HZ
+
+    lo = int(np.searchsorted(SPECTRUM_HZ, AUDIO_BAND_HZ[0], side="right")) - 1
+    hi = int(np.searchsorted(SPECTRUM_HZ, AUDIO_BAND_HZ[1], side="left"))
+    return slice(max(lo, 0), min(hi, SPECTRUM_HZ.size - 1) + 1)
+
+
+_NOISE_BAND = _noise_band()
 
 
 def _tension_ratio(design) -> float:
@@ -206,9 +227,13 @@ def damping_outputs(design, mechanics_outputs: dict, *, resonance_hz: float | No
     sigma_per_omega = 12.0 * mu_eff * L**2 / (p0 * g**2)
     j0 = film.response(0j).real
     lam = alpha + DISK_EIGENVALUE
-    sig = sigma_per_omega * 2.0 * math.pi * SPECTRUM_HZ
-    spectrum = np.array([z0 * (j0 if s < _FLAT * lam else film.response(1j * s).real)
-                         for s in sig])
+    band = _NOISE_BAND
+    sig = sigma_per_omega * 2.0 * math.pi * SPECTRUM_HZ[band]
+    flat = sig < _FLAT * lam
+    spectrum = np.full(sig.size, z0 * j0)
+    spectrum[~flat] = z0 * film.responses(1j * sig[~flat]).real
+    b_first = z0 * (j0 if sigma_per_omega * 2.0 * math.pi * SPECTRUM_HZ[0] < _FLAT * lam
+                    else film.response(2j * math.pi * sigma_per_omega * SPECTRUM_HZ[0]).real)
     cutoff_hz = film.cutoff() / (2.0 * math.pi * sigma_per_omega)
     out = {
         "damping_n_s_per_m": z0 * j0,
@@ -228,11 +253,11 @@ def damping_outputs(design, mechanics_outputs: dict, *, resonance_hz: float | No
         out["hole_resistance_pa_s_per_m3"] = perf["resistance_per_hole_pa_s_per_m3"]
         out["hole_resistance_closed_form_pa_s_per_m3"] = \
             perf["resistance_per_hole_closed_form_pa_s_per_m3"]
-    noise = mechanical_thermal_noise(SPECTRUM_HZ, spectrum, temperature_k,
+    noise = mechanical_thermal_noise(SPECTRUM_HZ[band], spectrum, temperature_k,
                                      mechanics_outputs[area_key])
     out["mechanical_noise_dba_spl"] = noise.a_weighted_spl_db()
     out["force_noise_n_per_rthz"] = math.sqrt(4.0 * BOLTZMANN_J_PER_K * temperature_k
-                                              * spectrum[0])
+                                              * b_first)
     return {f"damping.{k}": float(v) for k, v in out.items()}
 
 

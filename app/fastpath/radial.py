@@ -15,7 +15,8 @@ evaluated from the power series of I₀ in τ with the 1/τ terms cancelled anal
     ŵ(u) = (1 − u²) R/(4τ(1 + R)) + S(u)/(τ²(1 + R)),
     R = Σ_{m≥1} (τ/4)^m/(m!(m+1)!),   S(u) = Σ_{m≥2} (τ/4)^m (u^{2m} − 1)/(m!)²,
 
-and with exponentially scaled Bessel functions above. The film sees φ(u) = ŵ(u)/ŵ(0).
+and with exponentially scaled Bessel functions above (Cephes' i0e, i1e; j0, j1 under
+compression). The film sees φ(u) = ŵ(u)/ŵ(0).
 
 The film
 --------
@@ -35,6 +36,13 @@ functional J_h = Fᵀ Π_h converges as h²; Richardson's extrapolation of the m
 halving, J = (4 J_{h/2} − J_h)/3, leaves an error far below 1e-6 (checked in the tests against
 the Bessel closed form of the uniformly moving perforated disk).
 
+Solving: the system (K + cM) Π = F of a mesh is tridiagonal and symmetric; K, M and F are
+assembled once per mesh, and each c then costs one LAPACK tridiagonal solve (``zgtsv``, LU with
+partial pivoting: O(n)). A design's meshes depend on c only through the rounded layer width (a
+factor 1.13 in δ), so the frequencies of a spectrum and the steps of the cut-off search share a
+few mesh pairs. The spectrum below |σ̂| = 10⁻⁴ λ₁ (λ₁ = α + j₀₁²) is the static value, one
+solve.
+
 This is the same continuous problem the damping stage solves in two dimensions (quadratic
 triangles, three nested levels, its own error 1e-5 … 1e-4 relative), so the two agree to the
 stage's discretisation error, once the shape carries the plate FE's own departure from the
@@ -45,12 +53,12 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy.linalg import solve_banded
+from scipy.linalg.lapack import zgtsv
 from scipy.optimize import brentq
-from scipy.special import ive, jv
+from scipy.special import i0e, i1e, j0, j1
 
 __all__ = ["static_shape", "film_response", "film_cutoff", "shape_square_integral",
-           "DISK_EIGENVALUE"]
+           "DISK_EIGENVALUE", "RadialFilm"]
 
 DISK_EIGENVALUE = 5.783185962946784  # j₀₁²
 _SERIES_TAU = 30.0
@@ -79,11 +87,11 @@ def _series_shape(u: np.ndarray, tau: float) -> np.ndarray:
 def _bessel_shape(u: np.ndarray, tau: float) -> np.ndarray:
     if tau > 0:
         k = math.sqrt(tau)
-        i1 = ive(1, k)
-        return (1.0 - u * u) / (4.0 * tau) - (ive(0, k) - ive(0, k * u) * np.exp(k * (u - 1.0))) \
+        i1 = i1e(k)
+        return (1.0 - u * u) / (4.0 * tau) - (i0e(k) - i0e(k * u) * np.exp(k * (u - 1.0))) \
             / (2.0 * tau * k * i1)
     k = math.sqrt(-tau)
-    return (1.0 - u * u) / (4.0 * tau) + (jv(0, k) - jv(0, k * u)) / (2.0 * tau * k * jv(1, k))
+    return (1.0 - u * u) / (4.0 * tau) + (j0(k) - j0(k * u)) / (2.0 * tau * k * j1(k))
 
 
 def static_shape(u, tau: float) -> np.ndarray:
@@ -94,7 +102,8 @@ def static_shape(u, tau: float) -> np.ndarray:
 
 
 class _Mesh:
-    """Two-zone radial mesh, its halving, Gauss points and the load of the shape."""
+    """Two-zone radial mesh, its halving, Gauss points, the load of the shape, and the
+    tridiagonal ρ-weighted stiffness and mass of the free nodes (all but the rim node)."""
 
     def __init__(self, layer: float, eps: float, tau: float, refine: int, correction=None):
         width = min(0.5, 20.0 * layer)
@@ -102,36 +111,36 @@ class _Mesh:
         self.x = np.concatenate([np.linspace(0.0, 1.0 - width, n + 1)[:-1],
                                  np.linspace(1.0 - width, 1.0, n + 1)])
         a, b = self.x[:-1], self.x[1:]
-        self.h = b - a
-        self.a, self.b = a, b
-        xq = 0.5 * (a + b)[:, None] + 0.5 * self.h[:, None] * _GAUSS_X[None, :]
-        wq = 0.5 * self.h[:, None] * _GAUSS_W[None, :] * xq
+        h = b - a
+        xq = 0.5 * (a + b)[:, None] + 0.5 * h[:, None] * _GAUSS_X[None, :]
+        wq = 0.5 * h[:, None] * _GAUSS_W[None, :] * xq
         phi = static_shape(eps * xq, tau)
         if correction is not None:
             phi = phi * (1.0 + correction(eps * xq))
-        n1 = (b[:, None] - xq) / self.h[:, None]
+        n1 = (b[:, None] - xq) / h[:, None]
         load = np.zeros(self.x.size)
-        np.add.at(load, np.arange(a.size), np.sum(phi * n1 * wq, axis=1))
-        np.add.at(load, np.arange(1, a.size + 1), np.sum(phi * (1 - n1) * wq, axis=1))
+        load[:-1] += np.sum(phi * n1 * wq, axis=1)
+        load[1:] += np.sum(phi * (1 - n1) * wq, axis=1)
         self.load = load[:-1]  # Π = 0 at the rim node
         self.phi_sq = 2.0 * math.pi * float(np.sum(phi * phi * wq))
+        # element matrices of ∫ρ w'v' dρ and ∫ρ w v dρ, exact for linear elements
+        ks = 0.5 * (a + b) / h
+        md0, md1, mo = h / 12.0 * (3 * a + b), h / 12.0 * (a + 3 * b), h / 12.0 * (a + b)
+        kd, md = np.zeros(self.x.size), np.zeros(self.x.size)
+        kd[:-1] += ks
+        kd[1:] += ks
+        md[:-1] += md0
+        md[1:] += md1
+        self.k_diag, self.m_diag = kd[:-1], md[:-1]
+        self.k_off, self.m_off = -ks[:-1], mo[:-1]
+        self._rhs = self.load.astype(complex)
 
     def solve(self, c: complex) -> complex:
-        """J_h = Fᵀ Π_h for the coefficient c = α + s."""
-        a, b, h = self.a, self.b, self.h
-        ks = 0.5 * (a + b) / h  # ∫ρ dρ / h²
-        md = h / 12.0 * (3 * a + b), h / 12.0 * (a + 3 * b)
-        mo = h / 12.0 * (a + b)
-        n = self.x.size
-        diag = np.zeros(n, dtype=complex)
-        np.add.at(diag, np.arange(n - 1), ks + c * md[0])
-        np.add.at(diag, np.arange(1, n), ks + c * md[1])
-        off = -ks + c * mo
-        ab = np.zeros((3, n - 1), dtype=complex)
-        ab[0, 1:] = off[:-1]
-        ab[1] = diag[:-1]
-        ab[2, :-1] = off[:-1]
-        sol = solve_banded((1, 1), ab, self.load.astype(complex))
+        """J_h = Fᵀ Π_h for the coefficient c = α + s (one tridiagonal LAPACK solve)."""
+        off = self.k_off + c * self.m_off
+        *_, sol, info = zgtsv(off, self.k_diag + c * self.m_diag, off.copy(), self._rhs)
+        if info != 0:
+            raise ArithmeticError(f"radial film: singular system at c = {c!r}")
         return complex(2.0 * math.pi * (self.load @ sol))
 
 
@@ -159,6 +168,11 @@ class RadialFilm:
         coarse, fine = self._pair(c)
         return (4.0 * fine.solve(c) - coarse.solve(c)) / 3.0
 
+    def responses(self, s) -> np.ndarray:
+        """J(s) at an array of s (each as :meth:`response`; meshes built once per design and
+        layer, shared by the frequencies whose layers round alike)."""
+        return np.array([self.response(complex(v)) for v in np.atleast_1d(s)])
+
     def shape_square_integral(self) -> float:
         """∫ φ² dA over the unit electrode disk (Richardson-extrapolated quadrature)."""
         coarse, fine = self._pair(complex(self.alpha))
@@ -181,8 +195,7 @@ class RadialFilm:
 
 def film_response(alpha: float, eps: float, tau: float, s) -> np.ndarray:
     """J(s) of :class:`RadialFilm` at an array of scaled Laplace variables s."""
-    film = RadialFilm(alpha, eps, tau)
-    return np.array([film.response(complex(v)) for v in np.atleast_1d(s)])
+    return RadialFilm(alpha, eps, tau).responses(s)
 
 
 def film_cutoff(alpha: float, eps: float, tau: float) -> float:

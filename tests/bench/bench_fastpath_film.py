@@ -11,7 +11,9 @@ Run: ``python tests/bench/bench_fastpath_film.py [--accuracy normal] [--designs 
    residual stress; the generator of tests/test_fastpath_film.py) against ``solve_plate`` +
    ``damping_stage`` at the same accuracy.
 
-Printed: table build time and FE points, median time of one fast evaluation, worst error per
+Printed: table build times (shape and cell tables) and FE points, the demo's time per
+``damping_outputs`` (wall and CPU, tables in memory; ``--profile`` for a cProfile listing),
+median time of one fast evaluation, worst error per
 output as a fraction of its limit (1e-3 relative or 0.01 dB; the cell table's CELL_TOL for
 outputs carrying the Stokes resistance) and the outputs above it.
 """
@@ -25,12 +27,42 @@ from pathlib import Path
 import numpy as np
 
 
+def _time_demo(demo, profile: bool) -> None:
+    """Wall and CPU time of one ``damping_outputs`` of the demo (tables in memory), median
+    of 3 × 20 calls; with ``profile`` the cProfile listing of one call."""
+    from diagap.extract import plate_problem
+    from diagap.fastpath.film import damping_outputs
+    from diagap.fem.plate.solver import solve_plate
+
+    mech = solve_plate(plate_problem(demo), accuracy=demo.analysis.accuracy)
+    outputs = {"mechanics.static_shape_area_m2": mech.static_shape_area_m2,
+               "mechanics.natural_frequencies_hz_1": float(mech.natural_frequencies_hz[0])}
+    damping_outputs(demo, outputs)
+    wall, cpu = [], []
+    for _ in range(3):
+        t, c = time.perf_counter(), time.process_time()
+        for _ in range(20):
+            damping_outputs(demo, outputs)
+        wall.append((time.perf_counter() - t) / 20)
+        cpu.append((time.process_time() - c) / 20)
+    print(f"demo damping_outputs: {1e3 * np.median(wall):.1f} ms wall, "
+          f"{1e3 * np.median(cpu):.1f} ms CPU per evaluation", flush=True)
+    if profile:
+        import cProfile
+        import pstats
+
+        prof = cProfile.Profile()
+        prof.runcall(damping_outputs, demo, outputs)
+        pstats.Stats(prof).sort_stats("cumtime").print_stats(15)
+
+
 def main() -> None:
     ap = argparse.ArgumentParser()
     ap.add_argument("--accuracy", default="normal")
     ap.add_argument("--designs", type=int, default=50)
     ap.add_argument("--workers", type=int, default=2)
     ap.add_argument("--seed", type=int, default=11)
+    ap.add_argument("--profile", action="store_true", help="cProfile one demo evaluation")
     args = ap.parse_args()
 
     sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
@@ -40,17 +72,20 @@ def main() -> None:
     from diagap.fastpath.film import damping_outputs
     from diagap.fastpath.refine import mapper_for
 
-    from diagap.fastpath.film import prepare_damping_tables
+    from diagap.fastpath.shape import shape_table
 
-    prepare_damping_tables(args.accuracy, mapper=mapper_for(args.workers))
-    for _ in range(1):
-        t = time.perf_counter()
-        table, facts = cell_table(args.accuracy, mapper=mapper_for(args.workers))
-        print(f"cell table {args.accuracy}: {time.perf_counter() - t:.1f} s (0 if cached), "
-              f"{facts['reference_points']} Stokes FE points, segments "
-              f"{[len(a.breaks) - 1 for a in table.axes]}, held-out error "
-              f"{dict(zip(table.names, np.round(table.held_out_error, 6)))}, "
-              f"uncertified {facts['uncertified']}", flush=True)
+    t = time.perf_counter()
+    shape, facts = shape_table(args.accuracy, mapper=mapper_for(args.workers))
+    print(f"shape table {args.accuracy}: {time.perf_counter() - t:.1f} s (0 if cached), "
+          f"{facts['reference_points']} plate FE points, held-out error "
+          f"{dict(zip(shape.names, np.round(shape.held_out_error, 6)))}", flush=True)
+    t = time.perf_counter()
+    table, facts = cell_table(args.accuracy, mapper=mapper_for(args.workers))
+    print(f"cell table {args.accuracy}: {time.perf_counter() - t:.1f} s (0 if cached), "
+          f"{facts['reference_points']} Stokes FE points, segments "
+          f"{[len(a.breaks) - 1 for a in table.axes]}, held-out error "
+          f"{dict(zip(table.names, np.round(table.held_out_error, 6)))}, "
+          f"uncertified {facts['uncertified']}", flush=True)
 
     # the Hagen–Poiseuille law with first-order Maxwell slip, Q = πr⁴Δp/(8μℓ)·(1 + 4λ/r)
     # (Karniadakis, Beskok & Aluru, Microflows and Nanoflows, Springer 2005, §4.1 [from memory]):
@@ -70,6 +105,7 @@ def main() -> None:
     err = errors(fast, full)
     print(f"demo fast summary: {len(fast)} damping outputs, worst {max(err.values()):.3f} of "
           f"its limit ({max(err, key=err.get)})")
+    _time_demo(demo, args.profile)
 
     rng = np.random.default_rng(args.seed)
     worst: dict = {}
