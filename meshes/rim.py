@@ -137,15 +137,34 @@ def _size_expr(geo: PairGeometry, sizes: MeshSizes) -> str:
     return out
 
 
+def _half_disk(gmsh, zc: float, R: float) -> list:
+    """The half disk x >= 0 of radius R about (0, zc), drawn from its arc and its chord on the
+    axis. (Cutting it from a full disk with a bounding rectangle, an OCC intersection, returns
+    nothing once R exceeds ~1.2e4 gap units — reached with a backplate thickness of ~300 gaps,
+    since R grows with the thickness.)"""
+    import math
+
+    occ = gmsh.model.occ
+    arc = occ.addCircle(0, zc, 0, R, angle1=-0.5 * math.pi, angle2=0.5 * math.pi)
+    occ.synchronize()
+    (_, start), (_, end) = gmsh.model.getBoundary([(1, arc)], oriented=False)
+    chord = occ.addLine(end, start)
+    surface = occ.addPlaneSurface([occ.addCurveLoop([arc, chord])])
+    occ.synchronize()
+    xmin, _, _, xmax, _, _ = gmsh.model.getBoundingBox(2, surface)
+    if not (xmin > -1e-6 * R and math.isclose(xmax, R, rel_tol=1e-6)):
+        raise ValueError(f"electrode pair: the half disk of radius {R!r} lies on the wrong side "
+                         f"of the axis")
+    return [(2, surface)]
+
+
 def _build(geo: PairGeometry, sizes: MeshSizes) -> dict:
     rl, ru, t, R = geo.lower_radius, geo.upper_radius, geo.thickness, geo.outer_radius
     zu, fl, fu = geo.upper_bottom, geo.lower_film, geo.upper_film
     zc = 0.5 * (zu + t)
     with gmsh_session("electrode-pair") as gmsh:
         occ = gmsh.model.occ
-        disk = occ.addDisk(0, zc, 0, R, R)
-        half = occ.addRectangle(0, zc - 1.5 * R, 0, 1.5 * R, 3 * R)
-        dom, _ = occ.intersect([(2, disk)], [(2, half)])
+        dom = _half_disk(gmsh, zc, R)
         tools = [(1, occ.addLine(occ.addPoint(0, 0, 0), occ.addPoint(rl, 0, 0)))]
         if t == 0:
             tools.append((1, occ.addLine(occ.addPoint(0, zu, 0), occ.addPoint(ru, zu, 0))))

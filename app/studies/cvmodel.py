@@ -152,6 +152,11 @@ class CVModel:
     def curve(self, values: dict, biases_v, level: int = -1) -> np.ndarray:
         """C_t (F) at the biases ``biases_v`` (V) for the free ``values`` (path → SI; missing
         paths take the design's values)."""
+        return self.curve_and_pull_in(values, biases_v, level)[0]
+
+    def curve_and_pull_in(self, values: dict, biases_v, level: int = -1):
+        """(C_t (F) at ``biases_v`` as :meth:`curve`, the pull-in voltage (V) of the same
+        branch): one trace gives both."""
         from scipy.interpolate import CubicSpline
         from scipy.optimize import brentq
 
@@ -172,7 +177,7 @@ class CVModel:
             else:
                 w = brentq(lambda x: lam_of(x) - target, w0[0], w0[-1], xtol=1e-14 * w0[-1])
                 out.append(float(cap_of(w)))
-        return np.array(out) + vals["electrical.parasitic_capacitance"]
+        return np.array(out) + vals["electrical.parasitic_capacitance"], math.sqrt(lam[-1])
 
     def discretisation_error(self, values: dict, biases_v) -> float | None:
         """Largest relative difference of the curve between the two mesh levels, plus the

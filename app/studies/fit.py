@@ -11,6 +11,11 @@ of a step — the start with its 2n neighbours, a Jacobian's 2n neighbours, a tr
 batch, computed in parallel on local processes or a Dask cluster and stored, so that a fit run
 again after an interruption replays them (:mod:`diagap.studies.fitrun`).
 
+Starts: the local fit runs from the best few of a coarse space-filling set of starts inside the
+bounds, evaluated as one batch, those whose model collapses within the data's bias range
+discarded (:mod:`diagap.studies.fitstart`); the end point of lowest misfit is the result and
+fit.json names the start it came from (``start_search``).
+
 Confidence intervals (asymptotic, Jacobian-based; Seber & Wild, Nonlinear Regression, 1989,
 sec. 5.1; Bates & Watts 1988, sec. 2.3): with J = ∂r/∂p at the optimum, s² = Σ r_j²/(m − n) and
 cov(p) = s² (JᵀJ)⁻¹, the 95 % interval of θ_i is θ_i ± t_{0.975, m−n} s_i √cov_ii (Student's t).
@@ -181,10 +186,18 @@ class _Residuals:
         self.trials = self.jacobians = 0
 
     def values(self, xs) -> list:
-        keys = [tuple(float(v) for v in x) for x in xs]
-        new = list(dict.fromkeys(k for k in keys if k not in self.raw))
+        """Outputs at the scaled points ``xs``; points whose SI values agree to 12 significant
+        digits are one evaluation, as in the study's log (:func:`diagap.studies.fitrun.set_key`)."""
+        from diagap.studies.fitrun import set_key
+
+        sets = [np.asarray(x, float) * self.scales for x in xs]
+        keys = [set_key(vs) for vs in sets]
+        new: dict = {}
+        for k, vs in zip(keys, sets):
+            if k not in self.raw:
+                new.setdefault(k, vs)
         if new:
-            for k, out in zip(new, self.evals.run([np.array(k) * self.scales for k in new])):
+            for k, out in zip(new, self.evals.run(list(new.values()))):
                 self.raw[k] = out
                 self._note(out)
         return [self.raw[k] for k in keys]
@@ -213,11 +226,21 @@ class _Residuals:
             pts += [up, down]
         return pts, pairs
 
-    def start(self, x) -> None:
-        """Evaluate the start and its Jacobian's neighbours in one batch."""
+    def start(self, *xs) -> None:
+        """Evaluate the starts and their Jacobians' neighbours in one batch."""
         self._where("start")
-        x = np.asarray(x, float)
-        self.values([x, *self._stencil(x)[0]])
+        pts = []
+        for x in xs:
+            x = np.asarray(x, float)
+            pts += [x, *self._stencil(x)[0]]
+        self.values(pts)
+
+    def search(self, points) -> list:
+        """Φ (sum of squared residuals; inf where the model failed) at ``points``, one batch."""
+        self._where("start search")
+        out = self.values(points)
+        return [math.inf if o[0] is None else float(self.vector(*o) @ self.vector(*o))
+                for o in out]
 
     def fun(self, x) -> np.ndarray:
         self.trials += 1
@@ -243,7 +266,8 @@ def _display(progress):
 
 def fit_cv(model, biases_v, capacitances_f, free=DEFAULT_FREE, *, start: dict | None = None,
            error_estimate: bool = True, response=None, response_model=None, out_dir=None,
-           workers: int | None = 1, scheduler=None, progress=False) -> FitResult:
+           workers: int | None = 1, scheduler=None, progress=False, starts: int | None = None,
+           local_fits: int | None = None) -> FitResult:
     """Fit the free design values ``free`` of ``model`` to a measured C–V curve (and optionally
     a measured frequency response).
 
@@ -255,7 +279,12 @@ def fit_cv(model, biases_v, capacitances_f, free=DEFAULT_FREE, *, start: dict | 
     free : sequence of str
         Free design values (:data:`diagap.studies.cvmodel.FREE_PATHS`).
     start : dict, optional
-        Starting values (default: the design's).
+        Starting values (default: the design's), one of the candidate starts.
+    starts : int, optional
+        Space-filling starts searched besides ``start`` (:mod:`diagap.studies.fitstart`; default
+        4 per free value; 0: the local fit runs from ``start`` alone).
+    local_fits : int, optional
+        Local fits run from the best starts (default 2); the lowest misfit wins.
     error_estimate : bool
         Also evaluate the model's discretisation error at the optimum (one coarser-mesh curve).
     response : (freqs_hz, level_db), optional
@@ -280,6 +309,7 @@ def fit_cv(model, biases_v, capacitances_f, free=DEFAULT_FREE, *, start: dict | 
 
     from diagap.studies.cvmodel import FREE_PATHS
     from diagap.studies.fitrun import FitEvaluations
+    from diagap.studies.fitstart import local_fits_from_starts
 
     paths = tuple(free)
     for p in paths:
@@ -307,9 +337,9 @@ def fit_cv(model, biases_v, capacitances_f, free=DEFAULT_FREE, *, start: dict | 
         cv = _Residuals(evals, scales, lo, hi, "C–V fit", display)
         cv.vector = lambda c, _: (c - C) / c_unit if c is not None else np.full(C.size, penalty)
         cv.describe = lambda r: f"best rms residual {c_unit * math.sqrt(r @ r / r.size):.3g} F"
-        cv.start(x0)
-        sol = least_squares(cv.fun, x0, jac=cv.jac, **opts)
-        extra, cv_weight, count = {}, c_unit, len(cv.raw)
+        sol, facts = local_fits_from_starts(cv, evals, x0, (lo, hi), V, starts, local_fits,
+                                            opts, (paths, scales, c_unit))
+        extra, cv_weight, count = {"start_search": facts}, c_unit, len(cv.raw)
         if response is not None:
             sol, cv_weight, extra, n = _joint(sol, cv.vector, c_unit, paths, evals, response,
                                               response_model, opts, (scales, lo, hi), display)
@@ -328,6 +358,10 @@ def fit_cv(model, biases_v, capacitances_f, free=DEFAULT_FREE, *, start: dict | 
     if hasattr(display, "close"):
         display.close()
     rms = float(np.sqrt(np.mean((fitted - C) ** 2)))
+    if facts.get("all_starts_collapse"):
+        warns = [*warns, f"the model collapses within the data's bias range (up to "
+                 f"{facts['max_bias_v']:g} V) at every start searched: check the data and the "
+                 f"bounds"]
     if err is not None and err * float(np.mean(np.abs(C))) > rms:
         warns = [*warns, f"the model's discretisation error ({err:.2g} relative) exceeds the "
                  f"rms residual: a finer --accuracy makes the fitted values more trustworthy"]

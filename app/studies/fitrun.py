@@ -25,7 +25,7 @@ import threading
 
 import numpy as np
 
-__all__ = ["CVPoint", "FitEvaluations", "model_for"]
+__all__ = ["CVPoint", "FitEvaluations", "model_for", "set_key"]
 
 _MODELS: dict = {}       # (design key, mesh) -> CVModel, per process
 _RESPONSES: dict = {}    # design key -> PipelineResponse, per process
@@ -45,6 +45,14 @@ def _remember(cache: dict, key, value) -> None:
         cache.pop(next(iter(cache)))
 
 
+def set_key(values) -> tuple:
+    """A parameter set's SI values rounded as in the ids of the study's log (12 significant
+    digits): sets with the same key are one evaluation."""
+    from diagap.sweep.spec import si_round
+
+    return tuple(si_round(float(v)) for v in values)
+
+
 def model_for(design, mesh: str, model=None):
     """The process's :class:`CVModel` of ``design`` on ``mesh`` (``model``: one to keep)."""
     key = (_design_key(design), mesh)
@@ -61,9 +69,9 @@ class CVPoint:
     """Picklable ``f(design) -> {"fit": {...}}``: the model curve (and level) of one parameter
     set, read from the free values of ``design``.
 
-    Outputs: ``c1 .. cm`` (F) at the biases, ``ok`` (False when the model cannot be evaluated
-    there, e.g. beyond its gap range or collapsed), and with frequencies ``db1 .. dbk`` and
-    ``response_ok``.
+    Outputs: ``c1 .. cm`` (F) at the biases, ``pull_in_v`` (V, the model's pull-in voltage),
+    ``ok`` (False when the model cannot be evaluated there, e.g. beyond its gap range or
+    collapsed), and with frequencies ``db1 .. dbk`` and ``response_ok``.
     """
 
     def __init__(self, base, mesh: str, paths, biases_v, freqs_hz=None, response_model=None):
@@ -79,7 +87,7 @@ class CVPoint:
         resp = None
         if self.freqs_hz is not None:
             resp = evaluator_tag(self.response_model) if self.response_model else "pipeline"
-        text = json.dumps([self.mesh, self.biases_v, self.freqs_hz, resp])
+        text = json.dumps([self.mesh, self.biases_v, self.freqs_hz, resp, "pull-in"])
         return "fit-cv-" + hashlib.sha256(text.encode()).hexdigest()[:16]
 
     def compute(self, values: dict) -> dict:
@@ -91,8 +99,9 @@ class CVPoint:
         out: dict = {"ok": True}
         try:
             with _LOCK:
-                c = model.curve(values, np.array(self.biases_v))
+                c, v_pi = model.curve_and_pull_in(values, np.array(self.biases_v))
             out.update({f"c{j + 1}": float(x) for j, x in enumerate(c)})
+            out["pull_in_v"] = float(v_pi)
         except (CoupledError, DesignError, ValueError):
             out["ok"] = False
         if self.freqs_hz is not None:
@@ -160,6 +169,7 @@ class FitEvaluations:
         self.progress = progress
         self.runner = None
         self.computed = 0
+        self.pull_in_v: dict = {}  # set_key of a parameter set -> the model's pull-in (V)
         self.point = CVPoint(model.design, self.mesh, self.paths, self.biases_v)
 
     def __enter__(self):
@@ -196,8 +206,10 @@ class FitEvaluations:
             from diagap.writer import json_ready
 
             self.computed += len(sets)
-            return [_arrays(flatten_summary(json_ready(
-                self.point.compute(dict(zip(self.paths, vs)))))[0], m, k) for vs in sets]
+            outputs = [flatten_summary(json_ready(self.point.compute(dict(zip(self.paths, vs)))))[0]
+                       for vs in sets]
+            self._note_pull_in(sets, outputs)
+            return [_arrays(o, m, k) for o in outputs]
         from diagap.sweep.spec import SweepError
 
         records = self.runner.run([tuple(zip(self.paths, vs)) for vs in sets])
@@ -208,4 +220,10 @@ class FitEvaluations:
                 raise SweepError(f"fit: the model could not be evaluated at "
                                  f"{rec.get('overrides')}: {rec.get('error')}")
             out.append(_arrays(rec.get("outputs", {}), m, k))
+        self._note_pull_in(sets, [rec.get("outputs", {}) for rec in records])
         return out
+
+    def _note_pull_in(self, sets, outputs) -> None:
+        for vs, o in zip(sets, outputs):
+            v = o.get("fit.pull_in_v") if o.get("fit.ok") else None
+            self.pull_in_v[set_key(vs)] = None if v is None else float(v)
