@@ -239,7 +239,8 @@ def coupled_outputs(design, outputs: dict, mapper=None) -> dict[str, float]:
         return {}
     b = design.backplate
     res = disk_coupled(plate_problem(design), b.electrode_size_m, b.gap_m,
-                       abs(effective_bias_v(design)), density)
+                       abs(effective_bias_v(design)), density,
+                       fe_accuracy=design.analysis.accuracy)
     data = res.to_summary()
     if design.electrical is None:
         data = {k: data[k] for k in ("pull_in_voltage_v", "pull_in_center_deflection_m")}
