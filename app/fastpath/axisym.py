@@ -152,8 +152,28 @@ class DiskSystem:
         for k in range(4):
             B[np.arange(loaded.size)[:, None], np.arange(QUAD)[None, :],
               ext[loaded, k][:, None]] = N[loaded, k, :]
-        return DiskSystem(nodes, tau, rho_e, K[:n, :n], M[:n, :n], Fp[:n],
-                          B.reshape(-1, n + 1)[:, :n], w[loaded].ravel())
+        return DiskSystem(nodes, tau, rho_e, K[:n, :n].copy(), M[:n, :n].copy(), Fp[:n].copy(),
+                          np.ascontiguousarray(B.reshape(-1, n + 1)[:, :n]), w[loaded].ravel())
+
+
+    def prolong(self, u: np.ndarray, nodes: np.ndarray) -> np.ndarray:
+        """The DOFs on this system's nodes of the Hermite function ``u`` on ``nodes`` (exact
+        when this mesh refines ``nodes``)."""
+        full = np.zeros(2 * len(nodes))  # (ŵ, ŵ') per node, constrained ones 0
+        idx = np.r_[0, np.arange(2, 2 * len(nodes) - 2)]
+        full[idx] = u
+        e = np.clip(np.searchsorted(nodes, self.nodes, side="right") - 1, 0, len(nodes) - 2)
+        h = nodes[e + 1] - nodes[e]
+        t = (self.nodes - nodes[e]) / h
+        t2, t3 = t * t, t * t * t
+        wa, da, wb, db = full[2 * e], full[2 * e + 1], full[2 * e + 2], full[2 * e + 3]
+        w = (wa * (1 - 3 * t2 + 2 * t3) + da * h * (t - 2 * t2 + t3) + wb * (3 * t2 - 2 * t3)
+             + db * h * (t3 - t2))
+        dw = (wa * (6 * t2 - 6 * t) / h + da * (1 - 4 * t + 3 * t2) + wb * (6 * t - 6 * t2) / h
+              + db * (3 * t2 - 2 * t))
+        out = np.empty(2 * len(self.nodes))
+        out[0::2], out[1::2] = w, dw
+        return out[np.r_[0, np.arange(2, 2 * len(self.nodes) - 2)]]
 
 
 class _NoConvergence(RuntimeError):
@@ -173,6 +193,9 @@ class DiskBranch:
     w_b: float | None = None
     mu_b: float | None = None
     c_b: float | None = None
+    nodes: np.ndarray | None = field(default=None, repr=False)
+    u_pi: np.ndarray | None = field(default=None, repr=False)
+    u_b: np.ndarray | None = field(default=None, repr=False)
 
 
 #: Newton stops at a relative increment below TOL, or below ROUNDOFF once the increments stop
@@ -273,12 +296,61 @@ def _fold(sv: _Solver, lo, hi, known: list):
     raise _NoConvergence("the pull-in fold search did not converge")
 
 
-def solve_branch(sys: DiskSystem, pi_hat, dpi_hat, beta_b: float | None) -> DiskBranch:
-    """Pull-in and the bias point β_b (None: pull-in only) of the scaled disk ``sys`` with the
-    load π̂(s), dπ̂/ds (vectorised callables of the scaled local gap s)."""
-    from scipy.optimize import brentq
+def _from_start(sv: _Solver, sys: DiskSystem, start: DiskBranch):
+    """Branch points bracketing the fold, from the fold of a coarser mesh (``start``): Newton at
+    its ŵ0 from its solution, then steps of 1e-4 gap (doubling) to the other side."""
+    p = sv.at_w0(start.w_pi, sys.prolong(start.u_pi, start.nodes), start.beta_pi)
+    pts = [(start.w_pi, p[1], p[0], *sv.slope(p[1], p[0], p[2]))]
+    step = 1e-4 if pts[0][3] > 0 else -1e-4
+    while (pts[-1][3] > 0) == (pts[0][3] > 0):
+        q = pts[-1]
+        if abs(q[0] - start.w_pi) > 0.05:
+            raise _NoConvergence("the coarse fold is far from this mesh's fold")
+        u, beta, J = sv.at_w0(q[0] + step, q[2] + step * q[4], q[1] + step * q[3])
+        pts.append((q[0] + step, beta, u, *sv.slope(beta, u, J)))
+        step *= 2
+    return sorted(pts[-2:], key=lambda q: q[0]), pts
 
+
+def solve_branch(sys: DiskSystem, pi_hat, dpi_hat, beta_b: float | None,
+                 start: DiskBranch | None = None) -> DiskBranch:
+    """Pull-in and the bias point β_b (None: pull-in only) of the scaled disk ``sys`` with the
+    load π̂(s), dπ̂/ds (vectorised callables of the scaled local gap s). ``start``: the result of
+    a coarser mesh (its fold and bias point start the searches; the full trace if they fail)."""
     sv = _Solver(sys, pi_hat, dpi_hat)
+    if start is not None and start.nodes is not None:
+        try:
+            (lo, hi), known = _from_start(sv, sys, start)
+            w_pi, u_pi, beta_pi = _fold(sv, lo, hi, known)
+            u_b = None
+            if beta_b is not None and start.u_b is not None and beta_b < beta_pi:
+                u_b = sv.at_beta(beta_b, sys.prolong(start.u_b, start.nodes))
+                if not 0.0 <= u_b[0] < w_pi:
+                    raise _NoConvergence("left the stable branch")
+            return _finish(sys, sv, w_pi, u_pi, beta_pi, beta_b, u_b, known)
+        except (_NoConvergence, np.linalg.LinAlgError):
+            pass
+    return _trace(sys, sv, beta_b)
+
+
+def _finish(sys, sv, w_pi, u_pi, beta_pi, beta_b, u_b, known):
+    """The result from the fold and (if found, else searched on ``known``) the bias point."""
+    mu0 = float(eigh(sys.K, sys.M, subset_by_index=[0, 0], eigvals_only=True)[0])
+    c0 = float(solve(sys.K, sys.Fp, assume_a="pos")[0])
+    out = dict(beta_pi=float(beta_pi), w_pi=float(w_pi), mu0=mu0, c0=c0, nodes=sys.nodes,
+               u_pi=u_pi)
+    if beta_b is None or beta_b >= beta_pi:
+        return DiskBranch(**out)
+    if u_b is None:
+        u_b = _bias(sv, beta_b, w_pi, known)
+    J = sv.tangent(beta_b, u_b)
+    mu_b = float(eigh(J, sys.M, subset_by_index=[0, 0], eigvals_only=True)[0])
+    c_b = float(solve(J, sys.Fp)[0])
+    return DiskBranch(**out, w_b=float(u_b[0]), mu_b=mu_b, c_b=c_b, u_b=u_b)
+
+
+def _trace(sys: DiskSystem, sv: _Solver, beta_b) -> DiskBranch:
+    """The branch from rest in steps of ``STEP``, the fold inside the bracketing step."""
     n = sv.n
     u = np.zeros(n)
     a0 = solve(sys.K, sv.force(u), assume_a="pos")
@@ -293,13 +365,16 @@ def solve_branch(sys: DiskSystem, pi_hat, dpi_hat, beta_b: float | None) -> Disk
         pts.append((w0, beta, u, *sv.slope(beta, u, J)))
     known = list(pts)
     w_pi, u_pi, beta_pi = _fold(sv, pts[-2], pts[-1], known)
-    mu0 = float(eigh(sys.K, sys.M, subset_by_index=[0, 0], eigvals_only=True)[0])
-    c0 = float(solve(sys.K, sys.Fp, assume_a="pos")[0])
-    out = dict(beta_pi=float(beta_pi), w_pi=float(w_pi), mu0=mu0, c0=c0)
-    if beta_b is None or beta_b >= beta_pi:
-        return DiskBranch(**out)
+    return _finish(sys, sv, w_pi, u_pi, beta_pi, beta_b, None, known)
+
+
+def _bias(sv: _Solver, beta_b: float, w_pi: float, known: list) -> np.ndarray:
+    """The stable equilibrium at β_b: Newton in u from the branch points ``known``, else
+    Brent's method on β(ŵ0) − β_b over the stable part."""
+    from scipy.optimize import brentq
+
     if beta_b == 0.0:
-        u_b = np.zeros(n)
+        u_b = np.zeros(sv.n)
     else:
         stable = [q for q in known if q[0] <= w_pi]
         below = max((q for q in stable if q[1] <= beta_b), key=lambda q: q[0])
@@ -319,9 +394,6 @@ def solve_branch(sys: DiskSystem, pi_hat, dpi_hat, beta_b: float | None) -> Disk
                 cache["p"] = (w, bb, uu, *sv.slope(bb, uu, JJ))
                 return bb - beta_b
 
-            w = brentq(resid, below[0], w_hi, xtol=1e-14, rtol=1e-13)
+            brentq(resid, below[0], w_hi, xtol=1e-14, rtol=1e-13)
             u_b = sv.at_beta(beta_b, cache["p"][2])
-    J = sv.tangent(beta_b, u_b)
-    mu_b = float(eigh(J, sys.M, subset_by_index=[0, 0], eigvals_only=True)[0])
-    c_b = float(solve(J, sys.Fp)[0])
-    return DiskBranch(**out, w_b=float(u_b[0]), mu_b=mu_b, c_b=c_b)
+    return u_b

@@ -145,6 +145,18 @@ def electrode_polygon(problem, electrode_size_m: float, accuracy: str | None) ->
     return electrode_size_m * math.sqrt(n * math.sin(2 * math.pi / n) / (2 * math.pi))
 
 
+_CONTROLLER: list = []
+
+
+def _one_thread():
+    """A context limiting BLAS to one thread (the threadpool controller made once: ~20 ms)."""
+    from threadpoolctl import ThreadpoolController
+
+    if not _CONTROLLER:
+        _CONTROLLER.append(ThreadpoolController())
+    return _CONTROLLER[0].limit(limits=1)
+
+
 def disk_coupled(problem, electrode_size_m: float, gap_m: float, bias_voltage_v: float,
                  density=None, levels=LEVELS, fe_accuracy: str | None = None) -> CoupledDisk:
     """Pull-in and the bias point of a clamped circular ``problem``
@@ -175,8 +187,11 @@ def disk_coupled(problem, electrode_size_m: float, gap_m: float, bias_voltage_v:
     volt2 = 2.0 * D * gap_m**3 / (eps0 * a**4)  # V² per unit β
     beta_b = bias_voltage_v**2 / volt2
     pi_hat, dpi_hat = _scaled_load(density, gap_m)
-    res = [solve_branch(DiskSystem.build(disk_nodes(rho_e, tau, k), tau, rho_e), pi_hat, dpi_hat,
-                        beta_b) for k in levels]
+    res: list = []
+    with _one_thread():  # small dense kernels: BLAS threads only add contention
+        for k in levels:  # each finer level starts from the coarser one's fold and bias point
+            res.append(solve_branch(DiskSystem.build(disk_nodes(rho_e, tau, k), tau, rho_e),
+                                    pi_hat, dpi_hat, beta_b, res[-1] if res else None))
     omega = D / (problem.areal_density * a**4)  # ω² per unit μ
 
     def si(r):
