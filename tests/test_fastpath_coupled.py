@@ -125,7 +125,7 @@ def test_matches_the_coupled_fe_on_the_same_load(draft_base):
     """The stage's FE (same PlateProblem, electrode, gap, bias and load) within 1e-3; the demo
     with its perforated cell's c(g) (as the electrostatics stage builds it), others with solid
     parallel plates (slack, compressive and tensioned, electrode radius 0.5 … 1.0 of the
-    diaphragm's)."""
+    diaphragm's), and the demo at "normal" (whose coupled FE runs on the "draft" meshes)."""
     from diagap.extract import plate_problem
     from diagap.fem.coupling.plate import solve_coupled
     from diagap.fem.field.cell_table import capacitance_density_table
@@ -139,11 +139,12 @@ def test_matches_the_coupled_fe_on_the_same_load(draft_base):
     cases = [(draft_base, demo_density, 10.0)] + [
         (with_overrides(draft_base, c), None, v) for c, v in zip(_designs(),
                                                                  (2.0, 6.0, 40.0))]
+    cases = [(d, dens, v, "draft") for d, dens, v in cases] + [(draft_base, None, 10.0, "normal")]
     worst = 0.0
-    for design, density, bias in cases:
+    for design, density, bias, acc in cases:
         p, b = plate_problem(design), design.backplate
-        fe = solve_coupled(p, "draft", b.electrode_size_m, b.gap_m, bias, density)
-        fast = disk_coupled(p, b.electrode_size_m, b.gap_m, bias, density, fe_accuracy="draft")
+        fe = solve_coupled(p, acc, b.electrode_size_m, b.gap_m, bias, density)
+        fast = disk_coupled(p, b.electrode_size_m, b.gap_m, bias, density, fe_accuracy=acc)
         assert not fe.collapsed and not fast.collapsed
         for q in QUANTITIES:
             assert getattr(fast, q) == pytest.approx(getattr(fe, q), rel=TOL, abs=0), (q, p)
