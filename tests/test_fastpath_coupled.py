@@ -206,9 +206,13 @@ def test_fast_summary_matches_the_pipeline(draft_base):
 
     electrostatics_outputs(draft_base, mapper_for())  # builds the cell and rim tables
     rng = np.random.default_rng(20261203)
-    for design in [draft_base] + [random_design(rng, draft_base) for _ in range(4)]:
+    for k, design in enumerate([draft_base] + [random_design(rng, draft_base) for _ in range(4)]):
+        if k > 1:  # the bias at 0.6 of pull-in (the design's own may be beyond it)
+            v_pi = fast_summary(design)["coupled.pull_in_voltage_v"]
+            design = with_overrides(design, {"electrical.bias_voltage": 0.6 * v_pi})
         fast = {k: v for k, v in fast_summary(design).items() if k.startswith("coupled.")}
         full, _ = flatten_summary(run_design(design).summary())
-        assert "coupled.softened_stiffness_n_per_m" in fast
+        if not fast["coupled.collapsed"]:
+            assert "coupled.softened_stiffness_n_per_m" in fast
         for key, value in fast.items():
             assert value == pytest.approx(float(full[key]), rel=TOL, abs=0), (key, design)
