@@ -207,7 +207,8 @@ def test_fast_summary_matches_the_pipeline(draft_base):
     electrostatics_outputs(draft_base, mapper_for())  # builds the cell and rim tables
     rng = np.random.default_rng(20261203)
     for k, design in enumerate([draft_base] + [random_design(rng, draft_base) for _ in range(4)]):
-        if k > 1:  # the bias at 0.6 of pull-in (the design's own may be beyond it)
+        if k > 1:  # the bias at 0.6 of pull-in; the first random design keeps its own 10 V,
+            # beyond its pull-in (4.0 V): the collapsed outputs are compared too
             v_pi = fast_summary(design)["coupled.pull_in_voltage_v"]
             design = with_overrides(design, {"electrical.bias_voltage": 0.6 * v_pi})
         fast = {k: v for k, v in fast_summary(design).items() if k.startswith("coupled.")}
