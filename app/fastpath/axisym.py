@@ -177,7 +177,7 @@ class DiskSystem:
 
 
 class _NoConvergence(RuntimeError):
-    pass
+    """No equilibrium found (Newton, the fold search, or a local gap outside the load's range)."""
 
 
 @dataclass(frozen=True)
@@ -217,7 +217,10 @@ class _Solver:
         gap = 1.0 - self.s.B @ u
         if np.any(gap <= 0.0):
             raise _NoConvergence("the diaphragm touches the backplate")
-        return self.BT @ (self.s.W * self.pi(gap))
+        try:
+            return self.BT @ (self.s.W * self.pi(gap))
+        except ValueError as exc:  # a local gap outside the c(ĝ) fit's range
+            raise _NoConvergence(str(exc)) from exc
 
     def tangent(self, beta, u):
         gap = 1.0 - self.s.B @ u

@@ -259,6 +259,7 @@ def coupled_outputs(design, outputs: dict, mapper=None) -> dict[str, float]:
     """
     from diagap.dielectrics import effective_bias_v
     from diagap.extract import plate_problem
+    from diagap.fastpath import FastPathUnavailable
     from diagap.fastpath.field import check_covered, field_objects
 
     check_covered(design)
@@ -266,9 +267,12 @@ def coupled_outputs(design, outputs: dict, mapper=None) -> dict[str, float]:
     if "perforation_factor" in skip:  # the load itself is uncertified
         return {}
     b = design.backplate
-    res = disk_coupled(plate_problem(design), b.electrode_size_m, b.gap_m,
-                       abs(effective_bias_v(design)), density,
-                       fe_accuracy=design.analysis.accuracy)
+    try:
+        res = disk_coupled(plate_problem(design), b.electrode_size_m, b.gap_m,
+                           abs(effective_bias_v(design)), density,
+                           fe_accuracy=design.analysis.accuracy)
+    except RuntimeError as exc:  # as the stage's CoupledError: no answer, never a guess
+        raise FastPathUnavailable(f"coupled: the radial solve failed ({exc})") from exc
     data = res.to_summary()
     if design.electrical is None:
         data = {k: data[k] for k in ("pull_in_voltage_v", "pull_in_center_deflection_m")}
