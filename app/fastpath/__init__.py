@@ -95,9 +95,9 @@ def fast_summary(design, box=None, *, mapper=None, **table_options) -> dict[str,
         A design and bounds of varied values containing ``design``: all numeric outputs of the
         mechanics, electrostatics, coupled, damping and response sections. Without a box: the
         ``mechanics`` outputs of the diaphragm from the scaled tables (built on first use), and
-        its ``electrostatics`` and ``damping`` outputs where the scaled cell, rim and film
-        tables cover the design (:mod:`diagap.fastpath.field`, :mod:`diagap.fastpath.film`;
-        left out otherwise). Those tables take minutes to build: they are built with an
+        its ``electrostatics``, ``coupled`` and ``damping`` outputs where the scaled cell, rim
+        and film tables cover the design (:mod:`diagap.fastpath.field`,
+        :mod:`diagap.fastpath.coupled`, :mod:`diagap.fastpath.film`; left out otherwise). Those tables take minutes to build: they are built with an
         explicit ``mapper`` (or :func:`prepare_tables`), else only read.
     mapper : callable, optional
         How table points are computed when a table is built
@@ -119,9 +119,11 @@ def fast_summary(design, box=None, *, mapper=None, **table_options) -> dict[str,
     """
     if box is None:
         out = _plate_outputs(design, mapper)
+        from diagap.fastpath.coupled import covered_coupled_outputs
         from diagap.fastpath.film import covered_damping_outputs
 
         out.update(_field_outputs(design, mapper))
+        out.update(covered_coupled_outputs(design, out, mapper))
         out.update(covered_damping_outputs(design, out, mapper))
         return out
     from diagap.fastpath.study import box_coordinates, study_table
