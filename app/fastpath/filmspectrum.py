@@ -107,7 +107,7 @@ class _System:
         ab = blocks.transpose(1, 0, 2).reshape(5, nf * n)  # corners of each block are zero
         rhs = np.tile(self.load, nf).astype(complex)
         sol = solve_banded((2, 2), ab, rhs, check_finite=False).reshape(nf, n)
-        return sol @ self.load
+        return (sol * self.load).sum(axis=1)  # not BLAS gemv: slow for this size
 
 
 class FilmSpectrum:

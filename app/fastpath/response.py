@@ -17,7 +17,11 @@ b (low frequency)                           ``damping.damping_n_s_per_m``
 b(f), k(f) of the film on φ_s               the radial P2 film (:mod:`diagap.fastpath.filmspectrum`)
                                             with the hole resistance of the Stokes cell table
                                             at "normal" accuracy (the stage's film takes the
-                                            cell solve at "normal" whatever the design's)
+                                            cell solve at "normal" whatever the design's; where
+                                            that table is not built, the design's own table:
+                                            at "draft" the draft Stokes cell differs by ≈1e-3,
+                                            which moves Q by ≈8e-4 and the film noise by
+                                            ≈0.004 dB, within the targets)
 air, package, bias circuit                  closed forms (as the stage)
 ==========================================  ===================================================
 
@@ -54,6 +58,9 @@ __all__ = ["response_outputs", "covered_response_outputs", "fast_lumped_model", 
 NEEDED = ("mechanics.static_shape_stiffness_n_per_m", "mechanics.static_shape_mass_kg",
           "mechanics.static_shape_area_m2", "coupled.bias_center_deflection_m",
           "damping.damping_n_s_per_m")
+#: the accuracy of the Stokes cell behind the stage's film table (whatever the design's:
+#: :func:`diagap.extract.film_coefficients` calls the perforation at its default)
+FILM_CELL_ACCURACY = "normal"
 #: outputs of the packaged section that need the large deflection when the harmonic balance
 #: does not reach 10 % THD
 _OVERLOAD = ("capsule_aop_db_spl", "aop_db_spl", "dynamic_range_db")
@@ -145,7 +152,7 @@ def fast_lumped_model(design, outputs: dict, device, shape,
         bias_voltage_v=effective_bias_v(design), gap_m=b.gap_m,
         parasitic_capacitance_f=e.parasitic_capacitance_f,
         preamp_input_capacitance_f=e.preamp_input_capacitance_f,
-        capacitance_curve=tuple((float(v), float(device(v))) for v in xs),
+        capacitance_curve=tuple(zip(xs.tolist(), np.asarray(device(xs), float).tolist())),
         film_damping=film, bias_displacement_m=x_b, air_density_kg_m3=air.density_kg_per_m3,
         sound_speed_m_s=air.speed_of_sound_m_per_s, static_pressure_pa=ac.static_pressure_pa,
         gamma=air.heat_capacity_ratio, temperature_k=ac.temperature_k,
@@ -184,7 +191,8 @@ def _shape(design, tau: float, mapper):
 
 
 def _hole_resistance(design, mapper) -> float | None:
-    """Per-hole resistance of the stage's film: the cell table at "normal" accuracy."""
+    """Per-hole resistance of the stage's film: the cell table at "normal" accuracy, else (not
+    built) the table of the design's own accuracy (module docstring)."""
     from diagap.fem.air import air_properties
 
     from diagap.fastpath.film import _cell
@@ -192,7 +200,13 @@ def _hole_resistance(design, mapper) -> float | None:
     if design.backplate.hole_lattice == "none":
         return None
     air = air_properties(*design.air_conditions)
-    return _cell(design.with_accuracy("normal"), air, mapper)["resistance_per_hole_pa_s_per_m3"]
+    key = "resistance_per_hole_pa_s_per_m3"
+    try:
+        return _cell(design.with_accuracy(FILM_CELL_ACCURACY), air, mapper)[key]
+    except FastPathUnavailable:
+        if design.analysis.accuracy == FILM_CELL_ACCURACY:
+            raise
+        return _cell(design, air, mapper)[key]
 
 
 def response_outputs(design, outputs: dict, mapper=None) -> dict[str, float]:
