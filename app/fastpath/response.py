@@ -14,7 +14,8 @@ C(x) on φ_s; C0 = C(x_b), C'(x_b)           the device of the scaled cell and r
 k_e = ½V²C''(x_b)                           :func:`diagap.stages.electrostatic_spring` on that
                                             device, over :func:`diagap.stages._curve_points`
 b (low frequency)                           ``damping.damping_n_s_per_m``
-b(f), k(f) of the film on φ_s               the radial P2 film (:mod:`diagap.fastpath.filmspectrum`)
+b(f), k(f) of the film on φ_s               the radial P2 film
+                                            (:mod:`diagap.fastpath.filmspectrum`)
                                             with the hole resistance of the Stokes cell table
                                             at "normal" accuracy (the stage's film takes the
                                             cell solve at "normal" whatever the design's; where
@@ -52,7 +53,8 @@ import numpy as np
 
 from diagap.fastpath import FastPathUnavailable
 
-__all__ = ["response_outputs", "covered_response_outputs", "fast_lumped_model", "NEEDED"]
+__all__ = ["response_outputs", "covered_response_outputs", "fast_lumped_model", "model_outputs",
+           "NEEDED", "FILM_CELL_ACCURACY"]
 
 #: flat outputs the response needs from the other sections
 NEEDED = ("mechanics.static_shape_stiffness_n_per_m", "mechanics.static_shape_mass_kg",
@@ -80,13 +82,6 @@ def _check(design, outputs: dict) -> None:
         if outputs.get(key) is None:
             raise FastPathUnavailable(f"{key}: needed by the response (allowed: the fast "
                                       "mechanics, coupled and damping outputs)")
-
-
-def _tension_ratio(design) -> float:
-    d = design.diaphragm
-    nu = d.poisson_ratio
-    bend = d.youngs_modulus_pa * d.thickness_m**3 / (12.0 * (1.0 - nu * nu))
-    return d.residual_stress_pa * d.thickness_m * d.size_m**2 / bend
 
 
 def fast_lumped_model(design, outputs: dict, device, shape,
@@ -122,7 +117,7 @@ def fast_lumped_model(design, outputs: dict, device, shape,
     from diagap.stages import (Section, _curve_points, _package, _piston_radius, _rim_points,
                                electrode_quadrature, electrostatic_spring)
 
-    from diagap.fastpath.film import SPECTRUM_HZ
+    from diagap.fastpath.film import SPECTRUM_HZ, _tension_ratio
     from diagap.fastpath.filmspectrum import film_spectrum
 
     d, b, e, ac = design.diaphragm, design.backplate, design.electrical, design.acoustics
@@ -146,7 +141,8 @@ def fast_lumped_model(design, outputs: dict, device, shape,
         mass_kg=float(outputs["mechanics.static_shape_mass_kg"]),
         area_m2=float(outputs["mechanics.static_shape_area_m2"]),
         damping_n_s_per_m=float(outputs["damping.damping_n_s_per_m"]),
-        back_volume_m3=ac.back_volume_m3, vent_resistance_pa_s_per_m3=ac.vent_resistance_pa_s_per_m3,
+        back_volume_m3=ac.back_volume_m3,
+        vent_resistance_pa_s_per_m3=ac.vent_resistance_pa_s_per_m3,
         rest_capacitance_f=float(device(x_b)), capacitance_slope_f_per_m=float(device.slope(x_b)),
         bias_resistance_ohm=bias_leg_resistance_ohm(design),
         bias_voltage_v=effective_bias_v(design), gap_m=b.gap_m,
@@ -235,6 +231,7 @@ def response_outputs(design, outputs: dict, mapper=None) -> dict[str, float]:
         output.
     """
     from diagap.fastpath.field import field_objects
+    from diagap.fastpath.film import _tension_ratio
 
     _check(design, outputs)
     _, device, skipped = field_objects(design, mapper)
