@@ -196,21 +196,23 @@ def _shape(design, tau: float, mapper):
 
 def _hole_resistance(design, mapper) -> float | None:
     """Per-hole resistance of the stage's film: the cell table at "normal" accuracy, else (not
-    built) the table of the design's own accuracy (module docstring)."""
+    built: it is only read here for a design of another accuracy, never built) the table of the
+    design's own accuracy (module docstring)."""
     from diagap.fem.air import air_properties
 
+    from diagap.fastpath import read_only
     from diagap.fastpath.film import _cell
 
     if design.backplate.hole_lattice == "none":
         return None
     air = air_properties(*design.air_conditions)
     key = "resistance_per_hole_pa_s_per_m3"
-    try:
-        return _cell(design.with_accuracy(FILM_CELL_ACCURACY), air, mapper)[key]
-    except FastPathUnavailable:
-        if design.analysis.accuracy == FILM_CELL_ACCURACY:
-            raise
-        return _cell(design, air, mapper)[key]
+    if design.analysis.accuracy != FILM_CELL_ACCURACY:
+        try:
+            return _cell(design.with_accuracy(FILM_CELL_ACCURACY), air, read_only)[key]
+        except FastPathUnavailable:
+            pass
+    return _cell(design, air, mapper)[key]
 
 
 def response_outputs(design, outputs: dict, mapper=None) -> dict[str, float]:
