@@ -71,6 +71,8 @@ NEEDED = ("mechanics.static_shape_stiffness_n_per_m", "mechanics.static_shape_ma
 #: the accuracy of the Stokes cell behind the stage's film table (whatever the design's:
 #: :func:`diagap.extract.film_coefficients` calls the perforation at its default)
 FILM_CELL_ACCURACY = "normal"
+#: cell tables found unbuilt in this process (not looked up again)
+_UNBUILT: set = set()
 #: outputs of the packaged section that need the large deflection when the harmonic balance
 #: does not reach 10 % THD
 _OVERLOAD = ("capsule_aop_db_spl", "aop_db_spl", "dynamic_range_db")
@@ -207,11 +209,12 @@ def _hole_resistance(design, mapper) -> float | None:
         return None
     air = air_properties(*design.air_conditions)
     key = "resistance_per_hole_pa_s_per_m3"
-    if design.analysis.accuracy != FILM_CELL_ACCURACY:
+    if design.analysis.accuracy != FILM_CELL_ACCURACY and FILM_CELL_ACCURACY not in _UNBUILT:
         try:
             return _cell(design.with_accuracy(FILM_CELL_ACCURACY), air, read_only)[key]
-        except FastPathUnavailable:
-            pass
+        except FastPathUnavailable as exc:
+            if "not been built" in str(exc):  # a disk look-up of ~30 ms: once per process
+                _UNBUILT.add(FILM_CELL_ACCURACY)
     return _cell(design, air, mapper)[key]
 
 
