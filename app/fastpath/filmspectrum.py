@@ -126,13 +126,15 @@ class FilmSpectrum:
     tension_ratio : float
         τ = σha²/D (only for the mesh grading at the clamped edge).
     f_max_hz : float
-        Highest frequency the rim zone of the mesh resolves.
+        Highest frequency the rim zone of the mesh resolves (the largest |c| over
+        [1 Hz, f_max] and at 0 sets δ).
     """
 
     def __init__(self, coef, electrode_radius_m: float, shape, eps: float,
                  tension_ratio: float = 0.0, f_max_hz: float = 1.0e5):
         self.coef, self.L, self.eps = coef, float(electrode_radius_m), float(eps)
-        c_max = abs(self._c(2.0 * math.pi * f_max_hz))
+        c_max = max(abs(self._c(2.0 * math.pi * f))
+                    for f in np.append(np.geomspace(1.0, f_max_hz, 11), 0.0))
         layer = 1.0 / math.sqrt(max(c_max, self.eps**2 * max(tension_ratio, 0.0), 1.0))
         self.layer = layer
 
