@@ -250,7 +250,9 @@ def _random_design(rng):
 @pytest.mark.tables
 def test_fast_summary_response_matches_pipeline():
     """~5 random clamped circles: ``fast_summary``'s response outputs against the pipeline.
-    Where the fast path has no coupled section yet, the pipeline's coupled outputs are fed in."""
+    Where the fast path has no coupled section yet, the pipeline's coupled outputs are fed in.
+    Builds every "draft" table on first use (the flow-cell table of the damping: thousands of
+    Stokes solves, hours on two busy cores)."""
     from diagap.fastpath import fast_summary
     from diagap.fastpath.refine import mapper_for
     from diagap.fastpath.response import covered_response_outputs
