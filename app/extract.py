@@ -17,9 +17,10 @@ def plate_problem(design: Design):
                         edge=d.edge)
 
 
-def film_coefficients(design, air):
+def film_coefficients(design, air, hole_resistance_pa_s_per_m3: float | None = None):
     """The film of ``design`` for :mod:`fem.response` (rarefied viscosity, hole resistance from
-    :func:`fem.film.perforation.perforation`, hole and film inertance)."""
+    :func:`fem.film.perforation.perforation`, hole and film inertance); a given
+    ``hole_resistance_pa_s_per_m3`` (per hole) is used instead of the Stokes cell solve."""
     from diagap.fem.film.perforation import film_viscosity, perforation
     from diagap.fem.response.film import FilmCoefficients, hole_inertance
 
@@ -27,10 +28,16 @@ def film_coefficients(design, air):
     g = b.gap_m
     holes = {}
     if b.hole_lattice != "none":
-        perf = perforation(b.hole_lattice, b.hole_radius_m, b.hole_pitch_m, b.thickness_m, g,
-                           air.viscosity_pa_s, air.mean_free_path_m)
-        holes = dict(holes_per_m2=perf.holes_per_m2,
-                     hole_resistance_pa_s_per_m3=perf.resistance_pa_s_per_m3,
+        if hole_resistance_pa_s_per_m3 is None:
+            perf = perforation(b.hole_lattice, b.hole_radius_m, b.hole_pitch_m, b.thickness_m,
+                               g, air.viscosity_pa_s, air.mean_free_path_m)
+            n_h, z_h = perf.holes_per_m2, perf.resistance_pa_s_per_m3
+        else:
+            from diagap.fem.film.perforation import lattice_cell_area
+
+            n_h = 1.0 / lattice_cell_area(b.hole_pitch_m, b.hole_lattice)
+            z_h = float(hole_resistance_pa_s_per_m3)
+        holes = dict(holes_per_m2=n_h, hole_resistance_pa_s_per_m3=z_h,
                      hole_inertance_kg_per_m4=hole_inertance(air.density_kg_per_m3,
                                                              b.hole_radius_m, b.thickness_m))
     return FilmCoefficients(

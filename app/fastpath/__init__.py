@@ -125,6 +125,9 @@ def fast_summary(design, box=None, *, mapper=None, **table_options) -> dict[str,
         out.update(_field_outputs(design, mapper))
         out.update(covered_coupled_outputs(design, out, mapper))
         out.update(covered_damping_outputs(design, out, mapper))
+        from diagap.fastpath.response import covered_response_outputs
+
+        out.update(covered_response_outputs(design, out, mapper))
         return out
     from diagap.fastpath.study import box_coordinates, study_table
 
