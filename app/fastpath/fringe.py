@@ -45,9 +45,8 @@ OVERHANG_CAP = 30.0
 #: Validated range of the rim table: the diaphragm radius over the gap (strictly above the
 #: solver's large-pair threshold MODEL_GAPS; no upper limit, the size law is analytic) and the
 #: backplate electrode thickness over the gap (thin MEMS electrodes, t/g ≈ 0.2, to thick
-#: condenser plates, t/g = 100; the solver's pair mesh fails from local t/g ≈ 300, i.e. design
-#: t/g ≈ 150 with its smallest sample at half the gap). The overhang ratio k is covered whole
-#: (0 to OVERHANG_CAP).
+#: condenser plates, t/g = 100; the stage itself now solves pairs up to t/g = 1000, the table
+#: stops at 100). The overhang ratio k is covered whole (0 to OVERHANG_CAP).
 RIM_RANGE = {
     "diaphragm_radius_over_gap": (MODEL_GAPS, math.inf),
     "thickness_over_gap": (0.05, 100.0),
