@@ -17,10 +17,12 @@ Two ways to get them:
 
 The fast path is tried unless ``exact=True``; a design outside its tables, or a requested path
 that the tables do not cover, falls back to the exact path; :func:`evaluate_with_path` says
-which one answered. Without a study box the fast path covers the ``mechanics`` outputs only (the
-scaled diaphragm table); with a :class:`diagap.fastpath.StudyBox` (the bounds of the values a
-study varies) it covers every numeric output of the mechanics to response sections that its
-table certifies. A requested path that the design does not produce (e.g. the sensitivity of a
+which one answered. Without a study box the fast path reads the global tables
+(:func:`diagap.fastpath.fast_summary`): the ``mechanics`` outputs of every diaphragm in their
+range and, for clamped circular diaphragms over a rigid backplate, the electrostatics, coupled,
+damping and response outputs where the global tables have been built (``diagap tables``); with
+a :class:`diagap.fastpath.StudyBox` (the bounds of the values a study varies) it covers every
+numeric output of the mechanics to response sections that the box's table certifies. A requested path that the design does not produce (e.g. the sensitivity of a
 collapsed design, biased at or above pull-in) is NaN.
 """
 from __future__ import annotations
@@ -156,7 +158,7 @@ def evaluate_with_path(design, keys: Iterable[str], *, exact: bool = False, box=
         Run the full FE pipeline even when the fast tables cover the design.
     box : diagap.fastpath.StudyBox, optional
         The study box whose table answers (all sections up to the response); without it the
-        fast path covers the ``mechanics`` outputs only.
+        global tables answer (module docstring).
     build : bool
         Build a missing box table here (False: a missing table means the exact path).
     table_options : dict, optional

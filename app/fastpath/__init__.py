@@ -1,6 +1,7 @@
 """Summary outputs of a design in milliseconds, from tables certified against the full FE.
 
-Two kinds of table (:mod:`diagap.fastpath.grid`, built by :mod:`diagap.fastpath.refine`, cached
+Two kinds of table (global ones, listed by :mod:`diagap.fastpath.catalog` and built by
+``diagap tables``, and study boxes; :mod:`diagap.fastpath.grid`, built by :mod:`diagap.fastpath.refine`, cached
 on disk by :mod:`diagap.fastpath.store`):
 
 - the scaled diaphragm (:mod:`diagap.fastpath.plate`): a disk or square, clamped or simply
@@ -13,6 +14,14 @@ on disk by :mod:`diagap.fastpath.store`):
   factor depends on (a/p, t/p, g/p) per lattice and the rim of a large pair on its overhang and
   thickness in gaps, so two tables per accuracy give the ``electrostatics`` outputs of clamped
   circular diaphragms over a validated range of hole patterns, gaps and electrodes;
+- the Stokes flow cell of the perforation and the film's static-shape correction
+  (:mod:`diagap.fastpath.flowcell`, :mod:`diagap.fastpath.shape`, used by the radial film of
+  :mod:`diagap.fastpath.film`): the ``damping`` outputs of the same diaphragms;
+- on top of these, reduced solves without tables of their own: the ``coupled`` section by a
+  radial Hermite FE of the axisymmetric diaphragm under the electrostatic load of the tabulated
+  c(g) (:mod:`diagap.fastpath.coupled`), and the ``response`` section by the stage's own lumped
+  model built of the fast pieces (:mod:`diagap.fastpath.response`); their reduction error
+  against the 2-D FE is measured and stated in those modules;
 - the summary over a study box (:mod:`diagap.fastpath.study`): every numeric output of the
   mechanics, electrostatics, coupled, damping and response sections of one design, over bounds
   of a few of its design values; each table point is a full FE analysis.
