@@ -19,10 +19,11 @@ References:
   (G. Karniadakis, A. Beskok, N. Aluru, Microflows and Nanoflows, Springer 2005, §4.1
   [from memory]): the resistance added per length of a long hole.
 
-The checks that need the perforation-cell table (a build of 7751 Stokes solves, minutes on two
-cores, too long for the suite's fresh cache) are in tests/bench/bench_fastpath_film.py: random
-designs and the demo's fast summary against the full stage, and the slip Hagen–Poiseuille
-check of long holes.
+The checks that need the perforation-cell table (a build of some 10⁴ Stokes solves, tens of
+minutes on two cores, too long for the suite's fresh cache) are marked ``tables`` (20 random
+designs against the full stage, run with ``pytest -m tables``) or in
+tests/bench/bench_fastpath_film.py: more random designs, the demo's fast summary and its time
+per evaluation, and the slip Hagen–Poiseuille check of long holes.
 """
 from __future__ import annotations
 

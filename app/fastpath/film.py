@@ -41,9 +41,9 @@ A-weighted noise level reads (it interpolates b(f) on 20 Hz … 20 kHz, so the p
 to 25.1 kHz; the level is the one of the whole spectrum, bit for bit), points below the flat
 limit are the static value, and the radial film solves each frequency with one tridiagonal
 LAPACK call on meshes built once per design (:mod:`diagap.fastpath.radial`). One evaluation of
-the demo at "draft" with the tables in memory: 4.7 ms of CPU (13.8 ms before these changes,
-values equal to 2e-14), 25–35 ms wall on the shared two-core machine at a load of 10
-(tests/bench/bench_fastpath_film.py).
+the demo at "draft" with the tables in memory: 4.7 ms of CPU for the film (13.8 ms before these
+changes, values equal to 2e-14) and ≈ 0.5 ms for the cell-table lookup; 25–35 ms wall (before:
+90–120 ms) on the shared two-core machine at a load of 10 (tests/bench/bench_fastpath_film.py).
 
 Not given by the fast path: the error estimates of the stage (``*_relative_uncertainty``), the
 b(f), k(f) curve (a nested list, not a flat output), texts; the resonance outputs of a design
@@ -73,8 +73,10 @@ _GROUP_FIELDS = {
 }
 #: largest held-out error of the cell table's resistance (relative) for which it is used. The
 #: table is refined to 1e-3 (:mod:`diagap.fastpath.flowcell`); at "draft" (Stokes cell level
-#: 0.35) it ends at 8.4e-4 at its worst held-out point, the Stokes FE scattering by ≤ 1.7e-4
-#: from one geometry's mesh to the next (tests/bench/bench_fastpath_film.py)
+#: 0.35, the FE scattering by ≤ 1.7e-4 from one geometry's mesh to the next) the table with one
+#: segment on the hole-radius axis ended at 8.4e-4 at its worst held-out point, and 20 random
+#: designs against the full stage: 18 within 1e-3, worst 1.24e-3 (cut-off), 1.22e-3 (hole
+#: resistance), 1.15e-3 (damping), from that axis, which now starts with two segments
 CELL_TOL = 1e-3
 # below this |σ̂|/λ₁ the spectrum equals b(0) to ~(|σ̂|/λ₁)² < 1e-8
 _FLAT = 1e-4
