@@ -42,8 +42,12 @@ def cold(tmp_path_factory):
     with pytest.MonkeyPatch.context() as mp:
         mp.setenv("DIAGAP_CACHE_DIR", str(folder))
         mp.setattr(cache, "_STATE", {**cache._STATE, "enabled": True})
+        from diagap.fem.plate.shared import clear_shared_plates
+
+        clear_shared_plates()  # a cold run: no plates kept in memory by earlier tests
         values = _values(design)
     entries = sorted(p.name for p in folder.glob("*.npz"))
+    assert any(n.startswith("disk-") for n in entries)
     assert any(n.startswith("cell-table-solution-") for n in entries)
     assert any(n.startswith("electrode-pair-solution-") for n in entries)
     return folder, design, values
@@ -86,6 +90,9 @@ def test_damaged_entries_are_rebuilt_and_results_equal_a_cold_run(cold, damage, 
         damage(path)
     monkeypatch.setenv("DIAGAP_CACHE_DIR", str(work))
     monkeypatch.setattr(cache, "_STATE", {**cache._STATE, "enabled": True, "warned": False})
+    from diagap.fem.plate.shared import clear_shared_plates
+
+    clear_shared_plates()  # as a new process: the plates come from the (damaged) cache
     with caplog.at_level(logging.INFO, logger=LOGGER):
         values = _values(design)
     assert values.keys() == reference.keys()
