@@ -211,7 +211,21 @@ def field_objects(design, mapper=None):
     c(g) fit (:func:`density_from_table`, the coupled solve's load), its C(x) on the static
     shape (:class:`~diagap.fem.field.device.DeviceCapacitance`, called with centre
     displacements in m) and the outputs an uncertified table leaves out. Raises :class:`~diagap.fastpath.FastPathUnavailable` as
-    :func:`electrostatics_outputs`."""
+    :func:`electrostatics_outputs`. The last design's objects are kept: the electrostatics,
+    coupled and response pieces of one summary share them."""
+    last = _LAST_FIELD.get("entry")
+    if last is not None and last[0] is design and last[1] is mapper:
+        return last[2]
+    out = _field_objects(design, mapper)
+    _LAST_FIELD["entry"] = (design, mapper, out)
+    return out
+
+
+#: (design, mapper, objects) of the last :func:`field_objects` call
+_LAST_FIELD: dict = {}
+
+
+def _field_objects(design, mapper):
     from diagap.fem.field.device import device_capacitance
 
     from diagap.fastpath.cells import cell_table
