@@ -28,7 +28,7 @@ from diagap.studies.tolerance import parse_tolerances, run_tolerance
 
 TOLERANCES = {
     "inputs": {"diaphragm.thickness": "normal 5 %", "backplate.gap": "uniform 10 %",
-               "diaphragm.residual_stress": "normal 2 MPa"},
+               "diaphragm.residual_stress": "normal 1 MPa"},
     "spec": ["response.sensitivity_db_v_per_pa = -46 +- 1", "coupled.bias_margin <= 0.5",
              "coupled.resonance_at_bias_hz >= 20 kHz"],
 }
