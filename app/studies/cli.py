@@ -108,6 +108,7 @@ def _cmd_tolerance(args) -> int:
                                               ("seed", args.seed)) if v is not None})
     res = run_tolerance(design, spec, Path(args.out), exact=args.exact, workers=args.workers,
                         scheduler=args.scheduler, progress=not args.no_progress)
+    _table_note(res.tables)
     doc = res.to_json()
     files = [("tolerance.json", lambda p: p.write_text(json_text(doc), encoding="utf-8")),
              ("samples.csv", lambda p: _samples_csv(p, res))]
@@ -124,6 +125,13 @@ def _cmd_tolerance(args) -> int:
     print(f"yield: {doc['yield']:.1%}" + ("" if spec.limits else " (no spec limits given)"))
     print(f"outputs written to {Path(args.out)}/")
     return 0
+
+
+def _table_note(tables) -> None:
+    """Say on stderr why a study ran without its fast table (the points ran the full FE)."""
+    if tables and not tables.get("used") and tables.get("reason"):
+        print(f"diagap: note: fast table not used, points ran the full FE: {tables['reason']}",
+              file=sys.stderr)
 
 
 def _samples_csv(path, res) -> None:
@@ -151,6 +159,7 @@ def _cmd_optimise(args) -> int:
         spec = replace(spec, starts=args.starts)
     res = run_optimise(design, spec, Path(args.out), exact=args.exact, workers=args.workers,
                        scheduler=args.scheduler, progress=not args.no_progress)
+    _table_note(res.tables)
     doc = res.to_json()
     other = spec.constraints[0].path if spec.constraints else spec.objective
     write_study_files(Path(args.out), [

@@ -107,12 +107,20 @@ def prepare_tables(design, keys, ranges, *, exact: bool = False, workers: int | 
     t0 = time.perf_counter()
     try:
         box = StudyBox(design, tuple((p, float(lo), float(hi)) for p, lo, hi in ranges))
-        study_table(box, mapper=mapper_for(workers, client), **options)
+        table, facts = study_table(box, mapper=mapper_for(workers, client), **options)
     except Exception as exc:  # noqa: BLE001 - any failure of the table means exact evaluations
         reason = f"{type(exc).__name__}: {exc}".splitlines()[0]
         log.warning("study table not available, every point runs the full FE (%s)", reason)
         return KeyEvaluator(keys, False), TableBuild(False, time.perf_counter() - t0, reason)
     seconds = time.perf_counter() - t0
+    skip = set(facts.get("uncertified", ()))
+    missing = [k for k in keys if k not in table.names or k in skip]
+    if missing:  # e.g. the box holds designs biased beyond pull-in: no response there
+        reason = (f"the table over the box has no certified {', '.join(missing)} (a corner of "
+                  "the box may collapse at its bias, or the output is not a number there); "
+                  "every point runs the full FE: narrow the box to get the fast path")
+        log.warning("study table incomplete: %s", reason)
+        return KeyEvaluator(keys, False), TableBuild(False, seconds, reason)
     log.info("study table over %s ready in %.1f s", ", ".join(box.paths), seconds)
     return (KeyEvaluator(keys, False, box, tuple(sorted(options.items()))),
             TableBuild(True, seconds))
