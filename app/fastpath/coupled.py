@@ -90,19 +90,22 @@ class CoupledDisk:
     rel_error: dict = field(default_factory=dict)
 
     def to_summary(self) -> dict:
-        """The stage's numeric summary entries (as :meth:`CoupledResult.to_summary`)."""
-        out = {"pull_in_voltage_v": self.pull_in_voltage_v,
-               "pull_in_center_deflection_m": self.pull_in_center_deflection_m,
-               "bias_voltage_v": self.bias_voltage_v,
-               "bias_margin": self.bias_voltage_v / self.pull_in_voltage_v,
-               "collapsed": float(self.collapsed)}
-        if not self.collapsed:
-            out.update({
-                "bias_center_deflection_m": self.bias_center_deflection_m,
-                "resonance_at_bias_hz": self.resonance_at_bias_hz,
-                "center_compliance_at_bias_m_per_pa": self.center_compliance_at_bias_m_per_pa,
-                "softening_factor": (self.center_compliance_no_bias_m_per_pa
-                                     / self.center_compliance_at_bias_m_per_pa)})
+        """The stage's numeric summary entries: :meth:`CoupledResult.to_summary` of the same
+        values, without the branch list and with ``collapsed`` as 0.0 / 1.0."""
+        from diagap.fem.coupling.plate import CoupledResult
+
+        out = CoupledResult(
+            pull_in_voltage_v=self.pull_in_voltage_v,
+            pull_in_center_deflection_m=self.pull_in_center_deflection_m,
+            bias_voltage_v=self.bias_voltage_v, collapsed=self.collapsed,
+            bias_center_deflection_m=self.bias_center_deflection_m,
+            resonance_at_bias_hz=self.resonance_at_bias_hz,
+            resonance_no_bias_hz=self.resonance_no_bias_hz,
+            center_compliance_at_bias_m_per_pa=self.center_compliance_at_bias_m_per_pa,
+            center_compliance_no_bias_m_per_pa=self.center_compliance_no_bias_m_per_pa,
+        ).to_summary()
+        out.pop("branch", None)
+        out["collapsed"] = float(self.collapsed)
         return out
 
 
