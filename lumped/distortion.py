@@ -29,9 +29,16 @@ N doubles until the upper half of the harmonics carries less than 1e-4 of the TH
 direct integration of the same equations with ``scipy.integrate.solve_ivp`` (DOP853), started
 from the linear steady state and run until the transients have decayed.
 
-THD = √(Σ_{n≥2}|V_n|²)/|V_1| of the output voltage (ratio to the fundamental).  A scan stops when
-the centre displacement leaves the sampled C(x) range (the curve is not known beyond it; it ends
-short of the backplate, where C diverges) or Newton fails; the reason is reported.
+THD = √(Σ_{n≥2}|V_n|²)/|V_1| of the output voltage (ratio to the fundamental).  A scan over SPL
+continues each solution from the one below it; it stops when the centre displacement leaves the
+sampled C(x) range (the curve is not known beyond it; it ends short of the backplate, where C
+diverges) or Newton fails; the reason is reported.  The default scan is the 2 dB grid 60 … 160 dB,
+passing over grid levels only while THD < 0.1 % (the nearly linear range; which levels are
+solved: :func:`distortion_vs_spl`).  The SPL where THD first reaches 1 % (10 %) lies in the
+first step of the scan across the level (2 dB by default); there Brent's method (``scipy.optimize.brentq``)
+finds the root of g(L) = ln(THD(L)/level) to 1e-4 dB — g is nearly linear in L, since THD grows
+like a power of the pressure, so a few solves suffice — each trial continued from the nearest
+solution below it.
 """
 from __future__ import annotations
 
@@ -41,6 +48,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 from scipy.integrate import solve_ivp
+from scipy.optimize import brentq
 
 from diagap.fem.constants import P_REF_PA
 from diagap.lumped.circuit import NonlinearTransducer, solve_circuit
@@ -348,37 +356,68 @@ def _limit(model: LumpedModel, curve: CapacitanceCurve, sol: HarmonicSolution) -
     return None
 
 
-def _crossing(model, f_hz, level, sols, kw) -> float | None:
-    """SPL where THD first reaches ``level``: bracket on the scan, then bisection on HB."""
+def _crossing(model, f_hz, level, sols, pool, kw) -> float | None:
+    """SPL where THD first reaches ``level``: the first bracket of the scan with
+    THD(L0) < level ≤ THD(L1), then Brent's method (``scipy.optimize.brentq``, xtol 1e-4 dB) on
+    g(L) = ln(THD(L)/level), nearly linear in L because THD grows like a power of the pressure.
+
+    Every trial solve starts from the solved point of ``pool`` (the scan and earlier trials)
+    with the highest SPL below the trial level, so the continuation keeps to the branch the scan
+    followed upward; the trial's solution joins ``pool``.
+    """
     for s0, s1 in zip(sols[:-1], sols[1:]):
         if s0.thd < level <= s1.thd:
-            lo, hi, start = s0.spl_db, s1.spl_db, s0
-            for _ in range(40):
-                mid = 0.5 * (lo + hi)
-                s = harmonic_balance(model, mid, f_hz, initial=start, **kw)
-                if s.thd < level:
-                    lo, start = mid, s
+            def g(spl):
+                if spl <= s0.spl_db:
+                    s = s0
+                elif spl >= s1.spl_db:
+                    s = s1
                 else:
-                    hi = mid
-                if hi - lo < 1e-4:
-                    break
-            return 0.5 * (lo + hi)
+                    start = max((p for p in pool if p.spl_db < spl), key=lambda p: p.spl_db)
+                    s = harmonic_balance(model, spl, f_hz, initial=start, **kw)
+                    pool.append(s)
+                return math.log(max(s.thd, 1e-300) / level)
+
+            return float(brentq(g, s0.spl_db, s1.spl_db, xtol=_CROSSING_XTOL_DB))
     return None
+
+
+#: the crossing's tolerance (dB)
+_CROSSING_XTOL_DB = 1e-4
+#: THD below which the default scan may pass over levels of its 2 dB grid
+_SKIP_BELOW_THD = 1e-3
+#: a pass-over aims at this THD, at most this share of the C(x) room left on either side of the
+#: bias point, and at most this many dB
+_SKIP_AIM_THD, _SKIP_ROOM, _SKIP_MAX_DB = 5e-4, 0.5, 40.0
 
 
 def distortion_vs_spl(model: LumpedModel, frequency_hz: float = 1000.0, spl_db=None,
                       **kw) -> DistortionResult:
     """THD versus SPL by harmonic balance with continuation, and the 1 % / 10 % points.
 
-    ``spl_db`` defaults to 60 … 160 dB in 2 dB steps; keywords go to :func:`harmonic_balance`.
-    The scan stops at the first SPL whose solution touches the backplate, leaves the C(x)
-    range or does not converge; thresholds not reached by then are None (see ``limit_reason``).
+    ``spl_db``: the levels to solve, in increasing order, each one solved (continuation from
+    the previous one).  By default the grid 60, 62, …, 160 dB, of which the levels solved are:
+    60 dB; then, while the last solved THD is below 0.1 %, the highest grid level within all of
+    (a) the SPL where the THD extrapolated as a power of the pressure reaches 0.05 % (exponent
+    from the last two solved points, at least 1 (THD ∝ p)), (b) the SPL where the excursion,
+    scaled ∝ p, reaches half the C(x) range left on either side of the bias point, and
+    (c) +40 dB; every grid level from the first solved THD ≥ 0.1 % on.  A passed-over stretch
+    whose end does not converge, leaves the C(x) range or has THD ≥ 0.1 % is not kept: the scan
+    goes back to every 2 dB level from the last kept point, so the level where the scan stops
+    and every point with THD ≥ 0.1 % (hence the crossings' brackets) are those of the full 2 dB
+    grid.  The returned arrays hold the solved levels only.
+
+    The scan stops at the first SPL whose solution leaves the C(x) range (it ends short of the
+    backplate) or does not converge; thresholds not reached by then are None (see
+    ``limit_reason``).  The crossings are found by :func:`_crossing`.  Keywords go to
+    :func:`harmonic_balance`.
     """
-    levels = np.arange(60.0, 160.0 + 1e-9, 2.0) if spl_db is None else np.asarray(spl_db, float)
+    skip = spl_db is None
+    levels = np.arange(60.0, 160.0 + 1e-9, 2.0) if skip else np.asarray(spl_db, float)
     key = (id(model), kw.get("readout_nonlinear", True), kw.get("force_nonlinear", True))
     _scan_state.update(key=key, es=NonlinearTransducer(model, key[1], key[2]), lops={})
     try:
-        return _scan(model, frequency_hz, levels, kw)
+        return _scan(model, frequency_hz, levels, kw, skip)
     finally:
         _scan_state.clear()
 
@@ -387,22 +426,50 @@ def distortion_vs_spl(model: LumpedModel, frequency_hz: float = 1000.0, spl_db=N
 _scan_state: dict = {}
 
 
-def _scan(model: LumpedModel, frequency_hz: float, levels, kw) -> DistortionResult:
-    curve = _scan_state["es"].curve
-    sols, reason, prev = [], None, None
-    for spl in levels:
+def _skip_to(levels, i, sols, es) -> int:
+    """Index of the highest level from ``levels[i]`` on that the scan may go to directly from its
+    last solution (``i`` itself when no level may be passed over); see
+    :func:`distortion_vs_spl`."""
+    s, curve = sols[-1], es.curve
+    k = math.log(10.0) / 20.0
+    if len(sols) > 1 and s.thd > 0 and sols[-2].thd > 0:
+        k = max(k, math.log(s.thd / sols[-2].thd) / (s.spl_db - sols[-2].spl_db))
+    room = min(curve.x_max_m - es.xb, es.xb - curve.x_min_m)
+    amp = max(s.peak_displacement_m - es.xb, es.xb - s.min_displacement_m)
+    step = _SKIP_MAX_DB
+    if s.thd > 0:
+        step = min(step, math.log(_SKIP_AIM_THD / s.thd) / k)
+    if amp > 0:
+        step = min(step, 20.0 * math.log10(_SKIP_ROOM * room / amp))
+    j = i
+    while j + 1 < len(levels) and levels[j + 1] <= s.spl_db + step + 1e-9:
+        j += 1
+    return j
+
+
+def _scan(model: LumpedModel, frequency_hz: float, levels, kw, skip) -> DistortionResult:
+    es = _scan_state["es"]
+    sols, reason, i = [], None, 0
+    while i < len(levels):
+        prev = sols[-1] if sols else None
+        j = _skip_to(levels, i, sols, es) if skip and sols else i
         try:
-            s = harmonic_balance(model, float(spl), frequency_hz, initial=prev, **kw)
+            s = harmonic_balance(model, float(levels[j]), frequency_hz, initial=prev, **kw)
+            bad = _limit(model, es.curve, s)
         except ConvergenceError as exc:
-            reason = str(exc)
-            break
-        reason = _limit(model, curve, s)
-        if reason is not None:
+            s, bad = None, str(exc)
+        if j > i and (bad is not None or s.thd >= _SKIP_BELOW_THD):
+            skip = False  # back to every level from the last kept solution
+            continue
+        if bad is not None:
+            reason = bad
             break
         sols.append(s)
-        prev = s
-    x1 = _crossing(model, frequency_hz, 0.01, sols, kw)
-    x10 = _crossing(model, frequency_hz, 0.10, sols, kw)
+        skip = skip and s.thd < _SKIP_BELOW_THD
+        i = j + 1
+    pool = list(sols)
+    x1 = _crossing(model, frequency_hz, 0.01, sols, pool, kw)
+    x10 = _crossing(model, frequency_hz, 0.10, sols, pool, kw)
     if sols and sols[0].thd >= 0.01:
         reason = f"THD is above 1 % already at the lowest SPL {sols[0].spl_db:.1f} dB"
     elif x10 is None and reason is None:
