@@ -162,7 +162,7 @@ def evaluate_with_path(design, keys: Iterable[str], *, exact: bool = False, box=
     build : bool
         Build a missing box table here (False: a missing table means the exact path).
     table_options : dict, optional
-        ``tol``, ``nodes``, ``max_splits``, ``validate`` of the box table
+        ``tol``, ``nodes``, ``max_nodes``, ``validate``, ``distributed`` of the box table
         (:func:`diagap.fastpath.study_table`); they select which cached table is read.
 
     Returns

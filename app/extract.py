@@ -19,8 +19,9 @@ def plate_problem(design: Design):
 
 def film_coefficients(design, air, hole_resistance_pa_s_per_m3: float | None = None):
     """The film of ``design`` for :mod:`fem.response` (rarefied viscosity, hole resistance from
-    :func:`fem.film.perforation.perforation`, hole and film inertance); a given
-    ``hole_resistance_pa_s_per_m3`` (per hole) is used instead of the Stokes cell solve."""
+    :func:`fem.film.perforation.perforation` at the design's ``analysis.accuracy``, as in the
+    damping stage, hole and film inertance); a given ``hole_resistance_pa_s_per_m3`` (per hole)
+    is used instead of the Stokes cell solve."""
     from diagap.fem.film.perforation import film_viscosity, perforation
     from diagap.fem.response.film import FilmCoefficients, hole_inertance
 
@@ -30,7 +31,8 @@ def film_coefficients(design, air, hole_resistance_pa_s_per_m3: float | None = N
     if b.hole_lattice != "none":
         if hole_resistance_pa_s_per_m3 is None:
             perf = perforation(b.hole_lattice, b.hole_radius_m, b.hole_pitch_m, b.thickness_m,
-                               g, air.viscosity_pa_s, air.mean_free_path_m)
+                               g, air.viscosity_pa_s, air.mean_free_path_m,
+                               accuracy=design.analysis.accuracy)
             n_h, z_h = perf.holes_per_m2, perf.resistance_pa_s_per_m3
         else:
             from diagap.fem.film.perforation import lattice_cell_area

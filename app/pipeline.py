@@ -257,19 +257,23 @@ def _timed_wait(result: RunResult, on_wait, busy) -> None:
         result.timings_s["while_waiting"] = time.perf_counter() - t0
 
 
-def response_step(result: RunResult, design: Design, mech, es, cp, damp) -> None:
+def response_step(result: RunResult, design: Design, mech, es, cp, damp, *,
+                  reference: bool = True) -> None:
     """The response stage of ``result`` from the sections before it: the lumped model, the
-    distributed reference (none for a compliant backplate: the reference has a rigid one), the
-    readout and the response scope. Every caller that stops after the response (the full run,
+    distributed reference (none for a compliant backplate: the reference has a rigid one; none
+    with ``reference=False``, for study tables that need none of
+    :data:`diagap.response_stage.DISTRIBUTED_OUTPUTS`), the readout and the response scope.
+    Every caller that stops after the response (the full run,
     :func:`diagap.evaluate.exact_summary`, the study tables) runs this one step."""
     from diagap.stages import lumped_model, response_stage
 
     model = lumped_model(design, mech, es, cp, damp)
-    dist = response_inputs(design, es.objects["density"], es.objects["rim"],
-                           damp.objects["air"])
+    dist = None
     if design.backplate.plate is not None:  # the distributed reference has a rigid backplate
-        dist = None
         result.skipped["response.distributed"] = SKIP_REASONS["compliant_backplate"]
+    elif reference:
+        dist = response_inputs(design, es.objects["density"], es.objects["rim"],
+                               damp.objects["air"])
     _stage(result, "response", response_stage, model, result.summary()["uncertainty"],
            dist, design.analysis.accuracy, readout=design.readout, scope=response_scope(design))
 

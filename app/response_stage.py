@@ -12,10 +12,8 @@ import math
 
 import numpy as np
 
-from diagap.stages import Section
-
 __all__ = ["response_stage", "distributed_section", "READOUT_SOURCES",
-           "DISTRIBUTED_FREQUENCIES_HZ"]
+           "DISTRIBUTED_FREQUENCIES_HZ", "DISTRIBUTED_OUTPUTS", "is_distributed_output"]
 
 
 def _response_uncertainty(unc: dict) -> dict:
@@ -37,6 +35,21 @@ READOUT_SOURCES = ("readout", "bias_supply")
 #: frequencies of the distributed reference solve (Hz): 30 log-spaced from 10 Hz to 100 kHz and
 #: the 1 kHz reference
 DISTRIBUTED_FREQUENCIES_HZ = np.sort(np.append(np.logspace(1.0, 5.0, 30), 1000.0))
+
+#: the ``response`` keys that only the distributed reference gives (:func:`distributed_section`)
+DISTRIBUTED_OUTPUTS = (
+    "distributed_sensitivity_db_v_per_pa", "reduction_error_db", "distributed_dofs",
+    "distributed_response", "distributed_peak_frequency_hz", "distributed_peak_db_v_per_pa",
+    "lumped_peak_frequency_hz", "lumped_peak_db_v_per_pa", "reduction_error_peak_frequency",
+    "reduction_error_peak_db")
+
+
+def is_distributed_output(path: str) -> bool:
+    """True for a summary path (``response.KEY``, list entries ``KEY_1`` …) that only the
+    distributed reference gives."""
+    section, _, key = path.partition(".")
+    return section == "response" and any(key == k or key.startswith(k + "_")
+                                         for k in DISTRIBUTED_OUTPUTS)
 
 
 def _voltage_peak(freqs, evaluate):
@@ -110,6 +123,7 @@ def response_stage(model, fe_uncertainty: dict | None = None, distributed=None,
     from diagap.lumped.distortion import distortion_vs_spl
     from diagap.lumped.response import analyse_response
     from diagap.package_design import package_response_data
+    from diagap.stages import Section
 
     resp = analyse_response(model)
     f = resp.response.frequency_hz

@@ -262,7 +262,9 @@ def _film_table(design: Design, mech, air, sq):
     from diagap.lumped.model import FilmTable
 
     b, d = design.backplate, design.diaphragm
-    coef = film_coefficients(design, air)
+    perf = sq.perforation  # the damping stage's hole resistance, not a second cell solve
+    coef = film_coefficients(design, air,
+                             None if perf is None else perf.resistance_pa_s_per_m3)
     f = np.asarray(sq.frequencies_hz, float)
     scale = b.electrode_size_m if d.shape == "circle" else 0.5 * b.electrode_size_m
     layer = film_layer(coef, scale, F_MAX_HZ)

@@ -112,7 +112,7 @@ def gap_box(draft_disk_design):
 
 
 #: small table options for the default suite (the benchmark uses the defaults)
-SMALL = {"nodes": 4, "max_splits": 1, "validate": 2}
+SMALL = {"nodes": 3, "max_nodes": 5, "validate": 2}
 KEY_OUTPUTS = ("response.sensitivity_db_v_per_pa", "response.noise_dba_spl",
                "coupled.pull_in_voltage_v", "electrostatics.rest_capacitance_f",
                "coupled.resonance_at_bias_hz", "damping.damping_n_s_per_m",

@@ -62,7 +62,8 @@ def _stage_shape(design, mech):
 
 
 def _stage_hole_resistance(design):
-    """The stage film's per-hole resistance (the Stokes cell at "normal")."""
+    """The stage film's per-hole resistance (the Stokes cell at the design's accuracy, as in
+    the damping stage)."""
     from diagap.fem.air import air_properties
     from diagap.fem.film.perforation import perforation
 
@@ -71,7 +72,8 @@ def _stage_hole_resistance(design):
         return None
     air = air_properties(*design.air_conditions)
     return perforation(b.hole_lattice, b.hole_radius_m, b.hole_pitch_m, b.thickness_m, b.gap_m,
-                       air.viscosity_pa_s, air.mean_free_path_m).resistance_pa_s_per_m3
+                       air.viscosity_pa_s, air.mean_free_path_m,
+                       accuracy=design.analysis.accuracy).resistance_pa_s_per_m3
 
 
 def _pipeline(design):

@@ -112,7 +112,7 @@ def fast_summary(design, box=None, *, mapper=None, **table_options) -> dict[str,
         How table points are computed when a table is built
         (:func:`diagap.fastpath.refine.mapper_for`: local processes or a Dask client).
     **table_options
-        ``tol``, ``nodes``, ``max_splits``, ``validate`` of :func:`study_table`.
+        ``tol``, ``nodes``, ``max_nodes``, ``validate``, ``distributed`` of :func:`study_table`.
 
     Returns
     -------
@@ -127,16 +127,16 @@ def fast_summary(design, box=None, *, mapper=None, **table_options) -> dict[str,
         design that differs from the box's design in a value the box does not vary.
     """
     if box is None:
-        out = _plate_outputs(design, mapper)
-        from diagap.fastpath.coupled import covered_coupled_outputs
+        from diagap.fastpath.coupled import _one_thread, covered_coupled_outputs
         from diagap.fastpath.film import covered_damping_outputs
-
-        out.update(_field_outputs(design, mapper))
-        out.update(covered_coupled_outputs(design, out, mapper))
-        out.update(covered_damping_outputs(design, out, mapper))
         from diagap.fastpath.response import covered_response_outputs
 
-        out.update(covered_response_outputs(design, out, mapper))
+        with _one_thread():  # small dense kernels (harmonic balance): BLAS threads only add
+            out = _plate_outputs(design, mapper)  # contention
+            out.update(_field_outputs(design, mapper))
+            out.update(covered_coupled_outputs(design, out, mapper))
+            out.update(covered_damping_outputs(design, out, mapper))
+            out.update(covered_response_outputs(design, out, mapper))
         return out
     from diagap.fastpath.study import box_coordinates, study_table
 

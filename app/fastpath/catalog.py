@@ -125,18 +125,28 @@ def table_status(accuracy: str, mapper=None, *, build: bool = True, names=None,
     on_table : callable, optional
         Called with each table's status as soon as it is known (progress).
     """
-    import numpy as np
-
-    from diagap.fastpath import FastPathUnavailable
-    from diagap.fastpath.refine import mapper_for
+    from diagap.fastpath.refine import close_mapper, mapper_for
 
     catalog = _catalog()
     names = tuple(catalog) if names is None else tuple(names)
     unknown = [n for n in names if n not in catalog]
     if unknown:
         raise ValueError(f"table {unknown[0]!r}: unknown; allowed: {', '.join(catalog)}")
-    if build and mapper is None:
+    owned = build and mapper is None
+    if owned:
         mapper = mapper_for()
+    try:
+        return _statuses(catalog, names, accuracy, mapper, build, on_table)
+    finally:
+        if owned:
+            close_mapper(mapper)
+
+
+def _statuses(catalog, names, accuracy, mapper, build, on_table) -> list:
+    import numpy as np
+
+    from diagap.fastpath import FastPathUnavailable
+
     out = []
     for name in names:
         counting = _Counting(mapper if build else None)

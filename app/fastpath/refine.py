@@ -32,7 +32,8 @@ import numpy as np
 
 from diagap.fastpath.grid import Axis, TensorTable, scaled_error
 
-__all__ = ["build_table", "local_mapper", "dask_mapper", "serial_mapper", "mapper_for"]
+__all__ = ["build_table", "local_mapper", "dask_mapper", "serial_mapper", "mapper_for",
+           "LocalMapper", "close_mapper"]
 
 log = logging.getLogger(__name__)
 
@@ -42,14 +43,54 @@ def serial_mapper(func: Callable, points: Sequence) -> list:
     return [func(p) for p in points]
 
 
-def local_mapper(workers: int) -> Callable:
-    """A mapper over ``workers`` local processes (spawned, so gmsh and BLAS start clean)."""
-    def run(func, points):
-        if workers <= 1 or len(points) <= 1:
+class LocalMapper:
+    """A mapper over ``workers`` local processes (spawned, so gmsh starts clean; one BLAS
+    thread each, SIGINT ignored, ended with their parent: the workers of the sweeps,
+    :func:`diagap.sweep.exec._init_worker`).
+
+    The processes are started by the first batch and kept for the next ones until
+    :meth:`close` (or until the mapper is dropped): a table is built in several batches, and a
+    fresh process pays seconds of imports and first-use set-up before its first point.
+    """
+
+    def __init__(self, workers: int):
+        self.workers = max(1, int(workers))
+        self._pool = None
+
+    def __call__(self, func, points):
+        if self.workers <= 1 or len(points) <= 1:
             return serial_mapper(func, points)
-        with ProcessPoolExecutor(min(workers, len(points)), mp_context=get_context("spawn")) as ex:
-            return list(ex.map(func, points))
-    return run
+        if self._pool is None:
+            import os
+
+            from diagap.sweep.exec import _init_worker
+
+            self._pool = ProcessPoolExecutor(self.workers, mp_context=get_context("spawn"),
+                                             initializer=_init_worker, initargs=(os.getpid(),))
+        return list(self._pool.map(func, points))
+
+    def close(self) -> None:
+        """End the worker processes (a later batch starts new ones)."""
+        pool, self._pool = self._pool, None
+        if pool is not None:
+            pool.shutdown(wait=True, cancel_futures=True)
+
+    def __del__(self):
+        pool, self._pool = getattr(self, "_pool", None), None
+        if pool is not None:
+            pool.shutdown(wait=False, cancel_futures=True)
+
+
+def local_mapper(workers: int) -> Callable:
+    """A :class:`LocalMapper` over ``workers`` local processes."""
+    return LocalMapper(workers)
+
+
+def close_mapper(mapper) -> None:
+    """End the worker processes of ``mapper`` if it keeps any (a :class:`LocalMapper`)."""
+    close = getattr(mapper, "close", None)
+    if close is not None:
+        close()
 
 
 def dask_mapper(client) -> Callable:

@@ -17,12 +17,8 @@ b (low frequency)                           ``damping.damping_n_s_per_m``
 b(f), k(f) of the film on φ_s               the radial P2 film
                                             (:mod:`diagap.fastpath.filmspectrum`)
                                             with the hole resistance of the Stokes cell table
-                                            at "normal" accuracy (the stage's film takes the
-                                            cell solve at "normal" whatever the design's; where
-                                            that table is not built, the design's own table:
-                                            at "draft" the draft Stokes cell differs by ≈1e-3,
-                                            which moves Q by ≈8e-4 and the film noise by
-                                            ≈0.004 dB, within the targets)
+                                            of the design's accuracy (the damping stage's
+                                            hole resistance, which the stage's film takes)
 air, package, bias circuit                  closed forms (as the stage)
 ==========================================  ===================================================
 
@@ -64,17 +60,12 @@ import numpy as np
 from diagap.fastpath import FastPathUnavailable
 
 __all__ = ["response_outputs", "covered_response_outputs", "fast_lumped_model", "model_outputs",
-           "NEEDED", "FILM_CELL_ACCURACY"]
+           "NEEDED"]
 
 #: flat outputs the response needs from the other sections
 NEEDED = ("mechanics.static_shape_stiffness_n_per_m", "mechanics.static_shape_mass_kg",
           "mechanics.static_shape_area_m2", "coupled.bias_center_deflection_m",
           "damping.damping_n_s_per_m")
-#: the accuracy of the Stokes cell behind the stage's film table (whatever the design's:
-#: :func:`diagap.extract.film_coefficients` calls the perforation at its default)
-FILM_CELL_ACCURACY = "normal"
-#: cell tables found unbuilt in this process (not looked up again)
-_UNBUILT: set = set()
 #: outputs of the packaged section that need the large deflection when the harmonic balance
 #: does not reach 10 % THD
 _OVERLOAD = ("capsule_aop_db_spl", "aop_db_spl", "dynamic_range_db")
@@ -112,9 +103,8 @@ def fast_lumped_model(design, outputs: dict, device, shape,
     shape : callable
         φ_s(u), u = r/a (1 at the centre), vectorised.
     hole_resistance_pa_s_per_m3 : float or None
-        Flow resistance per hole of the film (the stage's: the Stokes cell at "normal"
-        accuracy whatever the design's, :func:`diagap.extract.film_coefficients`); None
-        without holes.
+        Flow resistance per hole of the film (the stage's: the Stokes cell at the design's
+        accuracy, as in the damping stage); None without holes.
 
     Returns
     -------
@@ -199,25 +189,16 @@ def _shape(design, tau: float, mapper):
 
 
 def _hole_resistance(design, mapper) -> float | None:
-    """Per-hole resistance of the stage's film: the cell table at "normal" accuracy, else (not
-    built: it is only read here for a design of another accuracy, never built) the table of the
-    design's own accuracy (module docstring)."""
+    """Per-hole resistance of the stage's film: the Stokes cell table of the design's accuracy
+    (the damping stage's own hole resistance, which the stage's film takes)."""
     from diagap.fem.air import air_properties
 
-    from diagap.fastpath import read_only
     from diagap.fastpath.film import _cell
 
     if design.backplate.hole_lattice == "none":
         return None
     air = air_properties(*design.air_conditions)
-    key = "resistance_per_hole_pa_s_per_m3"
-    if design.analysis.accuracy != FILM_CELL_ACCURACY and FILM_CELL_ACCURACY not in _UNBUILT:
-        try:
-            return _cell(design.with_accuracy(FILM_CELL_ACCURACY), air, read_only)[key]
-        except FastPathUnavailable as exc:
-            if "not been built" in str(exc):  # a disk look-up of ~30 ms: once per process
-                _UNBUILT.add(FILM_CELL_ACCURACY)
-    return _cell(design, air, mapper)[key]
+    return _cell(design, air, mapper)["resistance_per_hole_pa_s_per_m3"]
 
 
 def response_outputs(design, outputs: dict, mapper=None) -> dict[str, float]:

@@ -4,11 +4,12 @@ A study (tolerances, optimisation, fitting) varies a few design values of one de
 bounds. The summary outputs of the full analysis — mechanics, electrostatics, coupled, damping
 and response, computed by exactly the stages and in the order of
 :func:`diagap.pipeline.run_design` — are tabulated over those values with
-:func:`diagap.fastpath.refine.build_table` (positive values on log axes, Chebyshev segments
-halved where a held-out point is off by more than the tolerance, random held-out validation
-points at the end) and cached on disk. Every table point is one full FE analysis, so the table's
-error is measured against the full FE itself; the large-deflection section and the audit are not
-tabulated.
+:func:`diagap.fastpath.nested.build_nested_table` (positive values on log axes, one
+Chebyshev–Lobatto segment per axis raised to the next nested level where a held-out point is off
+by more than the tolerance, random held-out validation points at the end) and cached on disk.
+Every table point is one full FE analysis, so the table's error is measured against the full FE
+itself; the large-deflection section and the audit are not tabulated, nor (unless asked) the
+distributed reference of the response.
 """
 from __future__ import annotations
 
@@ -96,8 +97,9 @@ class StudyBox:
         return with_overrides(self.design, {p: float(v) for p, v in zip(self.paths, x)})
 
 
-def _sections(design: Design) -> dict:
-    """The summary sections of :func:`diagap.pipeline.run_design` up to the response."""
+def _sections(design: Design, reference: bool = True) -> dict:
+    """The summary sections of :func:`diagap.pipeline.run_design` up to the response (without
+    the distributed reference of the response for ``reference=False``)."""
     from diagap.extract import plate_problem
     from diagap.fem.plate.solver import solve_plate
     from diagap.pipeline import RunResult, _skipped, response_step
@@ -116,27 +118,24 @@ def _sections(design: Design) -> dict:
     damp = result.sections["damping"] = damping_stage(design, mech, f_res)
     result.skipped = _skipped(design, result.collapsed)
     if "response" not in result.skipped:
-        response_step(result, design, mech, es, cp, damp)
+        response_step(result, design, mech, es, cp, damp, reference=reference)
     return result.summary()
 
 
-def pipeline_outputs(design: Design) -> dict:
+def pipeline_outputs(design: Design, reference: bool = True) -> dict:
     """Flat numeric outputs (``section.key``, lists as ``key_1, key_2, …``) of the full FE
-    analysis of ``design``, sections :data:`SECTIONS`, without mesh sizes and flags."""
+    analysis of ``design``, sections :data:`SECTIONS`, without mesh sizes and flags (and
+    without :data:`diagap.response_stage.DISTRIBUTED_OUTPUTS` for ``reference=False``)."""
     from diagap.sweep.point import flatten_summary
 
-    flat, _ = flatten_summary(_sections(design))
+    flat, _ = flatten_summary(_sections(design, reference))
     return {k: v for k, v in flat.items()
             if k.split(".", 1)[0] in SECTIONS and "_dofs" not in k
             and not isinstance(v, bool) and v is not None}
 
 
-def _box_point(box: StudyBox, x) -> dict:
-    return pipeline_outputs(box.at(x))
-
-
-def _drives(name: str) -> bool:
-    return name in DRIVING_OUTPUTS
+def _box_point(box: StudyBox, x, reference: bool = True) -> dict:
+    return pipeline_outputs(box.at(x), reference)
 
 
 def _axis(path: str, lo: float, hi: float, n: int):
@@ -147,9 +146,12 @@ def _axis(path: str, lo: float, hi: float, n: int):
     return Axis(path, False, (float(lo), float(hi)), n)
 
 
-def study_table(box: StudyBox, *, tol: float = 1e-3, nodes: int = 5, max_splits: int = 2,
-                validate: int = 4, mapper=None):
+def study_table(box: StudyBox, *, tol: float = 1e-3, nodes: int = 3, max_nodes: int = 9,
+                validate: int = 6, distributed: bool = False, drive=(), mapper=None):
     """The table of the summary outputs over ``box`` (cached; built on demand).
+
+    Built by nested Chebyshev–Lobatto levels (:func:`diagap.fastpath.nested.
+    build_nested_table`): one segment per axis, positive values on log axes.
 
     Parameters
     ----------
@@ -157,29 +159,39 @@ def study_table(box: StudyBox, *, tol: float = 1e-3, nodes: int = 5, max_splits:
     tol : float
         Allowed error at held-out points (relative; 0.01 dB per 1e-3 for decibel levels).
     nodes : int
-        Chebyshev–Lobatto nodes per axis segment.
-    max_splits : int
-        How often an axis segment may be halved.
+        Chebyshev–Lobatto nodes per axis to start with (2^l + 1: 2, 3, 5, 9).
+    max_nodes : int
+        Most nodes per axis.
     validate : int
         Random held-out points checked at the end.
+    distributed : bool
+        Also tabulate the outputs of the distributed reference of the response
+        (:data:`diagap.response_stage.DISTRIBUTED_OUTPUTS`; a fifth of the cost of a point).
+    drive : sequence of str
+        Outputs that refine the table besides :data:`DRIVING_OUTPUTS` (a study's own keys).
     mapper : callable, optional
         :func:`diagap.fastpath.refine.mapper_for` (local processes or a Dask client).
 
     Returns
     -------
     (TensorTable, dict)
-        The table and its build facts (reference points, uncertified outputs).
+        The table and its build facts (reference points, uncertified outputs, nodes per axis).
     """
-    from diagap.fastpath.refine import build_table, mapper_for
+    from diagap.fastpath.nested import build_nested_table
+    from diagap.fastpath.refine import mapper_for
     from diagap.fastpath.store import held_table
+
+    driving = sorted(set(DRIVING_OUTPUTS) | set(drive))
 
     def build():
         axes = [_axis(p, lo, hi, nodes) for p, lo, hi in box.ranges]
-        return build_table(partial(_box_point, box), axes, tol=tol, max_splits=max_splits,
-                           mapper=mapper or mapper_for(), validate=validate, drive=_drives)
+        return build_nested_table(partial(_box_point, box, reference=bool(distributed)), axes,
+                                  tol=tol, max_nodes=max_nodes, mapper=mapper or mapper_for(),
+                                  validate=validate, drive=set(driving).__contains__)
 
-    params = dict(box.key(), drive=list(DRIVING_OUTPUTS), tol=tol, nodes=nodes,
-                  max_splits=max_splits, validate=validate)
+    params = dict(box.key(), drive=driving, tol=tol, nodes=nodes,
+                  max_nodes=max_nodes, validate=validate, distributed=bool(distributed),
+                  scheme="nested")
     return held_table("fastpath-study", params, build)
 
 

@@ -236,7 +236,7 @@ def _cmd_fit(args) -> int:
 
 def _cmd_tables(args) -> int:
     from diagap.fastpath.catalog import table_names, table_status
-    from diagap.fastpath.refine import mapper_for
+    from diagap.fastpath.refine import close_mapper, mapper_for
     from diagap.sweep.spec import SweepError
 
     accuracy = args.accuracy or "normal"
@@ -264,10 +264,11 @@ def _cmd_tables(args) -> int:
         print(f"  {st.name:40s} {st.state:6s} {st.points:6d} FE points, held-out error "
               f"{st.held_out_error:.2e}, {st.seconds:7.1f} s, {cert}", flush=True)
 
+    mapper = None if args.check else mapper_for(args.workers, client)
     try:
-        mapper = None if args.check else mapper_for(args.workers, client)
         rows = table_status(accuracy, mapper, build=not args.check, names=names, on_table=show)
     finally:
+        close_mapper(mapper)
         if owned:
             client.close()
     missing = sum(r.state == "missing" for r in rows)

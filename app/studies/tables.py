@@ -88,7 +88,7 @@ def prepare_tables(design, keys, ranges, *, exact: bool = False, workers: int | 
     client : distributed.Client, optional
         A Dask client computing the table points.
     table_options : dict, optional
-        ``tol``, ``nodes``, ``max_splits``, ``validate`` of :func:`diagap.fastpath.study_table`.
+        ``tol``, ``nodes``, ``max_nodes``, ``validate``, ``distributed`` of :func:`diagap.fastpath.study_table`.
 
     Returns
     -------
@@ -102,12 +102,21 @@ def prepare_tables(design, keys, ranges, *, exact: bool = False, workers: int | 
     if not fast_path_installed():  # pragma: no cover - depends on the installed version
         return KeyEvaluator(keys, False), TableBuild(False, reason="fast path not installed")
     from diagap.fastpath import StudyBox, mapper_for, study_table
+    from diagap.fastpath.refine import close_mapper
 
     options = dict(table_options or {})
+    from diagap.response_stage import is_distributed_output
+
+    options.setdefault("distributed", any(is_distributed_output(k) for k in keys))
+    options.setdefault("drive", tuple(sorted(keys)))
     t0 = time.perf_counter()
     try:
         box = StudyBox(design, tuple((p, float(lo), float(hi)) for p, lo, hi in ranges))
-        table, facts = study_table(box, mapper=mapper_for(workers, client), **options)
+        mapper = mapper_for(workers, client)
+        try:
+            table, facts = study_table(box, mapper=mapper, **options)
+        finally:
+            close_mapper(mapper)
     except Exception as exc:  # noqa: BLE001 - any failure of the table means exact evaluations
         reason = f"{type(exc).__name__}: {exc}".splitlines()[0]
         log.warning("study table not available, every point runs the full FE (%s)", reason)

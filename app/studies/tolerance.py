@@ -175,7 +175,7 @@ def run_tolerance(design, spec: ToleranceSpec, out_dir, *, evaluate=None, exact:
     varied values (:func:`diagap.studies.tables.tolerance_ranges`: uniform bounds, normal
     mean ± 4σ clipped to the schema's range) is built first, once, with the same ``workers`` or
     ``scheduler``; the samples inside the box are then read from it and the others run the full
-    FE (:mod:`diagap.studies.tables`). ``table_options``: ``tol``, ``nodes``, ``max_splits``,
+    FE (:mod:`diagap.studies.tables`). ``table_options``: ``tol``, ``nodes``, ``max_nodes``,
     ``validate`` of :func:`diagap.fastpath.study_table`.
     """
     from diagap.evaluate import KeyEvaluator
