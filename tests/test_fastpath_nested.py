@@ -108,3 +108,45 @@ def test_coefficient_tail_is_a_generous_estimate_of_the_error():
         grid = np.linspace(0.0, 1.0, 401)
         true = max(abs(table((a,))[0] + 1.0 / (1.5 + a)) / (1.0 / 1.5) for a in grid)
         assert true <= est <= 30 * true, (n, true, est)
+
+
+def _pid(_point):
+    import os
+
+    return os.getpid()
+
+
+def test_local_mapper_keeps_its_workers_between_batches():
+    """A table is built in several batches: the local mapper starts its processes once and
+    hands every later batch to the same ones, until it is closed."""
+    import os
+
+    from diagap.fastpath.refine import LocalMapper
+
+    mapper = LocalMapper(2)
+    try:
+        first = set(mapper(_pid, list(range(6))))
+        second = set(mapper(_pid, list(range(6))))
+        assert os.getpid() not in first and 1 <= len(first) <= 2
+        assert second <= first
+    finally:
+        mapper.close()
+    assert mapper._pool is None
+    assert mapper(_pid, [0]) == [os.getpid()]  # a single point runs here
+
+
+def test_an_output_missing_at_a_node_raises_no_level():
+    """An output without a number at some node (as the response of a design collapsing at its
+    bias) cannot be tabulated: once a failed held-out point has become such a node, no further
+    level is tried and the output is left uncertified."""
+    def f(x):
+        a = x[0]
+        return {"y": -(1.0 + a * a), "r": (math.nan if 0.8 < a < 0.9 else -(2.0 + a))}
+
+    table, facts = build_nested_table(f, [Axis("a", False, (0.0, 1.0), 3)], tol=1e-9,
+                                      validate=0)
+    # level 3 (nodes 0, 0.5, 1), its held-out points 0.146 and 0.854 (r missing there) become
+    # the nodes of level 5, and nothing more is computed
+    assert facts["nodes"] == [5] and facts["reference_points"] == 5
+    assert facts["uncertified"] == ["r"]
+    assert dict(zip(table.names, table((0.3,))))["y"] == pytest.approx(-1.09, rel=1e-12, abs=0)

@@ -269,3 +269,40 @@ def test_fit_command_resumes_and_keeps_stdout_for_results(tmp_path, capsys):
     again = capsys.readouterr()
     assert "fit C–V fit" not in again.err and "0 computed now" in again.out
     assert json.loads((out / "fit.json").read_text())["parameters"] == doc["parameters"]
+
+
+@pytest.mark.parametrize("option, value, match", [("--starts", "-1", "--starts: -1 must be >= 0"),
+                                                  ("--local-fits", "0",
+                                                   "--local-fits: 0 must be >= 1")])
+def test_fit_start_options_refuse_bad_counts(tmp_path, capsys, option, value, match):
+    out = tmp_path / "out"
+    argv = ["fit", *_files(tmp_path, "fit"), "-o", str(out), option, value]
+    with pytest.raises(SystemExit) as info:
+        from diagap.cli import main
+
+        main(argv)
+    assert info.value.code == 2
+    err = capsys.readouterr().err
+    assert len(err.strip().splitlines()) == 1 and match in err
+    assert not out.exists()
+
+
+def test_fit_start_options_reach_the_fit(tmp_path, capsys, monkeypatch):
+    """--starts and --local-fits are handed to the fit (its start search is tested in
+    tests/test_fit_start.py); the stand-in fit stops the command with a user error."""
+    from diagap.cli import main
+    from diagap.studies import fit
+    from diagap.sweep.spec import SweepError
+
+    seen = {}
+
+    def stand_in(*args, **kw):
+        seen.update(kw)
+        raise SweepError("stopped by the test")
+
+    monkeypatch.setattr(fit, "fit_cv", stand_in)
+    out = tmp_path / "out"
+    assert main(["fit", *_files(tmp_path, "fit"), "-o", str(out), "--starts", "0",
+                 "--local-fits", "3"]) == 2
+    assert seen["starts"] == 0 and seen["local_fits"] == 3
+    assert "stopped by the test" in capsys.readouterr().err

@@ -151,6 +151,12 @@ def build_nested_table(func: Callable, axes: Sequence[Axis], *, tol: float = 1e-
     e = [np.nan_to_num(_measured(ref, axes, k, names, zero), nan=np.inf)
          for k in range(len(axes))]
 
+    def complete() -> np.ndarray:
+        """Driving outputs with a number at every node (an output missing at a node, e.g. the
+        response of a design collapsing at its bias, stays uncertified: no level helps)."""
+        vals = _table(ref, axes, names, zero).values.reshape(-1, len(names))
+        return driving & np.all(np.isfinite(vals), axis=0)
+
     def raise_level(worst: int) -> bool:
         """Next level on the refinable axis with the largest share of output ``worst``."""
         order = sorted(range(len(axes)), key=lambda k: -e[k][worst])
@@ -167,7 +173,7 @@ def build_nested_table(func: Callable, axes: Sequence[Axis], *, tol: float = 1e-
     for rnd in range(max(1, rounds)):
         while True:
             total = np.sum(e, axis=0)
-            over = np.where(driving & (total > tol), total, 0.0)
+            over = np.where(complete() & (total > tol), total, 0.0)
             if not np.any(over > 0) or not raise_level(int(np.argmax(over))):
                 break
         if not validate:
@@ -180,7 +186,7 @@ def build_nested_table(func: Callable, axes: Sequence[Axis], *, tol: float = 1e-
         val = np.max([np.nan_to_num(scaled_error(names, table.evaluate_mapped(u),
                                                  ref.vector(u, names)), nan=np.inf)
                       for u in pts], axis=0)
-        over = np.where(driving & (val > tol), val, 0.0)
+        over = np.where(complete() & (val > tol), val, 0.0)
         if not np.any(over > 0) or rnd == rounds - 1 or not raise_level(int(np.argmax(over))):
             break
     held = np.maximum(np.sum(e, axis=0), val)

@@ -9,6 +9,17 @@ from pathlib import Path
 
 from diagap.sweep.cli import positive_int
 
+
+def non_negative_int(text: str) -> int:
+    """argparse type: a whole number >= 0 (one-line message otherwise)."""
+    try:
+        n = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
+    if n < 0:
+        raise argparse.ArgumentTypeError(f"{n} must be >= 0")
+    return n
+
 __all__ = ["add_parsers", "COMMANDS"]
 
 _RESUME = ("resuming: finished evaluations are kept in OUT/evaluations.jsonl; run the same "
@@ -68,6 +79,11 @@ def add_parsers(sub, add_common) -> None:
     f.add_argument("--free", metavar="PATH,PATH", help="free design values (default "
                    "diaphragm.residual_stress,backplate.gap)")
     f.add_argument("-o", "--out", default="diagap-fit", help="output folder")
+    f.add_argument("--starts", type=non_negative_int, metavar="N", help="space-filling starts "
+                   "searched besides the design's own values (default 4 per free value; 0: "
+                   "the local fit starts from the design alone)")
+    f.add_argument("--local-fits", type=positive_int, metavar="K", help="local fits run from "
+                   "the best starts (default 2); the lowest misfit wins")
     _runner_options(f, exact=False)
     add_common(f)
     b = sub.add_parser("tables", help="build the fast path's global tables (or list them)",
@@ -204,7 +220,8 @@ def _cmd_fit(args) -> int:
         model = CVModel(design)
         res = fit_cv(model, data["bias"], data["capacitance"], free, response=response,
                      out_dir=Path(args.out), workers=args.workers, scheduler=client,
-                     progress=not args.no_progress)
+                     progress=not args.no_progress, starts=args.starts,
+                     local_fits=args.local_fits)
     finally:
         if owned:
             client.close()

@@ -122,7 +122,13 @@ def bench_plate(n: int, accuracy: str, mapper) -> None:
 #: study boxes around the demo design: process spread of thickness, gap and stress, or the gap
 BOXES = {"process": (("diaphragm.thickness", 0.95e-6, 1.05e-6), ("backplate.gap", 3.6e-6, 4.4e-6),
                      ("diaphragm.residual_stress", -10e6, 30e6)),
-         "gap": (("backplate.gap", 3.6e-6, 4.4e-6),)}
+         "gap": (("backplate.gap", 3.6e-6, 4.4e-6),),
+         # the boxes of tests/bench/bench_studies.py: its tolerance box (thickness normal 5 %,
+         # gap uniform 10 %, stress normal 1 MPa, ±4σ) and its optimisation bounds
+         "tolerance": (("diaphragm.thickness", 0.8e-6, 1.2e-6), ("backplate.gap", 3.6e-6, 4.4e-6),
+                       ("diaphragm.residual_stress", 6e6, 14e6)),
+         "optimise": (("backplate.hole_radius", 2e-6, 6e-6), ("backplate.hole_pitch", 14e-6, 30e-6),
+                      ("backplate.electrode_radius", 0.3e-3, 0.48e-3))}
 
 
 def bench_study(n: int, accuracy: str, mapper, which: str = "process") -> None:
