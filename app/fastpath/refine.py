@@ -25,6 +25,7 @@ import itertools
 import logging
 import math
 from concurrent.futures import ProcessPoolExecutor
+from functools import partial
 from multiprocessing import get_context
 from typing import Callable, Sequence
 
@@ -41,6 +42,18 @@ log = logging.getLogger(__name__)
 def serial_mapper(func: Callable, points: Sequence) -> list:
     """Compute the points one after the other in this process."""
     return [func(p) for p in points]
+
+
+def _trimmed(func, point):
+    """``func(point)`` in a worker, then the freed heap given back to the system
+    (:func:`diagap.sweep.exec.release_memory`: a worker computing many table points of
+    different geometry otherwise grows until it is killed)."""
+    from diagap.sweep.exec import release_memory
+
+    try:
+        return func(point)
+    finally:
+        release_memory()
 
 
 class LocalMapper:
@@ -67,7 +80,7 @@ class LocalMapper:
 
             self._pool = ProcessPoolExecutor(self.workers, mp_context=get_context("spawn"),
                                              initializer=_init_worker, initargs=(os.getpid(),))
-        return list(self._pool.map(func, points))
+        return list(self._pool.map(partial(_trimmed, func), points))
 
     def close(self) -> None:
         """End the worker processes (a later batch starts new ones)."""
@@ -96,7 +109,7 @@ def close_mapper(mapper) -> None:
 def dask_mapper(client) -> Callable:
     """A mapper over the workers of a ``distributed.Client``."""
     def run(func, points):
-        return client.gather(client.map(func, list(points), pure=False))
+        return client.gather(client.map(partial(_trimmed, func), list(points), pure=False))
     return run
 
 

@@ -30,7 +30,7 @@ VALUE_MODULES = ("stages.py", "response_stage.py", "pipeline.py", "extract.py", 
                  "schema.py", "materials.py", "quantities.py", "dielectrics.py", "backplate.py",
                  "package_design.py", "readout_design.py", "scope.py", "sweep/point.py",
                  "fastpath/grid.py", "fastpath/refine.py", "fastpath/plate.py",
-                 "fastpath/study.py")
+                 "fastpath/study.py", "fastpath/nested.py")
 
 
 @lru_cache(maxsize=None)

@@ -99,6 +99,30 @@ def _init_worker(parent_pid: int | None = None) -> None:
         pass
 
 
+def release_memory() -> None:
+    """Give freed heap memory back to the system (glibc ``malloc_trim``; nothing elsewhere).
+
+    A worker that runs many designs of different geometry (new meshes, matrices and
+    factorisations each time) otherwise keeps growing: the freed blocks stay in glibc's arenas,
+    fragmented, and the resident size of a study-table worker was seen to rise by about 70 MB
+    per design until the system killed it; trimming after each design keeps it near 0.5 GB.
+    """
+    import ctypes
+    import ctypes.util
+
+    global _TRIM
+    if _TRIM is None:
+        try:
+            _TRIM = ctypes.CDLL(ctypes.util.find_library("c") or "libc.so.6").malloc_trim
+        except (OSError, AttributeError):  # not glibc
+            _TRIM = False
+    if _TRIM:
+        _TRIM(0)
+
+
+_TRIM = None
+
+
 def _stop(pool) -> None:
     """Stop a process pool at once (interrupt): cancel queued points, end the workers."""
     pool.shutdown(wait=False, cancel_futures=True)

@@ -185,4 +185,8 @@ def run_point(task: PointTask) -> dict:
     rec.update(status="collapsed" if out.collapsed else "ok",
                wall_time_s=round(time.perf_counter() - t0, 6),
                outputs=outputs, uncertainty=uncertainty, summary=summary)
+    if rec["wall_time_s"] > 0.2:  # a finite-element run, not a table look-up
+        from diagap.sweep.exec import release_memory
+
+        release_memory()
     return rec
