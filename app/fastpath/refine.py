@@ -24,7 +24,6 @@ from __future__ import annotations
 import itertools
 import logging
 import math
-import sys
 from concurrent.futures import ProcessPoolExecutor
 from functools import partial
 from multiprocessing import get_context
@@ -68,32 +67,40 @@ class LocalMapper:
 
     The processes are started by the first batch and kept for the next ones until
     :meth:`close` (or until the mapper is dropped): a table is built in several batches, and a
-    fresh process pays seconds of imports and first-use set-up before its first point. Each
-    process is replaced by a fresh one after :data:`POINTS_PER_WORKER` points (Python ≥ 3.11):
-    a process that has run many designs of different geometry keeps growing (by some 40 MB per
-    design even with its freed heap trimmed, gmsh and the sparse factorisations being C
-    libraries), and a study table of a few hundred points would otherwise hold gigabytes.
+    fresh process pays seconds of imports and first-use set-up before its first point. The
+    processes are replaced by fresh ones after :data:`POINTS_PER_WORKER` points each (a batch
+    is cut into chunks for that): a process that has run many designs of different geometry
+    keeps growing (by some 40 MB per design even with its freed heap trimmed, gmsh and the
+    sparse factorisations being C libraries), and a study table of a few hundred points would
+    otherwise hold gigabytes. (``max_tasks_per_child`` of the executor hangs on Python 3.11.)
     """
 
     def __init__(self, workers: int):
         self.workers = max(1, int(workers))
         self._pool = None
+        self._done = 0  # points given to the current processes
 
     def __call__(self, func, points):
         if self.workers <= 1 or len(points) <= 1:
             return serial_mapper(func, points)
-        if self._pool is None:
-            import os
+        out, points = [], list(points)
+        while points:  # in chunks, the processes replaced between them (see the class)
+            if self._done >= POINTS_PER_WORKER * self.workers:
+                self.close()
+            if self._pool is None:
+                import os
 
-            from diagap.sweep.exec import _init_worker
+                from diagap.sweep.exec import _init_worker
 
-            extra = {}
-            if sys.version_info >= (3, 11):  # a fresh process now and then (see the class)
-                extra["max_tasks_per_child"] = POINTS_PER_WORKER
-            self._pool = ProcessPoolExecutor(self.workers, mp_context=get_context("spawn"),
-                                             initializer=_init_worker, initargs=(os.getpid(),),
-                                             **extra)
-        return list(self._pool.map(partial(_trimmed, func), points))
+                self._pool = ProcessPoolExecutor(self.workers, mp_context=get_context("spawn"),
+                                                 initializer=_init_worker,
+                                                 initargs=(os.getpid(),))
+                self._done = 0
+            n = POINTS_PER_WORKER * self.workers - self._done
+            chunk, points = points[:n], points[n:]
+            out += list(self._pool.map(partial(_trimmed, func), chunk))
+            self._done += len(chunk)
+        return out
 
     def close(self) -> None:
         """End the worker processes (a later batch starts new ones)."""
