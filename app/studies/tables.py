@@ -88,7 +88,9 @@ def prepare_tables(design, keys, ranges, *, exact: bool = False, workers: int | 
     client : distributed.Client, optional
         A Dask client computing the table points.
     table_options : dict, optional
-        ``tol``, ``nodes``, ``max_nodes``, ``validate``, ``distributed`` of :func:`diagap.fastpath.study_table`.
+        ``tol``, ``nodes``, ``max_nodes``, ``validate``, ``distributed``, ``drive`` of
+        :func:`diagap.fastpath.study_table` (default ``distributed``: whether a key needs the
+        distributed reference; ``drive``: the keys).
 
     Returns
     -------
