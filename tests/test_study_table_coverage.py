@@ -57,3 +57,39 @@ def test_table_used_only_with_every_needed_output(fake_build, names, uncertified
     if not used:
         assert "response.snr_db" in built.reason and "full FE" in built.reason
         assert any("study table incomplete" in r.getMessage() for r in caplog.records)
+
+
+def test_global_tables_answering_at_every_corner_replace_the_box_table(fake_build, monkeypatch):
+    """Where the global tables give every key at the nominal design and the box's corners, no
+    box table is built and the evaluations read the global tables; one corner they do not
+    answer means the box table (here a stand-in) after all."""
+    import diagap.fastpath as fastpath
+    from diagap.studies.tables import prepare_tables
+
+    keys = ("coupled.bias_margin", "response.snr_db")
+    ranges = (("diaphragm.thickness", 0.9e-6, 1.1e-6), ("backplate.gap", 3.8e-6, 4.2e-6))
+    asked = []
+
+    def global_fast(design, box=None, *, mapper=None, **options):
+        assert box is None and mapper is fastpath.read_only  # read only, never built here
+        asked.append((design.diaphragm.thickness_m, design.backplate.gap_m))
+        out = {"coupled.bias_margin": 0.4}
+        if design.diaphragm.thickness_m < 1.05e-6 or design.backplate.gap_m < 4.1e-6:
+            out["response.snr_db"] = 60.0   # all but the (thick, wide) corner
+        return out
+
+    monkeypatch.setattr(fastpath, "fast_summary", global_fast)
+    fake_build["table"], fake_build["facts"] = _table(keys), {"uncertified": []}
+    design = demo_design().with_accuracy("draft")
+    evaluator, built = prepare_tables(design, keys, ranges, workers=1)
+    assert built.used and built.kind == "box" and evaluator.box is not None
+    assert (1.1e-6, 4.2e-6) in asked
+
+    monkeypatch.setattr(fastpath, "fast_summary",
+                        lambda d, box=None, *, mapper=None, **o: {k: 1.0 for k in keys})
+    evaluator, built = prepare_tables(design, keys, ranges, workers=1)
+    assert built.used and built.kind == "global" and evaluator.box is None
+    assert built.to_dict()["kind"] == "global"
+    evaluator, built = prepare_tables(design, keys, ranges, workers=1,
+                                      table_options={"box_only": True})
+    assert built.kind == "box" and evaluator.box is not None

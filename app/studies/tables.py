@@ -13,7 +13,11 @@ of a study:
   little gain. Correlations need no change: the box is the product of the per-value ranges;
 - optimisation (:mod:`diagap.studies.optimise`): the bounds of the variables.
 
-The table is built once in the calling process with the study's local workers or Dask client
+First, the global tables (``diagap tables``, :mod:`diagap.fastpath.catalog`; clamped circular
+diaphragms over a rigid backplate) are asked, read-only, for the study's keys at the nominal
+design and the corners of the box (:func:`global_tables_cover`): where they answer everywhere,
+the study needs no table of its own, and its evaluations read the global tables (the option
+``box_only`` skips this). Otherwise the box table is built once in the calling process with the study's local workers or Dask client
 (:func:`diagap.fastpath.mapper_for`), cached on disk and kept in memory; the evaluations then
 only read it (:class:`diagap.evaluate.KeyEvaluator` with the box). Points outside the box, and
 outputs the table does not certify, are evaluated with the full FE pipeline. If the table cannot
@@ -26,7 +30,8 @@ import logging
 import math
 import time
 
-__all__ = ["tolerance_ranges", "prepare_tables", "NORMAL_SIGMAS", "TableBuild"]
+__all__ = ["tolerance_ranges", "prepare_tables", "NORMAL_SIGMAS", "TableBuild",
+           "global_tables_cover"]
 
 log = logging.getLogger(__name__)
 
@@ -59,14 +64,50 @@ def tolerance_ranges(inputs) -> tuple:
 
 
 class TableBuild:
-    """What :func:`prepare_tables` did: ``used`` (the evaluations read a box table),
-    ``seconds`` (the build or the read), ``reason`` (why not used)."""
+    """What :func:`prepare_tables` did: ``used`` (the evaluations read tables), ``seconds``
+    (the build, the read or the coverage check), ``reason`` (why not used), ``kind``
+    ("global": the global tables cover the box; "box": the study's own table)."""
 
-    def __init__(self, used: bool, seconds: float = 0.0, reason: str = ""):
-        self.used, self.seconds, self.reason = used, seconds, reason
+    def __init__(self, used: bool, seconds: float = 0.0, reason: str = "", kind: str = "box"):
+        self.used, self.seconds, self.reason, self.kind = used, seconds, reason, kind
 
     def to_dict(self) -> dict:
-        return {"used": self.used, "seconds": self.seconds, "reason": self.reason}
+        return {"used": self.used, "seconds": self.seconds, "reason": self.reason,
+                "kind": self.kind if self.used else None}
+
+
+def _box_probes(design, ranges) -> list:
+    """The nominal design and the box's corners (all 2^d for d ≤ 5 values, else the 2d ends of
+    each value's range with the others at their nominal values)."""
+    import itertools
+
+    from diagap.design import with_overrides
+
+    paths = [p for p, _, _ in ranges]
+    if len(ranges) <= 5:
+        combos = itertools.product(*[(lo, hi) for _, lo, hi in ranges])
+        points = [dict(zip(paths, c)) for c in combos]
+    else:
+        points = [{p: v} for p, lo, hi in ranges for v in (lo, hi)]
+    return [design] + [with_overrides(design, {k: float(v) for k, v in pt.items()})
+                       for pt in points]
+
+
+def global_tables_cover(design, keys, ranges) -> bool:
+    """True when the global tables (built beforehand with ``diagap tables``; only read here)
+    give every one of ``keys`` at the nominal design and at the corners of the box
+    (:func:`_box_probes`): the study then needs no table of its own. A point inside the box that
+    they do not cover after all is evaluated with the full FE (as any point without a table)."""
+    from diagap.fastpath import fast_summary, read_only
+
+    try:  # a corner outside the design rules (DesignError), or outside the tables
+        for probe in _box_probes(design, ranges):
+            out = fast_summary(probe, mapper=read_only)
+            if not all(k in out for k in keys):
+                return False
+    except ValueError:  # DesignError, FastPathUnavailable
+        return False
+    return True
 
 
 def prepare_tables(design, keys, ranges, *, exact: bool = False, workers: int | None = 1,
@@ -107,6 +148,11 @@ def prepare_tables(design, keys, ranges, *, exact: bool = False, workers: int | 
     from diagap.fastpath.refine import close_mapper
 
     options = dict(table_options or {})
+    t0 = time.perf_counter()
+    if not options.pop("box_only", False) and global_tables_cover(design, keys, ranges):
+        seconds = time.perf_counter() - t0
+        log.info("the global tables cover the study's box (checked in %.1f s)", seconds)
+        return KeyEvaluator(keys, False), TableBuild(True, seconds, kind="global")
     from diagap.response_stage import is_distributed_output
 
     options.setdefault("distributed", any(is_distributed_output(k) for k in keys))
