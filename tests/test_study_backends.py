@@ -200,6 +200,11 @@ def _one_line_exit_2(capsys, argv, out, match):
 def test_bad_workers(tmp_path, capsys, command, workers, match):
     out = tmp_path / "out"
     argv = [command, *_files(tmp_path, command), "-o", str(out), "--workers", workers]
+    _option_exit_2(capsys, argv, out, match)
+
+
+def _option_exit_2(capsys, argv, out, match):
+    """A bad option value: argparse's exit 2, one line on stderr, no output folder."""
     with pytest.raises(SystemExit) as info:
         from diagap.cli import main
 
@@ -277,14 +282,7 @@ def test_fit_command_resumes_and_keeps_stdout_for_results(tmp_path, capsys):
 def test_fit_start_options_refuse_bad_counts(tmp_path, capsys, option, value, match):
     out = tmp_path / "out"
     argv = ["fit", *_files(tmp_path, "fit"), "-o", str(out), option, value]
-    with pytest.raises(SystemExit) as info:
-        from diagap.cli import main
-
-        main(argv)
-    assert info.value.code == 2
-    err = capsys.readouterr().err
-    assert len(err.strip().splitlines()) == 1 and match in err
-    assert not out.exists()
+    _option_exit_2(capsys, argv, out, match)
 
 
 def test_fit_start_options_reach_the_fit(tmp_path, capsys, monkeypatch):

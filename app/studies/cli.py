@@ -7,18 +7,7 @@ import argparse
 import sys
 from pathlib import Path
 
-from diagap.sweep.cli import positive_int
-
-
-def non_negative_int(text: str) -> int:
-    """argparse type: a whole number >= 0 (one-line message otherwise)."""
-    try:
-        n = int(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
-    if n < 0:
-        raise argparse.ArgumentTypeError(f"{n} must be >= 0")
-    return n
+from diagap.sweep.cli import non_negative_int, positive_int
 
 __all__ = ["add_parsers", "COMMANDS"]
 

@@ -85,15 +85,25 @@ def add_parser(sub, add_common, epilog: str = "") -> argparse.ArgumentParser:
     return p
 
 
-def positive_int(text: str) -> int:
-    """argparse type: a whole number >= 1 (one-line message otherwise)."""
+def whole_number(text: str, low: int = 1) -> int:
+    """argparse type: a whole number >= ``low`` (one-line message otherwise)."""
     try:
         n = int(text)
     except ValueError:
         raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
-    if n < 1:
-        raise argparse.ArgumentTypeError(f"{n} must be >= 1")
+    if n < low:
+        raise argparse.ArgumentTypeError(f"{n} must be >= {low}")
     return n
+
+
+def positive_int(text: str) -> int:
+    """argparse type: a whole number >= 1."""
+    return whole_number(text, 1)
+
+
+def non_negative_int(text: str) -> int:
+    """argparse type: a whole number >= 0."""
+    return whole_number(text, 0)
 
 
 def cmd_sweep(args) -> int:
