@@ -72,6 +72,7 @@ from functools import partial
 import numpy as np
 
 from diagap.fastpath.grid import Axis, TensorTable
+from diagap.fastpath.store import module_hash
 
 __all__ = ["CELL_RANGE", "CELL_RADIUS_OVER_PITCH", "cell_table", "scaled_cell",
            "closed_form_scaled", "cell_coordinates", "cell_resistance_scaled", "outside"]
@@ -141,21 +142,6 @@ def scaled_cell(accuracy: str, y) -> dict:
 
 def _drives(name: str) -> bool:
     return name == "resistance_factor"
-
-
-def module_hash(path: str) -> str:
-    """SHA-256 of a module's source after its docstring: a table key changes with the code
-    that defines it (not with the measured numbers its docstring quotes)."""
-    import ast
-    import hashlib
-    from pathlib import Path
-
-    src = Path(path).read_text()
-    body = ast.parse(src).body
-    if body and isinstance(body[0], ast.Expr) and isinstance(getattr(body[0], "value", None),
-                                                            ast.Constant):
-        src = "\n".join(src.splitlines()[body[0].end_lineno:])
-    return hashlib.sha256(src.encode()).hexdigest()[:16]
 
 
 def cell_axes() -> list:

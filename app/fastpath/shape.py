@@ -63,9 +63,8 @@ def tau_axis(accuracy: str, n: int = 5) -> Axis:
 def shape_table(accuracy: str = "normal", *, tol: float = 1e-4, mapper=None
                 ) -> tuple[TensorTable, dict]:
     """The table of q_k over :func:`tau_axis` (cached; built on demand)."""
-    from diagap.fastpath.flowcell import module_hash
     from diagap.fastpath.refine import build_table, mapper_for
-    from diagap.fastpath.store import held_table
+    from diagap.fastpath.store import held_table, module_hash
 
     def build():
         return build_table(partial(scaled_shape, accuracy), [tau_axis(accuracy)], tol=tol,
