@@ -15,7 +15,8 @@ accepted when, for every *driving* output, Σ_k e_k ≤ tol, with e_k the error 
 
 Construction:
 
-1. the table starts with ``start_nodes`` (3) nodes on every axis and the full tensor of them;
+1. the table starts with the nodes of the given axes (3 per axis for study boxes,
+   :func:`diagap.fastpath.study_table`) and the full tensor of them;
 2. e_k of an axis at its starting level is *measured*: the held-out points are the nodes that
    the next level would add on axis k (midway in angle between consecutive nodes, where the node
    polynomial is close to its largest), combined with the first, middle and last nodes of every
