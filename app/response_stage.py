@@ -107,7 +107,8 @@ def distributed_section(model, resp, inputs, accuracy: str) -> tuple[dict, dict,
 
 
 def response_stage(model, fe_uncertainty: dict | None = None, distributed=None,
-                   accuracy: str = "normal", readout=None, scope: str = "capsule") -> Section:
+                   accuracy: str = "normal", readout=None, scope: str = "capsule",
+                   curves: bool = True) -> Section:
     """Frequency response, noise (every source of :func:`diagap.lumped.breakdown.output_noise_psds`,
     with ``readout`` (a :class:`diagap.lumped.readout.Readout`) its own noise and the bias
     supply's) and distortion; with ``distributed`` (a :class:`fem.response.coupled.ResponseInputs`)
@@ -117,7 +118,9 @@ def response_stage(model, fe_uncertainty: dict | None = None, distributed=None,
     ``noise_breakdown_dba`` every source; the noise floor and SNR count them all. With package
     elements (``model.package``) the thermal sources are every dissipative element of the
     circuit. ``scope`` ("capsule" | "packaged", :func:`diagap.scope.response_scope`) is
-    reported as given."""
+    reported as given. ``curves=False`` (flat figures only, the fast path): the distortion scan
+    solves only the levels its crossings and stopping level need (``thd_vs_spl`` then holds
+    those few levels; :func:`diagap.lumped.distortion.distortion_vs_spl`)."""
     from diagap.lumped.breakdown import noise_breakdown, output_noise_psds
     from diagap.lumped.circuit import solve_circuit
     from diagap.lumped.distortion import distortion_vs_spl
@@ -133,7 +136,7 @@ def response_stage(model, fe_uncertainty: dict | None = None, distributed=None,
     noise = breakdown.total_dba
     contributions = {k: v for k, v in breakdown.levels_dba.items()
                      if k not in READOUT_SOURCES}
-    dist = distortion_vs_spl(model)
+    dist = distortion_vs_spl(model, curve=curves)
     data = resp.to_summary()
     data.update({
         "noise_dba_spl": noise, "snr_db": breakdown.snr_db,

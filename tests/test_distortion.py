@@ -282,3 +282,67 @@ def test_demo_scan_crossing_matches_dense_bisection_with_fewer_solves(monkeypatc
     crossing_solves = sum(1 for x in calls if x not in by_level and x != stop)
     assert crossing_solves < n_bisect
     assert len(calls) < len(raw) + 1 + n_bisect  # the full 2 dB scan, its stop, the bisection
+
+
+@pytest.mark.parametrize("make", [
+    lambda: bowed(parasitic_capacitance_f=3e-12),        # reaches 1 % and 10 %
+    lambda: piston(parasitic_capacitance_f=3e-12, bias_voltage_v=13.0),   # 1 %, then the C(x) end
+    lambda: piston(parasitic_capacitance_f=0.0, bias_resistance_ohm=1e16),  # no distortion
+    lambda: piston(stiffness_n_per_m=5000.0),            # stays below 10 % up to 160 dB
+], ids=["both-thresholds", "curve-end", "distortion-free", "below-10pct"])
+@pytest.mark.parametrize("room", [None, 4.0], ids=["default-jumps", "overshooting-jumps"])
+def test_sparse_scan_matches_raw_continuation(make, room, monkeypatch):
+    # reference: the raw 2 dB continuation and bisections to 1e-6 dB written here from raw
+    # harmonic-balance solves.  Without the curve the scan must find the same crossings (to its
+    # 1e-4 dB), stop at the same level for the same reason and end on the same solved level,
+    # with fewer solves than the scan with the curve (as many when the THD stays below 0.1 %).
+    # Jumps allowed 4x the C(x) room left overshoot the curve's end and must be halved back.
+    from diagap.lumped import distortion as dist
+
+    if room is not None:
+        monkeypatch.setattr(dist, "_SPARSE_ROOM", room)
+
+    model = make()
+    grid = np.arange(60.0, 160.0 + 1e-9, 2.0)
+    raw, stop = _raw_scan(model, grid)
+    ref = {}
+    for level in (0.01, 0.10):
+        k = next((i for i, s in enumerate(raw) if s.thd >= level), None)
+        ref[level] = None if k is None or k == 0 else _bisect(model, raw[k - 1], raw[k], level,
+                                                               1e-6)
+    counts = {}
+    original = dist.harmonic_balance
+
+    def run(curve):
+        calls = []
+
+        def counted(model_, spl_db, *a, **kw):
+            calls.append(spl_db)
+            return original(model_, spl_db, *a, **kw)
+
+        dist.harmonic_balance = counted
+        try:
+            out = distortion_vs_spl(model, curve=curve)
+        finally:
+            dist.harmonic_balance = original
+        counts[curve] = len(calls)
+        return out
+
+    full, sparse = run(True), run(False)
+    for got, level in ((sparse.thd_1pct_spl_db, 0.01), (sparse.aop_10pct_spl_db, 0.10)):
+        if ref[level] is None:
+            assert got is None
+        else:
+            assert got == pytest.approx(ref[level], abs=2e-4)  # a level in dB
+    assert sparse.limit_reason == full.limit_reason
+    assert sparse.spl_db[-1] == raw[-1].spl_db == full.spl_db[-1]
+    if stop is not None:
+        assert f"at {stop:.1f} dB SPL" in sparse.limit_reason
+    assert counts[False] <= counts[True] or room is not None
+    if ref[0.01] is not None and room is None:  # the jumps pay off once the THD passes 0.1 %
+        assert counts[False] < counts[True]
+
+
+def test_sparse_scan_needs_the_default_grid():
+    with pytest.raises(ValueError, match="curve=False"):
+        distortion_vs_spl(piston(), spl_db=[100.0, 110.0], curve=False)

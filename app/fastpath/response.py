@@ -167,7 +167,7 @@ def model_outputs(design, model) -> dict[str, float]:
     from diagap.sweep.point import flatten_summary
 
     section = response_stage(model, None, None, design.analysis.accuracy,
-                             readout=design.readout, scope=response_scope(design))
+                             readout=design.readout, scope=response_scope(design), curves=False)
     data = packaged_section(design, section, None).data
     drop = _OVERLOAD if data.get("aop_10pct_spl_db") is None else ()
     flat, _ = flatten_summary({"response": {k: v for k, v in data.items() if k not in drop}})
