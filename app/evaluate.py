@@ -23,7 +23,10 @@ range and, for clamped circular diaphragms over a rigid backplate, the electrost
 damping and response outputs where the global tables have been built (``diagap tables``); with
 a :class:`diagap.fastpath.StudyBox` (the bounds of the values a study varies) it covers every
 numeric output of the mechanics to response sections that the box's table certifies. A requested path that the design does not produce (e.g. the sensitivity of a
-collapsed design, biased at or above pull-in) is NaN.
+collapsed design, biased at or above pull-in) is NaN. When the fast path finds the design
+collapsed with a bias at least :data:`COLLAPSE_MARGIN` times its pull-in voltage (its bias
+margin is certified within 1e-3, so the verdict is certain), the ``response`` paths are NaN
+without a full FE run, as the pipeline skips that section for a collapsed design.
 """
 from __future__ import annotations
 
@@ -40,7 +43,7 @@ except ImportError:  # pragma: no cover - depends on the installed version
         """Stand-in when :mod:`diagap.fastpath` is not installed."""
 
 __all__ = ["evaluate", "evaluate_with_path", "exact_summary", "KeyEvaluator", "check_keys",
-           "no_table_building",
+           "no_table_building", "absent_paths", "COLLAPSE_MARGIN",
            "FAST", "EXACT", "PATH_KEY", "fast_path_installed"]
 
 FAST, EXACT = "fast", "exact"
@@ -49,6 +52,9 @@ PATH_KEY = "evaluation.exact"
 #: summary sections in pipeline order; the last two need the complete run
 _ORDER = ("mechanics", "electrostatics", "coupled", "damping", "response")
 _WHOLE_RUN = ("large_deflection", "audit")
+#: bias / pull-in from which the fast path's "collapsed" is taken as certain (ten times the
+#: certified 1e-3 of the bias margin)
+COLLAPSE_MARGIN = 1.01
 
 
 def fast_path_installed() -> bool:
@@ -136,6 +142,16 @@ def _pick(values: dict, keys) -> dict[str, float]:
     return out
 
 
+def absent_paths(fast: dict, keys) -> set:
+    """The paths of ``keys`` that a design does not produce by the fast outputs ``fast``: the
+    ``response`` section of a design collapsed with bias / pull-in ≥ :data:`COLLAPSE_MARGIN`
+    (the pipeline skips it, :func:`diagap.pipeline._skipped`)."""
+    margin = fast.get("coupled.bias_margin")
+    if fast.get("coupled.collapsed") != 1.0 or margin is None or not margin >= COLLAPSE_MARGIN:
+        return set()
+    return {k for k in keys if k.split(".", 1)[0] == "response"}
+
+
 def no_table_building(func, points):
     """A table mapper that refuses to compute table points: an evaluation with it uses a study
     table already built (on disk or in memory) and otherwise falls back to the exact path,
@@ -181,8 +197,10 @@ def evaluate_with_path(design, keys: Iterable[str], *, exact: bool = False, box=
                                     **dict(table_options or {}))
         except FastPathUnavailable:
             fast = None
-        if fast is not None and all(k in fast for k in keys):
-            return _pick(fast, keys), FAST
+        if fast is not None:
+            absent = absent_paths(fast, keys)
+            if all(k in fast or k in absent for k in keys):
+                return _pick(fast, keys), FAST
     return _pick(exact_summary(design, keys), keys), EXACT
 
 

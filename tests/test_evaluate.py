@@ -49,3 +49,24 @@ def test_falls_back_to_the_pipeline_outside_the_tables(monkeypatch):
 def test_bad_summary_paths_are_refused(key):
     with pytest.raises(DesignError, match="section.key"):
         ev.evaluate(demo_design(), [key])
+
+
+@pytest.mark.parametrize("margin,fast", [(1.3, True), (1.005, False)])
+def test_response_of_a_design_collapsed_beyond_doubt_is_nan_without_the_pipeline(
+        monkeypatch, margin, fast):
+    """The pipeline skips the response of a collapsed design, so its response paths are NaN;
+    when the fast path finds the bias at least COLLAPSE_MARGIN times pull-in (its bias margin
+    is certified within 1e-3) no full FE run is needed for that. Closer to pull-in the
+    pipeline decides."""
+    collapsed = {"coupled.bias_margin": margin, "coupled.collapsed": 1.0,
+                 "coupled.pull_in_voltage_v": 30.0}
+    monkeypatch.setattr(ev, "fast_summary", lambda d: dict(collapsed))
+    monkeypatch.setattr(ev, "exact_summary", lambda d, k: {"coupled.pull_in_voltage_v": 30.5})
+    values, path = ev.evaluate_with_path(demo_design(), ["coupled.pull_in_voltage_v",
+                                                         "response.snr_db"])
+    assert (path == ev.FAST) is fast
+    assert math.isnan(values["response.snr_db"])
+    assert values["coupled.pull_in_voltage_v"] == (30.0 if fast else 30.5)
+    # not collapsed: a missing response is a gap of the tables, not an absent section
+    collapsed.update({"coupled.collapsed": 0.0, "coupled.bias_margin": 0.5})
+    assert ev.evaluate_with_path(demo_design(), ["response.snr_db"])[1] == ev.EXACT

@@ -93,3 +93,27 @@ def test_global_tables_answering_at_every_corner_replace_the_box_table(fake_buil
     evaluator, built = prepare_tables(design, keys, ranges, workers=1,
                                       table_options={"box_only": True})
     assert built.kind == "box" and evaluator.box is not None
+
+
+@pytest.mark.parametrize("margin,covered", [(1.2, True), (1.005, False)])
+def test_corner_collapsed_beyond_doubt_counts_as_answered(fake_build, monkeypatch, margin,
+                                                          covered):
+    """A corner biased clearly beyond pull-in has no response in the full FE either (the
+    pipeline skips it): the global tables cover such a box. A corner whose collapse is within
+    ten times the bias margin's certified 1e-3 of pull-in does not count."""
+    import diagap.fastpath as fastpath
+    from diagap.studies.tables import prepare_tables
+
+    keys = ("coupled.bias_margin", "response.snr_db")
+    ranges = (("backplate.gap", 3.8e-6, 4.2e-6),)
+
+    def global_fast(design, box=None, *, mapper=None, **options):
+        if design.backplate.gap_m < 3.9e-6:  # the narrow-gap corner collapses
+            return {"coupled.bias_margin": margin, "coupled.collapsed": 1.0}
+        return {"coupled.bias_margin": 0.5, "coupled.collapsed": 0.0, "response.snr_db": 60.0}
+
+    monkeypatch.setattr(fastpath, "fast_summary", global_fast)
+    fake_build["table"], fake_build["facts"] = _table(keys), {"uncertified": []}
+    evaluator, built = prepare_tables(demo_design().with_accuracy("draft"), keys, ranges,
+                                      workers=1)
+    assert (built.kind == "global") is covered

@@ -16,7 +16,9 @@ of a study:
 First, the global tables (``diagap tables``, :mod:`diagap.fastpath.catalog`; clamped circular
 diaphragms over a rigid backplate) are asked, read-only, for the study's keys at the nominal
 design and the corners of the box (:func:`global_tables_cover`): where they answer everywhere,
-the study needs no table of its own, and its evaluations read the global tables (the option
+the study needs no table of its own, and its evaluations read the global tables (a corner
+collapsed beyond doubt counts as answered: the full FE has no response there either, so a box
+that reaches past pull-in is no obstacle, as it is for a box table) (the option
 ``box_only`` skips this). Otherwise the box table is built once in the calling process with the study's local workers or Dask client
 (:func:`diagap.fastpath.mapper_for`), cached on disk and kept in memory; the evaluations then
 only read it (:class:`diagap.evaluate.KeyEvaluator` with the box). Points outside the box, and
@@ -96,14 +98,18 @@ def _box_probes(design, ranges) -> list:
 def global_tables_cover(design, keys, ranges) -> bool:
     """True when the global tables (built beforehand with ``diagap tables``; only read here)
     give every one of ``keys`` at the nominal design and at the corners of the box
-    (:func:`_box_probes`): the study then needs no table of its own. A point inside the box that
-    they do not cover after all is evaluated with the full FE (as any point without a table)."""
+    (:func:`_box_probes`), a corner collapsed beyond doubt counting as answered for its
+    ``response`` paths (:func:`diagap.evaluate.absent_paths`): the study then needs no table of
+    its own. A point inside the box that they do not cover after all is evaluated with the full
+    FE (as any point without a table)."""
+    from diagap.evaluate import absent_paths
     from diagap.fastpath import fast_summary, read_only
 
     try:  # a corner outside the design rules (DesignError), or outside the tables
         for probe in _box_probes(design, ranges):
             out = fast_summary(probe, mapper=read_only)
-            if not all(k in out for k in keys):
+            absent = absent_paths(out, keys)
+            if not all(k in out or k in absent for k in keys):
                 return False
     except ValueError:  # DesignError, FastPathUnavailable
         return False
