@@ -25,9 +25,12 @@ air, package, bias circuit                  closed forms (as the stage)
 φ_s is the closed form of the clamped disk (:func:`diagap.fastpath.field.static_shape`) times the
 plate FE's departure from it (:mod:`diagap.fastpath.shape`, the correction the damping fast path
 uses). The model then goes through the stage's own code (:func:`diagap.stages.response_stage`
-without the distributed reference, then :func:`diagap.packaged.packaged_section` without the
-large deflection), so every response figure, noise source, distortion level and readout level is
-the stage's function of those inputs.
+without the distributed reference and without curves, then
+:func:`diagap.packaged.packaged_section` without the large deflection), so every response
+figure, noise source, distortion level and readout level is the stage's function of those
+inputs. Without curves the distortion scan solves only the levels its 1 % / 10 % crossings and
+its stopping level need (``curve=False`` of :func:`diagap.lumped.distortion.distortion_vs_spl`:
+the same crossings to its 1e-4 dB, the same stopping level and reason).
 
 Left out (not flat numbers of this path): the distributed FE reference and what depends on it
 (``distributed_*``, ``reduction_error_*``, ``lumped_peak_*``); the overload point when the
