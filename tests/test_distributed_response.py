@@ -133,6 +133,22 @@ def test_piston_radiation_low_ka():
     assert z.imag == pytest.approx(8 / (3 * math.pi) * (x - 4 * x**3 / 15), rel=1e-6, abs=0)
 
 
+def test_struve_series_matches_scipy():
+    """The power series of H₁ used on arrays below x = 12 (Abramowitz & Stegun 1964, eq.
+    12.1.3) against ``scipy.special.struve`` (a general-purpose reference library), across the
+    switch to scipy's own evaluation above it and for short arrays."""
+    from scipy import special
+
+    from diagap.fem.response.coupled import _struve_h1
+
+    x = np.concatenate([np.logspace(-6, math.log10(12.0), 400), np.linspace(11.5, 12.5, 21),
+                        np.logspace(1.2, 4, 60)])
+    got, ref = _struve_h1(x), special.struve(1, x)
+    assert np.all(np.abs(got / ref - 1.0) <= 1e-11)
+    assert _struve_h1(np.array([0.3, 5.0])) == pytest.approx(special.struve(1, [0.3, 5.0]),
+                                                              rel=1e-14, abs=0)
+
+
 def test_lumped_resonance_includes_radiation_mass():
     """A piston with the baffled-piston front load: the series resonance of m + A²·M_rad on the
     stiffness (M_rad from Rayleigh's closed form, evaluated here), back volume and electrical

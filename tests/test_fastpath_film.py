@@ -172,7 +172,7 @@ def test_radial_film_matches_the_full_stage_without_holes():
 
 
 @pytest.mark.parametrize("changes, field", [
-    ({"backplate.hole_radius": "9 um"}, "backplate.hole_radius / cell radius"),
+    ({"backplate.hole_radius": "9.5 um"}, "backplate.hole_radius / cell radius"),  # 0.90
     ({"backplate.thickness": "70 um"}, "backplate.thickness / cell radius"),
     ({"diaphragm.edge": "simply-supported"}, "diaphragm: shape 'circle', edge"),
 ])

@@ -93,8 +93,9 @@ class CapacitanceDensity:
         """P(g) = c(g)·(g + t_e)/ε0 from the fit (dimensionless; scalar or array of gaps [m])."""
         g = np.asarray(gap_m, dtype=float)
         self._check(g)
-        out = _basis((np.atleast_1d(g).ravel() + self.electrical_offset_m) / self.gap_mid_m) \
-            @ self.coefficients
+        gh = (np.atleast_1d(g).ravel() + self.electrical_offset_m) / self.gap_mid_m
+        a, c_f, k1, k2 = self.coefficients  # _basis(gh) @ coefficients, without the matrix
+        out = a + gh * (c_f + k1 * np.log(gh) + k2 * gh)
         return out.reshape(g.shape) if g.ndim else float(out[0])
 
     def __call__(self, gap_m):

@@ -84,7 +84,7 @@ class DeviceCapacitance:
 
     def __call__(self, x_m):
         """C(x) [F] at centre displacement(s) x [m]."""
-        return _evaluate(*self._model, np.asarray(x_m, dtype=float))[0]
+        return _evaluate(*self._model, np.asarray(x_m, dtype=float), slope=False)[0]
 
     def slope(self, x_m):
         """dC/dx [F/m] at centre displacement(s) x [m]."""
@@ -108,16 +108,20 @@ class DeviceCapacitance:
         }
 
 
-def _evaluate(w, phi, c_density, gap, rim, phi_rim, x):
-    """C(x) and dC/dx for an array (or scalar) of displacements x."""
+def _evaluate(w, phi, c_density, gap, rim, phi_rim, x, slope: bool = True):
+    """C(x) and dC/dx for an array (or scalar) of displacements x (dC/dx None when not
+    ``slope``)."""
     xs = np.atleast_1d(x).ravel()
     g_local = gap - np.outer(xs, phi)  # (nx, nq)
     C = c_density(g_local) @ w
-    dC = -(c_density.derivative(g_local) * phi) @ w
+    dC = -(c_density.derivative(g_local) * phi) @ w if slope else None
     if rim is not None:
         g_rim = gap - xs * phi_rim
         C = C + rim(g_rim)
-        dC = dC - phi_rim * rim.derivative(g_rim)
+        if slope:
+            dC = dC - phi_rim * rim.derivative(g_rim)
+    if not slope:
+        return (float(C[0]) if np.ndim(x) == 0 else C.reshape(np.shape(x))), None
     if np.ndim(x) == 0:
         return float(C[0]), float(dC[0])
     return C.reshape(np.shape(x)), dC.reshape(np.shape(x))
