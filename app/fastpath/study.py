@@ -27,8 +27,9 @@ __all__ = ["StudyBox", "study_table", "design_value", "pipeline_outputs", "SECTI
 
 #: summary sections the study tables hold
 SECTIONS = ("mechanics", "electrostatics", "coupled", "damping", "response")
-#: the outputs whose held-out errors refine a study table (what studies constrain and optimise);
-#: every other output is reported where it meets the tolerance and left out otherwise
+#: the outputs whose held-out errors refine a study table built without a study's own keys
+#: (what studies commonly constrain and optimise); every other output is reported where it
+#: meets the tolerance and left out otherwise
 DRIVING_OUTPUTS = (
     "response.sensitivity_db_v_per_pa", "response.sensitivity_v_per_pa",
     "response.noise_dba_spl", "response.snr_db", "response.resonance_hz",
@@ -168,7 +169,9 @@ def study_table(box: StudyBox, *, tol: float = 1e-3, nodes: int = 3, max_nodes: 
         Also tabulate the outputs of the distributed reference of the response
         (:data:`diagap.response_stage.DISTRIBUTED_OUTPUTS`; a fifth of the cost of a point).
     drive : sequence of str
-        Outputs that refine the table besides :data:`DRIVING_OUTPUTS` (a study's own keys).
+        The outputs whose held-out errors refine the table (a study's own keys: what it
+        reports, constrains or optimises); empty: :data:`DRIVING_OUTPUTS`. Every other output
+        is reported where it meets the tolerance at the held-out points and left out otherwise.
     mapper : callable, optional
         :func:`diagap.fastpath.refine.mapper_for` (local processes or a Dask client).
 
@@ -181,7 +184,7 @@ def study_table(box: StudyBox, *, tol: float = 1e-3, nodes: int = 3, max_nodes: 
     from diagap.fastpath.refine import mapper_for
     from diagap.fastpath.store import held_table
 
-    driving = sorted(set(DRIVING_OUTPUTS) | set(drive))
+    driving = sorted(set(drive) or set(DRIVING_OUTPUTS))
 
     def build():
         axes = [_axis(p, lo, hi, nodes) for p, lo, hi in box.ranges]
