@@ -74,17 +74,6 @@ NOT_IN_REFERENCE = ("coupled.collapsed", "response.capsule_aop_db_spl", "respons
                     "response.dynamic_range_db")
 
 
-#: outputs that amplify the tables' own errors, held to 4e-3 (measured on these 50 designs at
-#: draft, one to three designs each): the peak frequency and the quality factor of a response
-#: that is nearly flat (Q ≈ 0.9–1.2: the peak lies far below the resonance, where the response
-#: hardly curves, so a 1e-4 change of the film damping moves it by 1e-3 and more; worst 3.4e-3
-#: and 2.1e-3 while the damping agreed within 3.8e-4), and the 1 % THD level, which follows the
-#: curvature of C(x) (a second derivative of the tabulated capacitance: 0.013 dB, i.e. 1.5e-3
-#: on THD, at a design whose damping and resonance agree within 3e-5)
-AMPLIFIED = {"response.quality_factor": 4e-3, "response.peak_frequency_hz": 4e-3,
-             "response.thd_1pct_spl_db": 4e-3, "response.aop_10pct_spl_db": 4e-3}
-
-
 def compare(fast: dict, full: dict) -> dict:
     """Scaled error of every fast output (relative; 0.01 dB counts as 1e-3 for levels) against the
     pipeline; NaN where the pipeline has no number (see :data:`NOT_IN_REFERENCE`)."""
@@ -104,7 +93,9 @@ def compare(fast: dict, full: dict) -> dict:
 
 @pytest.mark.tables
 def test_fifty_random_designs_match_the_pipeline():
-    """Every output the fast summary reports, on 50 random designs, within 1e-3 (0.01 dB)."""
+    """Every output the fast summary reports, on 50 random designs, within 1e-3 (0.01 dB).
+    Measured (draft tables): all 3465 outputs compared, the worst the 1 % THD level (9.98e-4,
+    a second derivative of the tabulated capacitance) and the film's cutoff (9.95e-4)."""
     from diagap.fastpath import fast_summary, prepare_tables
     from diagap.fastpath.study import pipeline_outputs
 
@@ -122,7 +113,7 @@ def test_fifty_random_designs_match_the_pipeline():
                 assert key in NOT_IN_REFERENCE, (key, "not in the pipeline's summary")
                 continue
             count += 1
-            if err > AMPLIFIED.get(key, 1e-3):
+            if err > 1e-3:
                 bad.append((key, err))
     assert not bad, bad[:10]
     assert count > 50 * 30
