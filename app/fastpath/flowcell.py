@@ -84,8 +84,8 @@ __all__ = ["CELL_RANGE", "CELL_RADIUS_OVER_PITCH", "cell_table", "scaled_cell",
 #: The validated range of the cell table, (low, high) of each dimensionless group (R_c the
 #: radius of the circle of the cell's area, 0.525 p hex, 0.564 p square):
 #:
-#: - ``hole_radius_over_cell_radius`` r/R_c: open area 2.3 % … 74 %, r/p 0.08 … 0.45 (hex,
-#:   the electrostatic cell table's limit), 0.085 … 0.485 (square), from sparse condenser
+#: - ``hole_radius_over_cell_radius`` r/R_c: open area 1 % … 74 %, r/p 0.053 … 0.45 (hex,
+#:   the electrostatic cell table's range), 0.056 … 0.485 (square), from sparse condenser
 #:   backplates to open MEMS backplates near the r < p/2 limit of the schema;
 #: - ``gap_over_cell_radius`` g/R_c: g/p 0.053 … 0.53 (hex): a 16 µm gap over 0.3 mm pitch
 #:   to a 5 µm gap over 10 µm pitch (the demo: 0.38; measurement capsule 0.13);
@@ -96,7 +96,7 @@ __all__ = ["CELL_RANGE", "CELL_RADIUS_OVER_PITCH", "cell_table", "scaled_cell",
 #:   beyond it the slip model is out of its range and the cell FE's mesh-to-mesh scatter at
 #:   "draft" (≈5e-4 at Kn = 1) no longer allows a 1e-3 table.
 CELL_RANGE = {
-    "hole_radius_over_cell_radius": (0.15, 0.86),
+    "hole_radius_over_cell_radius": (0.1, 0.86),
     "gap_over_cell_radius": (0.1, 1.0),
     "thickness_over_cell_radius": (0.1, 4.0),
     "knudsen": (1.0e-3, 0.1),
