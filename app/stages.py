@@ -253,21 +253,23 @@ def _piston_radius(design: Design) -> float:
     return d.size_m if d.shape == "circle" else d.size_m / math.sqrt(math.pi)
 
 
-#: mesh level of the lumped film (:func:`_film_table`): the refinement of the distributed
-#: solve's finer film level (``FILM_LEVELS[1]``). Measured on random clamped disks (draft plate):
-#: b(f) and k(f) within 2.7e-4 of a converged radial film there, against 1.0e-3 … 1.8e-3 on
-#: level 1 and 6e-3 … 1e-2 on level 0 (a steady P2 convergence, the differences shrinking 4–5×
-#: per level); the level-1 error moved the quality factor by up to 2e-3 and the peak frequency
-#: of a nearly flat response by up to 3e-3. Cost: 0.2–0.25 s for the 51 frequencies.
-LUMPED_FILM_LEVEL = 2
+#: the lumped film (:func:`_film_table`) runs on the distributed solve's finer film mesh
+#: (``FILM_LEVELS[1]``) when that has at least this many degrees of freedom, else on its
+#: refinement. Measured: on random clamped disks whose level 1 has 289 DOFs, b(f) and k(f) there
+#: were 1.0e-3 … 1.8e-3 off a converged radial film (6e-3 … 1e-2 on level 0), and within
+#: 2.7e-4 on the refinement (1217 DOFs, 0.2–0.25 s for the 51 frequencies); that level-1 error
+#: moved the quality factor by up to 2e-3 and the peak frequency of a nearly flat response by
+#: up to 3e-3. The demo's level 1 (993 DOFs) is within 5e-5 of its refinement (4097 DOFs,
+#: 0.8 s), so it stays there.
+LUMPED_FILM_MIN_DOFS = 900
 
 
 def _film_table(design: Design, mech, air, sq):
     """b(f), k_film(f) of the film on the static shape, with the air mass of the film and the
-    holes (:mod:`fem.response.film`, on the refinement of the distributed solve's finer film
-    mesh, :data:`LUMPED_FILM_LEVEL`)."""
+    holes (:mod:`fem.response.film`, on the distributed solve's finer film mesh or its
+    refinement, :data:`LUMPED_FILM_MIN_DOFS`)."""
     from diagap.extract import film_coefficients
-    from diagap.fem.response.coupled import F_MAX_HZ, FILM_FAMILY
+    from diagap.fem.response.coupled import F_MAX_HZ, FILM_FAMILY, FILM_LEVELS
     from diagap.fem.response.film import film_layer, film_operator
     from diagap.lumped.model import FilmTable
 
@@ -278,8 +280,10 @@ def _film_table(design: Design, mech, air, sq):
     f = np.asarray(sq.frequencies_hz, float)
     scale = b.electrode_size_m if d.shape == "circle" else 0.5 * b.electrode_size_m
     layer = film_layer(coef, scale, F_MAX_HZ)
-    fo = film_operator(d.shape, FILM_FAMILY[design.analysis.accuracy], layer, LUMPED_FILM_LEVEL,
-                       scale)
+    family = FILM_FAMILY[design.analysis.accuracy]
+    fo = film_operator(d.shape, family, layer, FILM_LEVELS[1], scale)
+    if fo.n < LUMPED_FILM_MIN_DOFS:
+        fo = film_operator(d.shape, family, layer, FILM_LEVELS[1] + 1, scale)
     z = fo.impedance_spectrum(coef, 2 * np.pi * f, mech.static_shape(fo.xq_m, fo.yq_m))
     return FilmTable(tuple(f.tolist()), tuple(z.real.tolist()),
                      tuple((-2 * np.pi * f * z.imag).tolist()))

@@ -51,7 +51,7 @@ pipeline; the film table within 5e-5 of the stage's two-dimensional film (whose 
 discretisation error that is). With the device of the "draft" cell and rim tables instead
 (those designs and four random clamped circles): sensitivity within 0.0024 dB, noise and SNR
 within 0.0015 dB, every other output within 0.0035 dB or 3.9e-4 relative. Since the stage's
-lumped film moved to a finer mesh (:data:`diagap.stages.LUMPED_FILM_LEVEL`), every output of the
+lumped film moved to a finer mesh (:data:`diagap.stages.LUMPED_FILM_MIN_DOFS`), every output of the
 whole fast summary is within 1e-3 of the pipeline on 50 random designs at draft
 (tests/bench/bench_fastpath_all.py). Time per design with a response (one idle core of two,
 profile of 50 designs): the model ≈ 12 ms (the radial film ≈ 4 ms of it), then the stage's own
