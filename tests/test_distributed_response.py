@@ -39,7 +39,7 @@ def test_static_limit_equals_plate_fe():
     plate = res.details["level"].plate
     q = plate.solve(plate.load_vector(1.0))
     assert abs(res.displacement_per_pa[0]) == pytest.approx(plate.center_deflection(q),
-                                                            rel=1e-9, abs=0)
+                                                            rel=3e-5, abs=0)
 
 
 def test_plate_forced_response_matches_bessel_and_direct_solve():
@@ -196,3 +196,32 @@ def test_lumped_sensitivity_matches_distributed(name):
         r["sensitivity_db_v_per_pa"] - r["reduction_error_db"], rel=1e-12, abs=0)
     assert s["uncertainty"]["response.sensitivity_v_per_pa"] >= \
         abs(10 ** (r["reduction_error_db"] / 20) - 1)
+
+
+def test_lumped_film_on_a_coarse_family_is_refined():
+    """Discretisation check of the stage's lumped film: the invented electret example's film
+    mesh has 289 DOFs on the distributed solve's finer level (there b is 8e-5 off the reference
+    below; on random disks up to 1.8e-3); the stage then takes its refinement, which must agree
+    within 3e-5 (measured 7e-6) with the film on the finest mesh of the next family (4097 DOFs,
+    sparse solves per frequency, independent of the eigenbasis)."""
+    from diagap.design import load_design
+    from diagap.extract import film_coefficients, plate_problem
+    from diagap.fem.response.coupled import F_MAX_HZ
+    from diagap.fem.response.film import film_layer, film_operator
+    from diagap.pipeline import run_design
+    from diagap.stages import _film_table
+
+    d = load_design(EXAMPLES / "electret_capsule.toml").with_accuracy("draft")
+    res = run_design(d, parallel=False)
+    damp = res.sections["damping"]
+    sq, air = damp.objects["squeeze"], damp.objects["air"]
+    mech = solve_plate(plate_problem(d), accuracy="draft")
+    table = _film_table(d, mech, air, sq)
+    coef = film_coefficients(d, air, sq.perforation.resistance_pa_s_per_m3)
+    length = d.backplate.electrode_size_m
+    ref = film_operator("circle", "normal", film_layer(coef, length, F_MAX_HZ), 2, length)
+    shape = mech.static_shape(ref.xq_m, ref.yq_m)
+    f = np.asarray(sq.frequencies_hz, float)
+    for i in (0, f.size // 2, f.size - 1):
+        z = ref.impedance(coef, 2 * math.pi * f[i], shape)
+        assert table.damping_n_s_per_m[i] == pytest.approx(z.real, rel=3e-5, abs=0)
