@@ -454,23 +454,33 @@ def distortion_vs_spl(model: LumpedModel, frequency_hz: float = 1000.0, spl_db=N
 _scan_state: dict = {}
 
 
+def _jump_db(sols, es, room: float, aim_thd: float | None, room_share: float) -> float:
+    """The longest step (dB) from the last solution ``sols[-1]``: THD extrapolated as a power
+    of the pressure (the slope of the last two solutions, at least 1: THD ∝ p) to reach
+    ``aim_thd`` at most, the displacement amplitude to reach ``room_share`` of the C(x)
+    ``room`` at most, and :data:`_SKIP_MAX_DB` at most."""
+    s = sols[-1]
+    k = math.log(10.0) / 20.0
+    if len(sols) > 1 and s.thd > 0 and sols[-2].thd > 0:
+        k = max(k, math.log(s.thd / sols[-2].thd) / (s.spl_db - sols[-2].spl_db))
+    step = _SKIP_MAX_DB
+    if aim_thd is not None and s.thd > 0:
+        step = min(step, math.log(aim_thd / s.thd) / k)
+    amp = max(s.peak_displacement_m - es.xb, es.xb - s.min_displacement_m)
+    if amp > 0:
+        step = min(step, 20.0 * math.log10(room_share * room / amp))
+    return step
+
+
 def _skip_to(levels, i, sols, es) -> int:
     """Index of the highest level from ``levels[i]`` on that the scan may go to directly from its
     last solution (``i`` itself when no level may be passed over); see
     :func:`distortion_vs_spl`."""
-    s, curve = sols[-1], es.curve
-    k = math.log(10.0) / 20.0
-    if len(sols) > 1 and s.thd > 0 and sols[-2].thd > 0:
-        k = max(k, math.log(s.thd / sols[-2].thd) / (s.spl_db - sols[-2].spl_db))
+    curve = es.curve
     room = min(curve.x_max_m - es.xb, es.xb - curve.x_min_m)
-    amp = max(s.peak_displacement_m - es.xb, es.xb - s.min_displacement_m)
-    step = _SKIP_MAX_DB
-    if s.thd > 0:
-        step = min(step, math.log(_SKIP_AIM_THD / s.thd) / k)
-    if amp > 0:
-        step = min(step, 20.0 * math.log10(_SKIP_ROOM * room / amp))
+    top = sols[-1].spl_db + _jump_db(sols, es, room, _SKIP_AIM_THD, _SKIP_ROOM)
     j = i
-    while j + 1 < len(levels) and levels[j + 1] <= s.spl_db + step + 1e-9:
+    while j + 1 < len(levels) and levels[j + 1] <= top + 1e-9:
         j += 1
     return j
 
@@ -527,19 +537,12 @@ def _sparse_scan(model: LumpedModel, frequency_hz: float, levels, kw) -> Distort
     while i + 1 < len(levels):
         j = 0
         if sols:
-            s = sols[-1]
-            k = math.log(10.0) / 20.0
-            if len(sols) > 1 and s.thd > 0 and sols[-2].thd > 0:
-                k = max(k, math.log(s.thd / sols[-2].thd) / (s.spl_db - sols[-2].spl_db))
-            step = _SKIP_MAX_DB
-            nxt = [t for t in (0.01, 0.10) if t > s.thd]
-            if nxt and s.thd > 0:
-                step = min(step, math.log(_SPARSE_AIM * nxt[0] / s.thd) / k)
-            amp = max(s.peak_displacement_m - es.xb, es.xb - s.min_displacement_m)
-            if amp > 0:
-                step = min(step, 20.0 * math.log10(_SPARSE_ROOM * room / amp))
+            nxt = [t for t in (0.01, 0.10) if t > sols[-1].thd]
+            top = sols[-1].spl_db + _jump_db(sols, es, room,
+                                             _SPARSE_AIM * nxt[0] if nxt else None,
+                                             _SPARSE_ROOM)
             j = i + 1
-            while j + 1 < min(len(levels), bad_at) and levels[j + 1] <= s.spl_db + step + 1e-9:
+            while j + 1 < min(len(levels), bad_at) and levels[j + 1] <= top + 1e-9:
                 j += 1
             if bad_at < len(levels):
                 j = min(j, max(i + 1, (i + bad_at) // 2))

@@ -50,6 +50,30 @@ def test_kink_makes_segments_split_until_held_out_points_agree():
         assert table((u,))[0] == pytest.approx(f((u,))["y"], rel=1e-4, abs=0)
 
 
+def test_batches_along_the_last_axis_give_the_pointwise_table():
+    """``along_last`` computes the points sharing all but the last coordinate in one call:
+    the same table as point by point, with one call per group of points."""
+    def f(x):
+        a, b = x
+        return {"p": 1.0 + abs(a - 0.37) ** 1.5 + a * b**3}
+
+    groups: list = []
+
+    def f_last(head, lasts):
+        groups.append(len(lasts))
+        return [f((*head, b)) for b in lasts]
+
+    axes = [Axis("a", False, (0.0, 1.0), 5), Axis("b", False, (0.0, 2.0), 4)]
+    plain, facts = build_table(f, axes, tol=1e-4, max_splits=2, validate=6)
+    batched, facts_b = build_table(f, axes, tol=1e-4, max_splits=2, validate=6,
+                                   along_last=f_last)
+    assert [a.breaks for a in batched.axes] == [a.breaks for a in plain.axes]
+    np.testing.assert_array_equal(batched.values, plain.values)
+    assert facts_b == facts
+    assert sum(groups) == facts["reference_points"] and len(groups) < sum(groups)
+    assert max(groups) == 4  # a whole tensor line along b in one call
+
+
 def test_decibel_levels_are_measured_in_decibels():
     err = scaled_error(["response.sensitivity_db_v_per_pa", "coupled.pull_in_voltage_v"],
                        [-47.005, 20.02], [-47.0, 20.0])

@@ -24,7 +24,8 @@ from diagap.fem.air import air_properties
 from diagap.fem.film.perforation import PerforationError, perforation
 from diagap.fem.film.squeeze import SqueezeError, squeeze_film
 from diagap.fem.film.stokes import (ORDER, StokesCellError, cell_flow_resistance,
-                                    scaled_cell_resistance, slip_length)
+                                    scaled_cell_resistance, scaled_cell_resistances,
+                                    slip_length)
 from diagap.meshes.flow_cell import FlowCellGeometry
 
 MU = 1.8e-5  # Pa·s
@@ -75,10 +76,11 @@ def test_slip_follows_veijola_trend():
     Veijola's film factor 1/(1 + 9.638 Kn^1.159) — within 2 % for Kn <= 0.03 and 12 % at
     Kn = 0.1 (first-order slip is weaker than the fit there: measured 0.656 vs 0.599)."""
     geo = FlowCellGeometry(25.0, 10.0, 5.0, 50.0)
-    z0 = scaled_cell_resistance(geo, 0.0, "draft")["resistance"]
+    cases = ((0.01, 0.02), (0.03, 0.02), (0.1, 0.12))
+    z0, *zs = (r["resistance"] for r in
+               scaled_cell_resistances(geo, [0.0] + [kn for kn, _ in cases], "draft"))
     ratios = []
-    for kn, tol in ((0.01, 0.02), (0.03, 0.02), (0.1, 0.12)):
-        z = scaled_cell_resistance(geo, kn, "draft")["resistance"]
+    for (kn, tol), z in zip(cases, zs):
         veijola = 1.0 / (1.0 + 9.638 * kn**1.159)  # Veijola et al. 1995
         assert z / z0 / veijola - 1 == pytest.approx(0.0, abs=tol)
         ratios.append(z / z0)
@@ -97,6 +99,20 @@ def test_zero_slip_length_is_no_slip():
                                                        rel=1e-12, abs=0)
     assert slip_length(air.mean_free_path_m, 0.5) == pytest.approx(3 * air.mean_free_path_m,
                                                                    rel=1e-14, abs=0)
+
+
+def test_several_slip_lengths_on_one_mesh_match_one_at_a_time():
+    """The batch along the slip length (one mesh and assembly per level, the wall integrals
+    scaled by 1/ℓ̂) gives each slip length's own solve, in any order, no slip included."""
+    geo = demo_cell()
+    slips = [0.03, 0.0, 1e-9, 0.1]
+    batch = scaled_cell_resistances(geo, slips, "draft")
+    for slip, got in zip(slips, batch):
+        alone = scaled_cell_resistance(geo, slip, "draft")
+        np.testing.assert_allclose(got["values"], alone["values"], rtol=1e-12, atol=0)
+        assert got["rel_error"] == pytest.approx(alone["rel_error"], rel=1e-9, abs=0)
+        np.testing.assert_array_equal(got["dofs"], alone["dofs"])
+    assert batch[1]["dofs"][-1] < batch[0]["dofs"][-1]  # no slip: tangential walls fixed
 
 
 # ---------------------------------------------------------------------------- convergence

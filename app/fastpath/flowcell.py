@@ -78,7 +78,7 @@ import numpy as np
 from diagap.fastpath.grid import Axis, TensorTable
 from diagap.fastpath.store import module_hash
 
-__all__ = ["CELL_RANGE", "CELL_RADIUS_OVER_PITCH", "cell_table", "scaled_cell",
+__all__ = ["CELL_RANGE", "CELL_RADIUS_OVER_PITCH", "cell_table", "scaled_cell", "scaled_cells",
            "closed_form_scaled", "cell_coordinates", "cell_resistance_scaled", "outside"]
 
 #: The validated range of the cell table, (low, high) of each dimensionless group (R_c the
@@ -133,16 +133,22 @@ def closed_form_scaled(x) -> float:
 def scaled_cell(accuracy: str, y) -> dict:
     """The Stokes FE of the cell at table coordinates y: the factor over Ẑ₀ and the FE's
     error estimate."""
-    from diagap.fem.film.stokes import scaled_cell_resistance
+    return scaled_cells(accuracy, tuple(y)[:3], (tuple(y)[3],))[0]
+
+
+def scaled_cells(accuracy: str, head, knudsens) -> list[dict]:
+    """:func:`scaled_cell` at the table coordinates (*head, Kn) for each Kn of ``knudsens``:
+    one mesh and one assembly per level serve every Knudsen number of a geometry."""
+    from diagap.fem.film.stokes import scaled_cell_resistances
     from diagap.meshes.flow_cell import FlowCellGeometry
 
-    x = _groups(y)
-    q, gc, tc, kn = x
+    xs = [_groups((*head, kn)) for kn in knudsens]
+    q, gc, tc, _ = xs[0]
     rc = 1.0 / gc
     geo = FlowCellGeometry(rc, q * rc, tc * rc, _EXIT_OVER_CELL * rc)
-    res = scaled_cell_resistance(geo, kn, accuracy)
-    return {"resistance_factor": res["resistance"] / closed_form_scaled(x),
-            "rel_error": float(res["rel_error"])}
+    res = scaled_cell_resistances(geo, [x[3] for x in xs], accuracy)
+    return [{"resistance_factor": r["resistance"] / closed_form_scaled(x),
+             "rel_error": float(r["rel_error"])} for r, x in zip(res, xs)]
 
 
 def _drives(name: str) -> bool:
@@ -183,7 +189,8 @@ def cell_table(accuracy: str = "normal", *, tol: float = 1e-3, mapper=None,
     def build():
         return build_table(partial(scaled_cell, accuracy), cell_axes(), tol=tol,
                            mapper=mapper or mapper_for(), validate=validate,
-                           max_splits=max_splits, drive=_drives)
+                           max_splits=max_splits, drive=_drives,
+                           along_last=partial(scaled_cells, accuracy))
 
     params = {"accuracy": accuracy, "tol": tol, "validate": validate, "max_splits": max_splits,
               "range": {k: list(v) for k, v in CELL_RANGE.items()}, "start": _START,

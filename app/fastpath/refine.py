@@ -149,11 +149,18 @@ def _key(u) -> tuple:
     return tuple(float(f"{v:.12g}") for v in u)
 
 
-class _Reference:
-    """Memo of reference values by mapped point; computes missing points in one batch."""
+def _run_group(func_last, group):
+    head, lasts = group
+    return func_last(head, lasts)
 
-    def __init__(self, func, mapper):
-        self.func, self.mapper, self.memo, self.count = func, mapper, {}, 0
+
+class _Reference:
+    """Memo of reference values by mapped point; computes missing points in one batch (by
+    groups that share all but the last coordinate when ``func_last`` is given)."""
+
+    def __init__(self, func, mapper, func_last=None):
+        self.func, self.mapper, self.func_last = func, mapper, func_last
+        self.memo, self.count = {}, 0
 
     def need(self, axes, points_u) -> None:
         todo = list(dict.fromkeys(_key(u) for u in points_u if _key(u) not in self.memo))
@@ -161,7 +168,20 @@ class _Reference:
             return
         xs = [tuple(float(a.from_mapped(v)) for a, v in zip(axes, u)) for u in todo]
         log.info("fast-path table: computing %d reference points", len(xs))
-        for u, out in zip(todo, self.mapper(self.func, xs)):
+        if self.func_last is None:
+            outs = self.mapper(self.func, xs)
+        else:
+            groups: dict = {}
+            for i, x in enumerate(xs):
+                groups.setdefault(x[:-1], []).append(i)
+            heads = list(groups)
+            batches = self.mapper(partial(_run_group, self.func_last),
+                                  [(h, tuple(xs[i][-1] for i in groups[h])) for h in heads])
+            outs = [None] * len(xs)
+            for h, batch in zip(heads, batches):
+                for i, out in zip(groups[h], batch):
+                    outs[i] = out
+        for u, out in zip(todo, outs):
             self.memo[u] = {k: float(v) for k, v in out.items()
                             if v is not None and math.isfinite(float(v))}
         self.count += len(todo)
@@ -208,8 +228,8 @@ def _check_points(axes, k, lo, hi) -> list:
 
 def build_table(func: Callable, axes: Sequence[Axis], *, tol: float = 1e-3,
                 max_splits: int = 3, mapper: Callable = serial_mapper, validate: int = 0,
-                seed: int = 0, drive: Callable[[str], bool] | None = None
-                ) -> tuple[TensorTable, dict]:
+                seed: int = 0, drive: Callable[[str], bool] | None = None,
+                along_last: Callable | None = None) -> tuple[TensorTable, dict]:
     """Tabulate ``func`` on ``axes`` until every held-out check is within ``tol``.
 
     Parameters
@@ -232,6 +252,10 @@ def build_table(func: Callable, axes: Sequence[Axis], *, tol: float = 1e-3,
     drive : callable, optional
         ``drive(name)`` is True for the outputs whose errors make a segment split (default:
         all). The others are certified where they meet ``tol`` and left uncertified otherwise.
+    along_last : callable, optional
+        ``along_last(x_head, lasts) -> [{name: value}, ...]``: ``func`` at (*x_head, v) for
+        every v of ``lasts`` in one call (one mesh for the points that differ only in the last
+        axis); the batches are then mapped by groups. It must agree with ``func``.
 
     Returns
     -------
@@ -239,7 +263,7 @@ def build_table(func: Callable, axes: Sequence[Axis], *, tol: float = 1e-3,
         The table, and build facts: reference points computed, uncertified outputs.
     """
     axes = list(axes)
-    ref = _Reference(func, mapper)
+    ref = _Reference(func, mapper, along_last)
     ref.need(axes, _tensor(axes))
     names = _names(ref, axes)
     held = np.zeros(len(names))
