@@ -141,41 +141,54 @@ def _saddle_solve(kf, rhs: np.ndarray) -> np.ndarray:
 
 def _solve_level(geo: FlowCellGeometry, slips, level: float) -> list[tuple[float, int]]:
     """Scaled resistance Ẑ = D̂/Q̂² and the number of unknowns on one mesh, for each slip
-    length of ``slips`` (the mesh, the viscous and divergence blocks and the wall integrals
-    are shared; the wall integrals enter scaled by 1/ℓ̂)."""
+    length of ``slips``: the mesh, the blocks restricted to the free unknowns and the wall
+    integrals (which enter scaled by 1/ℓ̂) are built once and shared."""
     mesh = flow_cell_mesh(geo, level)
     ub = Basis(mesh, ElementVector(ElementTriP2()), intorder=5)
     pb = Basis(mesh, ElementTriP1(), quadrature=ub.quadrature)
     a0 = _viscous.assemble(ub)
     b = _divergence.assemble(ub, pb)
-    walls = None
-    nu = ub.N
-    fixed0 = [ub.get_dofs(n).all("u^1") for n in ("axis", "side", "plate_v")]
-    fixed0 += [ub.get_dofs(n).all("u^2") for n in ("bottom", "plate_h")]
+    k0 = sp.bmat([[a0, b.T], [b, None]], format="csr")
+    nu, n = ub.N, k0.shape[0]
+    fixed0 = [ub.get_dofs(name).all("u^1") for name in ("axis", "side", "plate_v")]
+    fixed0 += [ub.get_dofs(name).all("u^2") for name in ("bottom", "plate_h")]
     tangential = [ub.get_dofs("bottom").all("u^1"), ub.get_dofs("plate_h").all("u^1"),
                   ub.get_dofs("plate_v").all("u^2")]
-    lifted = ub.get_dofs("bottom").all("u^2")
+    lift = np.zeros(n)
+    lift[ub.get_dofs("bottom").all("u^2")] = 1.0
     flow = math.pi * geo.cell_radius**2
+    shared: dict = {}
+
+    def blocks(no_slip: bool):
+        """(free unknowns, K_ff, −(K lift)_f, W_ff, −(W lift)_f, W on the velocities)."""
+        if no_slip not in shared:
+            fixed = np.unique(np.concatenate(fixed0 + (tangential if no_slip else [])))
+            free = np.setdiff1d(np.arange(n), fixed)
+            walls = wf = rw = None
+            if not no_slip:  # Σ_walls ∫ u_t w_t 2πr ds, the 1/ℓ̂ taken out
+                walls = sum(form.assemble(FacetBasis(mesh, ub.elem, facets=mesh.boundaries[nm],
+                                                     intorder=5), slip=1.0)
+                            for nm, form in (("bottom", _slip_r), ("plate_h", _slip_r),
+                                             ("plate_v", _slip_z)))
+                w = sp.block_diag((walls, sp.csr_matrix((n - nu, n - nu))), format="csr")
+                wf, rw = w[free][:, free].tocsc(), -(w @ lift)[free]
+            shared[no_slip] = (free, k0[free][:, free].tocsc(), -(k0 @ lift)[free],
+                               wf, rw, walls)
+        return shared[no_slip]
+
     out = []
     for slip in slips:
         slip = float(slip)
-        a = a0
+        free, kf, rk, wf, rw, walls = blocks(slip == 0)
         if slip > 0:
-            if walls is None:  # Σ_walls ∫ u_t w_t 2πr ds, the 1/ℓ̂ taken out
-                walls = sum(form.assemble(FacetBasis(mesh, ub.elem, facets=mesh.boundaries[n],
-                                                     intorder=5), slip=1.0)
-                            for n, form in (("bottom", _slip_r), ("plate_h", _slip_r),
-                                            ("plate_v", _slip_z)))
-            a = a0 + walls * (1.0 / slip)
-        k = sp.bmat([[a, b.T], [b, None]], format="csc")
-        x = np.zeros(k.shape[0])
-        fixed = np.unique(np.concatenate(fixed0 + (tangential if slip == 0 else [])))
-        x[lifted] = 1.0
-        free = np.setdiff1d(np.arange(k.shape[0]), fixed)
-        rhs = -(k @ x)[free]
-        x[free] = _saddle_solve(k[free][:, free].tocsc(), rhs)
+            kf, rk = kf + wf * (1.0 / slip), rk + rw * (1.0 / slip)
+        x = lift.copy()
+        x[free] = _saddle_solve(kf, rk)
         u = x[:nu]
-        out.append((float(u @ (a @ u)) / flow**2, free.size))
+        dissipation = float(u @ (a0 @ u))
+        if slip > 0:
+            dissipation += float(u @ (walls @ u)) / slip
+        out.append((dissipation / flow**2, free.size))
     return out
 
 
