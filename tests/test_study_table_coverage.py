@@ -117,3 +117,47 @@ def test_corner_collapsed_beyond_doubt_counts_as_answered(fake_build, monkeypatc
     evaluator, built = prepare_tables(demo_design().with_accuracy("draft"), keys, ranges,
                                       workers=1)
     assert (built.kind == "global") is covered
+
+
+def test_optimisation_builds_the_global_tables_of_its_family(fake_build, monkeypatch):
+    """An optimisation (``build_global``) whose box lies in the global tables' family builds
+    the global tables its nominal design and corners read, then reads them, with no box table;
+    a box outside the family (a simply supported edge) or a tolerance study (no
+    ``build_global``) builds the box table; a box the built tables still do not cover falls
+    back to it."""
+    import diagap.fastpath as fastpath
+    from diagap import with_overrides
+    from diagap.studies.tables import prepare_tables
+
+    keys = ("coupled.bias_margin", "response.snr_db")
+    ranges = (("backplate.hole_radius", 3e-6, 5e-6), ("backplate.hole_pitch", 18e-6, 22e-6))
+    built_for: list = []
+    state = {"built": False, "answers": True}
+
+    def global_fast(design, box=None, *, mapper=None, **options):
+        if mapper is not fastpath.read_only:  # a building mapper: the tables now exist
+            built_for.append((design.backplate.hole_radius_m, design.backplate.hole_pitch_m))
+            state["built"] = True
+        if not (state["built"] and state["answers"]):
+            raise fastpath.FastPathUnavailable("flowcell table not built")
+        return {k: 1.0 for k in keys}
+
+    monkeypatch.setattr(fastpath, "fast_summary", global_fast)
+    fake_build["table"], fake_build["facts"] = _table(keys), {"uncertified": []}
+    design = demo_design().with_accuracy("draft")
+
+    evaluator, built = prepare_tables(design, keys, ranges, workers=1)  # tolerance-like
+    assert built.kind == "box" and evaluator.box is not None and not built_for
+
+    evaluator, built = prepare_tables(design, keys, ranges, workers=1, build_global=True)
+    assert built.used and built.kind == "global" and evaluator.box is None
+    assert len(built_for) == 5 and (5e-6, 22e-6) in built_for  # nominal and four corners
+
+    state["built"], built_for[:] = False, []
+    supported = with_overrides(design, {"diaphragm.edge": "simply-supported"})
+    evaluator, built = prepare_tables(supported, keys, ranges, workers=1, build_global=True)
+    assert built.kind == "box" and not built_for  # outside the family: nothing built
+
+    state["answers"] = False  # built, but a key still missing at the corners
+    evaluator, built = prepare_tables(design, keys, ranges, workers=1, build_global=True)
+    assert built.kind == "box" and evaluator.box is not None and len(built_for) == 5

@@ -310,7 +310,8 @@ def run_optimise(design, spec: OptimiseSpec, out_dir, *, evaluate=None, verify=N
             _note(display, "building the fast table over the variables' bounds")
             evaluate, built = prepare_tables(design, spec.keys, spec.variables,
                                              workers=runner.workers, client=runner.client,
-                                             table_options=table_options)
+                                             table_options=table_options,
+                                             build_global=True)
             runner.evaluate, runner.tag = evaluate, evaluator_tag(evaluate)
             tables = built.to_dict()
         prob = _Problem(spec, runner)
