@@ -123,8 +123,8 @@ def test_optimisation_builds_the_global_tables_of_its_family(fake_build, monkeyp
     """An optimisation (``build_global``) whose box lies in the global tables' family builds
     the global tables its nominal design and corners read, then reads them, with no box table;
     a box outside the family (a simply supported edge) or a tolerance study (no
-    ``build_global``) builds the box table; a box the built tables still do not cover falls
-    back to it."""
+    ``build_global``) or one worker (no build in this process) builds the box table; a box the
+    built tables still do not cover falls back to it."""
     import diagap.fastpath as fastpath
     from diagap import with_overrides
     from diagap.studies.tables import prepare_tables
@@ -150,14 +150,17 @@ def test_optimisation_builds_the_global_tables_of_its_family(fake_build, monkeyp
     assert built.kind == "box" and evaluator.box is not None and not built_for
 
     evaluator, built = prepare_tables(design, keys, ranges, workers=1, build_global=True)
+    assert built.kind == "box" and not built_for  # one worker: no global build in-process
+
+    evaluator, built = prepare_tables(design, keys, ranges, workers=2, build_global=True)
     assert built.used and built.kind == "global" and evaluator.box is None
     assert len(built_for) == 5 and (5e-6, 22e-6) in built_for  # nominal and four corners
 
     state["built"], built_for[:] = False, []
     supported = with_overrides(design, {"diaphragm.edge": "simply-supported"})
-    evaluator, built = prepare_tables(supported, keys, ranges, workers=1, build_global=True)
+    evaluator, built = prepare_tables(supported, keys, ranges, workers=2, build_global=True)
     assert built.kind == "box" and not built_for  # outside the family: nothing built
 
     state["answers"] = False  # built, but a key still missing at the corners
-    evaluator, built = prepare_tables(design, keys, ranges, workers=1, build_global=True)
+    evaluator, built = prepare_tables(design, keys, ranges, workers=2, build_global=True)
     assert built.kind == "box" and evaluator.box is not None and len(built_for) == 5

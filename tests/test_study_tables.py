@@ -65,8 +65,12 @@ def test_tolerance_samples_inside_the_box_use_the_table(draft, gap_study):
 def test_a_point_outside_the_box_falls_back_to_the_full_fe(draft, gap_study):
     from diagap.fastpath import StudyBox
 
+    from diagap.response_stage import is_distributed_output
+
     box = StudyBox(draft, (("backplate.gap", GAP_LO, GAP_HI),))
-    evaluator = KeyEvaluator(KEYS, False, box, tuple(sorted(SMALL.items())))
+    options = dict(SMALL, distributed=any(is_distributed_output(k) for k in KEYS),
+                   drive=tuple(sorted(KEYS)))  # the options the study's table was built with
+    evaluator = KeyEvaluator(KEYS, False, box, tuple(sorted(options.items())))
     inside = evaluator(with_overrides(draft, {"backplate.gap": 4.1e-6}))
     assert inside[PATH_KEY] is False
     outside = with_overrides(draft, {"backplate.gap": 4.6e-6})

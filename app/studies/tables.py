@@ -21,7 +21,8 @@ collapsed beyond doubt counts as answered: the full FE has no response there eit
 that reaches past pull-in is no obstacle, as it is for a box table) (the option
 ``box_only`` skips this). An optimisation (``build_global``) whose box lies in the global
 tables' family (:func:`family_covered`) builds the global tables it reads when they are missing
-(:func:`build_global_tables`, once per machine and accuracy) rather than a box table: over the
+(:func:`build_global_tables`, once per machine and accuracy; with a Dask client or more than
+one local worker) rather than a box table: over the
 wide bounds of a hole pattern the box table costs more (the demo's 3-variable box: 571 s at
 "draft", the global tables it reads about 4 min) and serves no other study. Otherwise the box table is built once in the calling process with the study's local workers or Dask client
 (:func:`diagap.fastpath.mapper_for`), cached on disk and kept in memory; the evaluations then
@@ -147,6 +148,18 @@ def build_global_tables(design, ranges, mapper) -> None:
             continue
 
 
+def _parallel(workers, client) -> bool:
+    """True for a Dask client or more than one local worker process: the global tables are
+    then built in worker processes (one process building all of them would keep growing)."""
+    import os
+
+    if client is not None:
+        return True
+    if workers is None:
+        workers = len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else 1
+    return int(workers) > 1
+
+
 def prepare_tables(design, keys, ranges, *, exact: bool = False, workers: int | None = 1,
                    client=None, table_options: dict | None = None, build_global: bool = False):
     """The evaluator of a study and what happened to its table.
@@ -174,6 +187,8 @@ def prepare_tables(design, keys, ranges, *, exact: bool = False, workers: int | 
         (:func:`family_covered`), build the global tables they read (:func:`build_global_tables`)
         instead of a box table, and use them if they then cover the box (an optimisation: a box
         table over wide bounds of the hole pattern costs more than the family's global tables).
+        Only with a Dask client or more than one local worker (the table points then run in
+        worker processes); with one worker the box table is built as before.
 
     Returns
     -------
@@ -196,7 +211,8 @@ def prepare_tables(design, keys, ranges, *, exact: bool = False, workers: int | 
         seconds = time.perf_counter() - t0
         log.info("the global tables cover the study's box (checked in %.1f s)", seconds)
         return KeyEvaluator(keys, False), TableBuild(True, seconds, kind="global")
-    if not box_only and build_global and family_covered(design, ranges):
+    if (not box_only and build_global and _parallel(workers, client)
+            and family_covered(design, ranges)):
         log.info("building the global tables of the study's design family")
         mapper = mapper_for(workers, client)
         try:
