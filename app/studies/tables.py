@@ -22,11 +22,11 @@ that reaches past pull-in is no obstacle, as it is for a box table) (the option
 ``box_only`` skips this). An optimisation (``build_global``) whose box lies in the global
 tables' family (:func:`family_covered`) builds the global tables it reads when they are missing
 (:func:`build_global_tables`, once per machine and accuracy; with a Dask client or more than
-one local worker) rather than a box table: over the
-wide bounds of a hole pattern the box table costs more (the demo's 3-variable box: 571 s at
-"draft"; the global tables it reads 382 s from an empty cache, meshes included, and the
-same optimum) and serves no other study. Otherwise the box table is built once in the calling process with the study's local workers or Dask client
-(:func:`diagap.fastpath.mapper_for`), cached on disk and kept in memory; the evaluations then
+one local worker) rather than a box table: over the wide bounds of a hole pattern the box table
+costs more (the demo's 3-variable box: 571 s at "draft"; the global tables it reads 382 s from
+an empty cache, meshes included, and the same optimum) and serves no other study. Otherwise
+the box table is built once in the calling process with the study's local workers or Dask
+client (:func:`diagap.fastpath.mapper_for`), cached on disk and kept in memory; the evaluations then
 only read it (:class:`diagap.evaluate.KeyEvaluator` with the box). Points outside the box, and
 outputs the table does not certify, are evaluated with the full FE pipeline. If the table cannot
 be built (a corner of the box outside the schema's cross-field limits, a design the tables do
@@ -152,13 +152,11 @@ def build_global_tables(design, ranges, mapper) -> None:
 def _parallel(workers, client) -> bool:
     """True for a Dask client or more than one local worker process: the global tables are
     then built in worker processes (one process building all of them would keep growing)."""
-    import os
+    from diagap.sweep.exec import available_cores
 
     if client is not None:
         return True
-    if workers is None:
-        workers = len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else 1
-    return int(workers) > 1
+    return int(available_cores() if workers is None else workers) > 1
 
 
 def prepare_tables(design, keys, ranges, *, exact: bool = False, workers: int | None = 1,
