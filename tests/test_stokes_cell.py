@@ -115,6 +115,21 @@ def test_several_slip_lengths_on_one_mesh_match_one_at_a_time():
     assert batch[1]["dofs"][-1] < batch[0]["dofs"][-1]  # no slip: tangential walls fixed
 
 
+def test_saddle_solve_falls_back_where_diagonal_pivots_fail():
+    """The fast LU takes diagonal pivots; where a tiny one ruins it (ε = 1e-14 on the diagonal:
+    residual 2e-4 with diagonal pivots), the residual check sends the system to the LU with
+    unrestricted pivoting: the solution of numpy's dense solve (LAPACK) comes back."""
+    import scipy.sparse as sp
+
+    from diagap.fem.film.stokes import _saddle_solve
+
+    for eps in (1e-14, 1e-17, 0.0):
+        k = np.array([[eps, 1.0, 0.0], [1.0, 1.0, 1.0], [0.0, 1.0, 1.0]])
+        rhs = np.array([1.0, 2.0, 3.0])
+        np.testing.assert_allclose(_saddle_solve(sp.csc_matrix(k), rhs),
+                                   np.linalg.solve(k, rhs), rtol=1e-12, atol=0)
+
+
 # ---------------------------------------------------------------------------- convergence
 @pytest.mark.parametrize("slip", [0.0, 65e-9 / 4e-6])
 def test_convergence_order_and_honest_estimate(slip):

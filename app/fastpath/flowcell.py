@@ -113,7 +113,7 @@ CELL_RADIUS_OVER_PITCH = {"hex": math.sqrt(math.sqrt(3.0) / (2.0 * math.pi)),
 #: H/R_c of the tabulated cells (the hexagonal lattice's exit chamber H = p)
 _EXIT_OVER_CELL = 1.0 / CELL_RADIUS_OVER_PITCH["hex"]
 #: (segments, Chebyshev nodes per segment) of each axis at the start of the refinement
-_START = ((2, 7), (3, 5), (1, 6), (2, 5))
+_START = ((2, 7), (3, 5), (1, 6), (1, 7))
 
 
 def _table_x(x) -> tuple:

@@ -99,7 +99,7 @@ ACCURACY_LEVELS = {"draft": 0.35, "normal": 0.3, "fine": 0.15}
 #: (2.2 with slip walls, 2.4–2.6 without, see the tests), so the estimate errs on the safe side
 ORDER = 1.5
 _TWO_PI = 2.0 * math.pi
-_SOLVER = 4  # bump when the solve changes (invalidates cached results)
+_SOLVER = 5  # bump when the solve changes (invalidates cached results)
 
 
 class StokesCellError(ValueError):
@@ -129,12 +129,18 @@ def _slip_z(u, v, w):
 
 
 def _saddle_solve(kf, rhs: np.ndarray) -> np.ndarray:
-    """Solve the symmetric saddle-point system: sparse LU with diagonal pivots preferred
-    (about twice as fast as unrestricted pivoting here), checked by its residual and redone
-    with unrestricted pivoting if that is above 1e-10 of the right-hand side."""
-    sol = spla.splu(kf, permc_spec="COLAMD", diag_pivot_thresh=0.01,
-                    options={"SymmetricMode": True}).solve(rhs)
-    if np.linalg.norm(kf @ sol - rhs) > 1e-10 * np.linalg.norm(rhs):
+    """Solve the symmetric saddle-point system: sparse LU of SuperLU with the minimum-degree
+    ordering of K + Kᵀ and diagonal pivots (the matrix is structurally symmetric; on the flow
+    cells at "draft" 1.3 … 1.7× faster than COLAMD with threshold pivoting, with less fill),
+    checked by its residual and redone with unrestricted pivoting if that is above 1e-10 of the
+    right-hand side or a diagonal pivot vanishes."""
+    try:
+        sol = spla.splu(kf, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.0,
+                        options={"SymmetricMode": True}).solve(rhs)
+        ok = np.linalg.norm(kf @ sol - rhs) <= 1e-10 * np.linalg.norm(rhs)
+    except RuntimeError:  # an exactly singular diagonal pivot
+        ok = False
+    if not ok:
         sol = spla.splu(kf, permc_spec="COLAMD").solve(rhs)
     return sol
 

@@ -31,6 +31,8 @@ def main() -> None:
     ap.add_argument("--accuracy", default="draft")
     ap.add_argument("--seed", type=int, default=5020261202)
     ap.add_argument("--no-compare", action="store_true", help="time the fast path only")
+    ap.add_argument("--dump", type=Path, help="write every design's fast and pipeline outputs "
+                    "to this JSON file")
     args = ap.parse_args()
     import numpy as np
 
@@ -41,8 +43,8 @@ def main() -> None:
     designs = [random_design(rng, args.accuracy) for _ in range(args.designs)]
     fast_summary(designs[0])  # tables read into memory
     times, worst, over, sections = [], defaultdict(float), defaultdict(int), defaultdict(int)
-    compared = 0
-    for d in designs:
+    compared, at, dumped = 0, {}, []
+    for i, d in enumerate(designs):
         t0 = time.perf_counter()
         fast = fast_summary(d)
         times.append(time.perf_counter() - t0)
@@ -50,22 +52,31 @@ def main() -> None:
             sections[s] += 1
         if args.no_compare:
             continue
-        for key, err in compare(fast, pipeline_outputs(d)).items():
+        full = pipeline_outputs(d)
+        if args.dump:
+            dumped.append({"fast": fast, "pipeline": full})
+        for key, err in compare(fast, full).items():
             compared += 1
             if math.isnan(err):
                 if key not in NOT_IN_REFERENCE:
                     over[key] += 1
                     worst[key] = math.inf
                 continue
-            worst[key] = max(worst[key], err)
+            if err > worst[key]:
+                worst[key], at[key] = err, i
             over[key] += err > 1e-3
     print(f"{len(designs)} designs at {args.accuracy}; sections answered: "
           + ", ".join(f"{s} {n}" for s, n in sorted(sections.items())))
     if not args.no_compare:
         for key in sorted(worst, key=worst.get, reverse=True):
-            print(f"  {key:60s} worst {worst[key]:.2e}  over 1e-3: {over[key]}")
+            print(f"  {key:60s} worst {worst[key]:.2e} (design {at.get(key, '-')})  "
+                  f"over 1e-3: {over[key]}")
         print(f"outputs over 1e-3 (or missing in the pipeline): {sum(over.values())} of "
               f"{compared} compared")
+    if args.dump:
+        import json
+
+        args.dump.write_text(json.dumps(dumped, default=float))
     print(f"fast_summary: median {1e3 * statistics.median(times):.1f} ms, max "
           f"{1e3 * max(times):.1f} ms per design; load average {os.getloadavg()[0]:.2f}")
 
