@@ -136,7 +136,7 @@ def _cell(design, air, mapper) -> dict:
         raise FastPathUnavailable(
             f"analysis.accuracy = {design.analysis.accuracy!r}: the cell table's held-out "
             f"error {held:.3g} exceeds {CELL_TOL:g} over {CELL_RANGE}")
-    z_hat, _ = cell_resistance_scaled(table, x)
+    z_hat = cell_resistance_scaled(table, x)
     mu = air.viscosity_pa_s
     area = cf.lattice_cell_area(p, b.hole_lattice)
     rc = math.sqrt(area / math.pi)

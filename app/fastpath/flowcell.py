@@ -33,7 +33,9 @@ A = r²/R_c². Ẑ₀ carries the power laws over the decades of the range, so F
 points against the Stokes FE (:mod:`diagap.fastpath.refine`, one halving per segment at
 most). F changes fastest with the gap where the film around the hole is about as wide as the
 gap (the flow turning into the hole then costs as much as the film): that axis starts with
-three segments; the hole-radius and Knudsen axes start with two.
+three segments, the hole-radius axis with two; along the Knudsen axis one segment of seven
+nodes interpolates as well as two of five (1-D cuts at eight geometries, six random and the two
+corners: ≤ 2.8e-5 between the nodes either way; five nodes 0.6 … 3.8e-4).
 
 At "draft" (Stokes cell levels 0.7 and 0.35 gaps), with the hole-radius and Knudsen axes
 starting at one segment, the build took 6905 Stokes solves, 20 min on two shared cores (the
@@ -67,10 +69,11 @@ order their arithmetic differently differ as much there), built in 185 s on two 
   node); with two segments ≤ 2e-4 along that axis (1-D checks).
 
 The fast path uses the table within its measured error
-(:data:`diagap.fastpath.film.CELL_TOL`). The table reproduces
-the Stokes FE of one accuracy setting (its mesh levels); the FE's own Richardson estimate of Ẑ
-(``rel_error``: 4e-4 … 4e-3 at "draft", 2e-4 … 1e-3 at "normal") is tabulated beside it where it
-interpolates within the tolerance.
+(:data:`diagap.fastpath.film.CELL_TOL`). The table reproduces the Stokes FE of one accuracy
+setting on its finest mesh level, the value the damping stage takes. The stage's coarser level
+gives the FE's own Richardson estimate of Ẑ (4e-4 … 4e-3 at "draft", 2e-4 … 1e-3 at "normal");
+the fast path does not report it, and the table no longer solves that level (it cost a fifth
+of each point and its tabulated estimate never met the tolerance).
 
 Validated range: :data:`CELL_RANGE`.
 """
@@ -137,24 +140,27 @@ def closed_form_scaled(x) -> float:
 
 
 def scaled_cell(accuracy: str, y) -> dict:
-    """The Stokes FE of the cell at table coordinates y: the factor over Ẑ₀ and the FE's
-    error estimate."""
+    """The Stokes FE of the cell at table coordinates y: the factor over Ẑ₀."""
     return scaled_cells(accuracy, tuple(y)[:3], (tuple(y)[3],))[0]
 
 
 def scaled_cells(accuracy: str, head, knudsens) -> list[dict]:
     """:func:`scaled_cell` at the table coordinates (*head, Kn) for each Kn of ``knudsens``:
-    one mesh and one assembly per level serve every Knudsen number of a geometry."""
-    from diagap.fem.film.stokes import scaled_cell_resistances
+    one mesh and one assembly serve every Knudsen number of a geometry. Only the finest mesh
+    level of the accuracy setting is solved: its value is what the damping stage takes, and
+    the coarser level would only give the FE's own error estimate, which the fast path does
+    not report."""
+    from diagap.fem.film.stokes import ACCURACY_LEVELS, scaled_cell_resistances
     from diagap.meshes.flow_cell import FlowCellGeometry
 
     xs = [_groups((*head, kn)) for kn in knudsens]
     q, gc, tc, _ = xs[0]
     rc = 1.0 / gc
     geo = FlowCellGeometry(rc, q * rc, tc * rc, _EXIT_OVER_CELL * rc)
-    res = scaled_cell_resistances(geo, [x[3] for x in xs], accuracy)
-    return [{"resistance_factor": r["resistance"] / closed_form_scaled(x),
-             "rel_error": float(r["rel_error"])} for r, x in zip(res, xs)]
+    res = scaled_cell_resistances(geo, [x[3] for x in xs], accuracy,
+                                  levels=(ACCURACY_LEVELS[accuracy],))
+    return [{"resistance_factor": r["resistance"] / closed_form_scaled(x)}
+            for r, x in zip(res, xs)]
 
 
 def _drives(name: str) -> bool:
@@ -221,9 +227,6 @@ def outside(x) -> str | None:
 
 
 def cell_resistance_scaled(table: TensorTable, x) -> tuple[float, float]:
-    """(Ẑ, FE error estimate) from the table at the groups x (scaled: R_cell = μ Ẑ / g³)."""
-    names = list(table.names)
-    vals = table(_table_x(x))
-    factor = float(vals[names.index("resistance_factor")])
-    err = float(vals[names.index("rel_error")]) if "rel_error" in names else float("nan")
-    return factor * closed_form_scaled(x), err
+    """Ẑ from the table at the groups x (scaled: R_cell = μ Ẑ / g³)."""
+    factor = float(table(_table_x(x))[list(table.names).index("resistance_factor")])
+    return factor * closed_form_scaled(x)

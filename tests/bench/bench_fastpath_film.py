@@ -91,7 +91,7 @@ def main() -> None:
     # (Karniadakis, Beskok & Aluru, Microflows and Nanoflows, Springer 2005, §4.1 [from memory]):
     # lengthening a long hole by Δt adds 8μΔt/(πr⁴(1 + 4λ/r))
     q, gc, kn = 0.2, 0.5, 0.02  # r/R_c, g/R_c, λ/g
-    lo, hi = (cell_resistance_scaled(table, (q, gc, tc, kn))[0] for tc in (3.0, 4.0))
+    lo, hi = (cell_resistance_scaled(table, (q, gc, tc, kn)) for tc in (3.0, 4.0))
     r, dt = q / gc, 1.0 / gc  # in gaps
     ref = 8.0 * dt / (np.pi * r**4 * (1.0 + 4.0 * kn / r))
     print(f"long hole: added resistance / slip Poiseuille - 1 = {(hi - lo) / ref - 1:.2e}")
