@@ -54,7 +54,11 @@ one assembly and the blocks restricted to the free unknowns per level (:func:`sc
 values within 5e-7 of the earlier build (median 1.5e-11; the largest at r/R_c = 0.1 with the
 thickest plate, where the saddle-point solve is worst conditioned: two direct solves that only
 order their arithmetic differently differ as much there), built in 185 s on two idle cores
-(was 506 s one point at a time). Where the error came from:
+(was 506 s one point at a time). Then the Knudsen axis went to one segment of seven nodes, the
+saddle-point LU to the minimum-degree ordering of K + Kᵀ with diagonal pivots
+(:func:`diagap.fem.film.stokes._saddle_solve`) and each point to the finest mesh level alone:
+8051 points, 114.5 s at "draft" (held-out error 5.06e-4) and 248 s at "normal" (4.06e-4), on
+two cores. Where the error came from:
 
 * the FE's own scatter (the earlier table, draft level 0.5: held-out 2.4e-3). Along the Knudsen
   axis the factor is smooth to 1e-8 (one mesh for every Kn), but along the three geometric axes
