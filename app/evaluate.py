@@ -161,7 +161,7 @@ def no_table_building(func, points):
 
 
 def evaluate_with_path(design, keys: Iterable[str], *, exact: bool = False, box=None,
-                       build: bool = True, table_options=None
+                       build: bool = True, table_options=None, patches=None
                        ) -> tuple[dict[str, float], str]:
     """The values of the summary paths ``keys`` for ``design`` and the path that gave them.
 
@@ -180,6 +180,9 @@ def evaluate_with_path(design, keys: Iterable[str], *, exact: bool = False, box=
     table_options : dict, optional
         ``tol``, ``nodes``, ``max_nodes``, ``validate``, ``distributed`` of the box table
         (:func:`diagap.fastpath.study_table`); they select which cached table is read.
+    patches : diagap.fastpath.patches.PatchSet, optional
+        Without a box: the study's patches of the cell, rim and flow-cell tables, read (never
+        built here) in place of the global ones (:mod:`diagap.fastpath.patches`).
 
     Returns
     -------
@@ -190,7 +193,9 @@ def evaluate_with_path(design, keys: Iterable[str], *, exact: bool = False, box=
     keys = check_keys(keys)
     if not exact and fast_summary is not None:
         try:
-            if box is None:
+            if box is None and patches is not None:
+                fast = fast_summary(design, patches=patches)
+            elif box is None:
                 fast = fast_summary(design)
             else:
                 fast = fast_summary(design, box, mapper=None if build else no_table_building,
@@ -236,12 +241,16 @@ class KeyEvaluator:
     table_options : tuple of (name, value)
         Options of the box table (:func:`diagap.fastpath.study_table`), as used when it was
         built.
+    patches : diagap.fastpath.patches.PatchSet, optional
+        Without a box: the study's patches of the global tables
+        (:mod:`diagap.fastpath.patches`), only read, as the box table.
     """
 
     keys: tuple
     exact: bool = False
     box: object = None
     table_options: tuple = ()
+    patches: object = None
 
     def __repr__(self) -> str:
         # the repr names the evaluator in study point ids: without a box it is the plain one
@@ -249,9 +258,12 @@ class KeyEvaluator:
         if self.box is not None:
             ranges = tuple((p, float(lo), float(hi)) for p, lo, hi in self.box.ranges)
             text += f", box={ranges!r}, table_options={self.table_options!r}"
+        if self.patches is not None:
+            text += f", patches={self.patches!r}"
         return text + ")"
 
     def __call__(self, design) -> dict:
         values, path = evaluate_with_path(design, self.keys, exact=self.exact, box=self.box,
-                                          build=False, table_options=dict(self.table_options))
+                                          build=False, table_options=dict(self.table_options),
+                                          patches=self.patches)
         return {**values, PATH_KEY: path == EXACT}

@@ -119,9 +119,10 @@ def test_corner_collapsed_beyond_doubt_counts_as_answered(fake_build, monkeypatc
     assert (built.kind == "global") is covered
 
 
-def test_optimisation_builds_the_global_tables_of_its_family(fake_build, monkeypatch):
+def test_optimisation_builds_the_patches_of_its_family(fake_build, monkeypatch):
     """An optimisation (``build_global``) whose box lies in the global tables' family builds
-    the global tables its nominal design and corners read, then reads them, with no box table;
+    its patches of the global tables (:mod:`diagap.fastpath.patches`) through the fast summary
+    of its nominal design and corners, then reads them, with no box table;
     a box outside the family (a simply supported edge) or a tolerance study (no
     ``build_global``) or one worker (no build in this process) builds the box table; a box the
     built tables still do not cover falls back to it."""
@@ -134,7 +135,10 @@ def test_optimisation_builds_the_global_tables_of_its_family(fake_build, monkeyp
     built_for: list = []
     state = {"built": False, "answers": True}
 
-    def global_fast(design, box=None, *, mapper=None, **options):
+    def global_fast(design, box=None, *, mapper=None, patches=None, **options):
+        if patches is None:  # the global tables themselves are not built
+            raise fastpath.FastPathUnavailable("flowcell table not built")
+        assert patches.region("flowcell", "draft") is not None
         if mapper is not fastpath.read_only:  # a building mapper: the tables now exist
             built_for.append((design.backplate.hole_radius_m, design.backplate.hole_pitch_m))
             state["built"] = True
@@ -153,7 +157,8 @@ def test_optimisation_builds_the_global_tables_of_its_family(fake_build, monkeyp
     assert built.kind == "box" and not built_for  # one worker: no global build in-process
 
     evaluator, built = prepare_tables(design, keys, ranges, workers=2, build_global=True)
-    assert built.used and built.kind == "global" and evaluator.box is None
+    assert built.used and built.kind == "patches" and evaluator.box is None
+    assert evaluator.patches.region("cell-hex", "draft") is not None
     assert len(built_for) == 5 and (5e-6, 22e-6) in built_for  # nominal and four corners
 
     state["built"], built_for[:] = False, []

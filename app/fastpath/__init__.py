@@ -22,6 +22,9 @@ on disk by :mod:`diagap.fastpath.store`):
   c(g) (:mod:`diagap.fastpath.coupled`), and the ``response`` section by the stage's own lumped
   model built of the fast pieces (:mod:`diagap.fastpath.response`); their reduction error
   against the 2-D FE is measured and stated in those modules;
+- patches (:mod:`diagap.fastpath.patches`): the cell, rim and flow-cell tables over only the
+  range of their groups that one study's box reaches, built for that study (an optimisation
+  whose global tables are missing) and read in their place (``fast_summary(patches=...)``);
 - the summary over a study box (:mod:`diagap.fastpath.study`): every numeric output of the
   mechanics, electrostatics, coupled, damping and response sections of one design, over bounds
   of a few of its design values; each table point is a full FE analysis.
@@ -93,7 +96,8 @@ def prepare_tables(accuracy: str = "normal", mapper=None) -> dict:
     return facts
 
 
-def fast_summary(design, box=None, *, mapper=None, **table_options) -> dict[str, float]:
+def fast_summary(design, box=None, *, mapper=None, patches=None,
+                 **table_options) -> dict[str, float]:
     """Certified summary outputs of ``design`` from tables (built and cached on first use).
 
     Parameters
@@ -111,6 +115,9 @@ def fast_summary(design, box=None, *, mapper=None, **table_options) -> dict[str,
     mapper : callable, optional
         How table points are computed when a table is built
         (:func:`diagap.fastpath.refine.mapper_for`: local processes or a Dask client).
+    patches : diagap.fastpath.patches.PatchSet, optional
+        Without a box: read the cell, rim and flow-cell tables from the study's patches
+        (:mod:`diagap.fastpath.patches`) instead of the global tables.
     **table_options
         ``tol``, ``nodes``, ``max_nodes``, ``validate``, ``distributed`` of :func:`study_table`.
 
@@ -129,9 +136,10 @@ def fast_summary(design, box=None, *, mapper=None, **table_options) -> dict[str,
     if box is None:
         from diagap.fastpath.coupled import _one_thread, covered_coupled_outputs
         from diagap.fastpath.film import covered_damping_outputs
+        from diagap.fastpath.patches import using
         from diagap.fastpath.response import covered_response_outputs
 
-        with _one_thread():  # small dense kernels (harmonic balance): BLAS threads only add
+        with _one_thread(), using(patches):  # small dense kernels (harmonic balance): BLAS threads only add
             out = _plate_outputs(design, mapper)  # contention
             out.update(_field_outputs(design, mapper))
             out.update(covered_coupled_outputs(design, out, mapper))

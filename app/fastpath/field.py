@@ -92,20 +92,30 @@ def static_shape(rho, tau: float) -> np.ndarray:
     return np.where(np.asarray(rho, dtype=float) <= 1.0, out, 0.0)
 
 
+def sample_gaps(gap_m: float, accuracy: str) -> np.ndarray:
+    """The local gaps (m) at which the stage samples c(g) for a design of gap ``gap_m``:
+    Chebyshev nodes of [GAP_TABLE[0]·g, GAP_TABLE[1]·g] (:data:`diagap.stages.GAP_TABLE`)."""
+    from diagap.fem.field.cell_table import _SAMPLES
+
+    from diagap.fastpath.grid import chebyshev_nodes
+    from diagap.stages import GAP_TABLE
+
+    return chebyshev_nodes(GAP_TABLE[0] * gap_m, GAP_TABLE[1] * gap_m, _SAMPLES[accuracy])
+
+
 def density_from_table(table, lattice: str, hole_radius_m: float, pitch_m: float,
                        thickness_m: float, gap_m: float, accuracy: str):
     """The stage's c(g) (:class:`~diagap.fem.field.cell_table.CapacitanceDensity`), its FE
     samples replaced by the scaled table (``table`` None: the solid plate, P = 1)."""
     from diagap.fem.constants import EPSILON_0_F_PER_M
     from diagap.fem.field.cell import open_area_fraction
-    from diagap.fem.field.cell_table import _SAMPLES, CapacitanceDensity, _basis
+    from diagap.fem.field.cell_table import CapacitanceDensity, _basis
 
     from diagap.fastpath.cells import table_point
-    from diagap.fastpath.grid import chebyshev_nodes
     from diagap.stages import GAP_TABLE
 
     g0, g1 = GAP_TABLE[0] * gap_m, GAP_TABLE[1] * gap_m
-    gaps = chebyshev_nodes(g0, g1, _SAMPLES[accuracy])
+    gaps = sample_gaps(gap_m, accuracy)
     if table is None:
         P = np.ones_like(gaps)
     else:
@@ -213,15 +223,18 @@ def field_objects(design, mapper=None):
     displacements in m) and the outputs an uncertified table leaves out. Raises :class:`~diagap.fastpath.FastPathUnavailable` as
     :func:`electrostatics_outputs`. The last design's objects are kept: the electrostatics,
     coupled and response pieces of one summary share them."""
+    from diagap.fastpath.patches import active
+
+    patches = active()
     last = _LAST_FIELD.get("entry")
-    if last is not None and last[0] is design and last[1] is mapper:
+    if last is not None and last[0] is design and last[1] is mapper and last[3] == patches:
         return last[2]
     out = _field_objects(design, mapper)
-    _LAST_FIELD["entry"] = (design, mapper, out)
+    _LAST_FIELD["entry"] = (design, mapper, out, patches)
     return out
 
 
-#: (design, mapper, objects) of the last :func:`field_objects` call
+#: (design, mapper, objects, active patch set) of the last :func:`field_objects` call
 _LAST_FIELD: dict = {}
 
 
@@ -230,6 +243,7 @@ def _field_objects(design, mapper):
 
     from diagap.fastpath.cells import cell_table
     from diagap.fastpath.fringe import OVERHANG_CAP, rim_from_samples, rim_table
+    from diagap.fastpath.patches import active_table
     from diagap.stages import _rim_points, electrode_quadrature
 
     tau = check_covered(design)
@@ -238,12 +252,13 @@ def _field_objects(design, mapper):
     skip: set = set()
     table = None
     if b.hole_lattice != "none":
-        table, facts = cell_table(b.hole_lattice, acc, mapper=mapper)
+        table, facts = (active_table(f"cell-{b.hole_lattice}", acc, mapper)
+                        or cell_table(b.hole_lattice, acc, mapper=mapper))
         if facts.get("uncertified"):
             skip.update(_NEEDS_CELL)
     density = density_from_table(table, b.hole_lattice, b.hole_radius_m, b.hole_pitch_m,
                                  b.thickness_m, g, acc)
-    rtab, rfacts = rim_table(acc, mapper=mapper)
+    rtab, rfacts = active_table("rim", acc, mapper) or rim_table(acc, mapper=mapper)
     if rfacts.get("uncertified"):
         skip.update(_NEEDS_RIM)
     k = min(a - b.electrode_size_m, OVERHANG_CAP * g) / g

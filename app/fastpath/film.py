@@ -121,6 +121,7 @@ def _cell(design, air, mapper) -> dict:
     """The perforation numbers of the summary, with the Stokes resistance from the table."""
     from diagap.fastpath.flowcell import (CELL_RANGE, cell_coordinates, cell_resistance_scaled,
                                           cell_table, outside)
+    from diagap.fastpath.patches import active_table
     from diagap.fem.film import perforation as cf
 
     b = design.backplate
@@ -130,7 +131,8 @@ def _cell(design, air, mapper) -> dict:
     if note is not None:
         name = note.split(" = ", 1)[0]
         raise FastPathUnavailable(note.replace(name, _GROUP_FIELDS[name], 1))
-    table, facts = cell_table(design.analysis.accuracy, mapper=mapper)
+    acc = design.analysis.accuracy
+    table, facts = active_table("flowcell", acc, mapper) or cell_table(acc, mapper=mapper)
     held = float(table.held_out_error[list(table.names).index("resistance_factor")])
     if not held <= CELL_TOL:
         raise FastPathUnavailable(

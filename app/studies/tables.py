@@ -20,11 +20,16 @@ the study needs no table of its own, and its evaluations read the global tables 
 collapsed beyond doubt counts as answered: the full FE has no response there either, so a box
 that reaches past pull-in is no obstacle, as it is for a box table) (the option
 ``box_only`` skips this). An optimisation (``build_global``) whose box lies in the global
-tables' family (:func:`family_covered`) builds the global tables it reads when they are missing
-(:func:`build_global_tables`, once per machine and accuracy; with a Dask client or more than
-one local worker) rather than a box table: over the wide bounds of a hole pattern the box table
-costs more (the demo's 3-variable box: 571 s at "draft"; the global tables it reads 382 s from
-an empty cache, meshes included, and the same optimum) and serves no other study. Otherwise
+tables' family (:func:`family_covered`) builds *patches* of the global tables rather than a box
+table (with a Dask client or more than one local worker): the cell, rim and flow-cell tables
+over the range of their dimensionless groups that the box reaches
+(:func:`diagap.fastpath.patches.study_patches`), the diaphragm and film-shape tables global
+(:func:`build_global_tables` with the patches); the evaluations then read them
+(:class:`diagap.evaluate.KeyEvaluator` with ``patches``). Over the wide bounds of a hole
+pattern a box table costs more and the whole global tables cost more again: the demo's
+3-variable box at "draft" on two cores from an empty cache took 571 s as a box table, 305 s
+(tables) for the global tables it reads, and 77 s as patches (cell 13 s, rim 9 s, flow cell
+33 s, diaphragm and film shape the rest), all three with the same optimum. Otherwise
 the box table is built once in the calling process with the study's local workers or Dask
 client (:func:`diagap.fastpath.mapper_for`), cached on disk and kept in memory; the evaluations then
 only read it (:class:`diagap.evaluate.KeyEvaluator` with the box). Points outside the box, and
@@ -74,7 +79,8 @@ def tolerance_ranges(inputs) -> tuple:
 class TableBuild:
     """What :func:`prepare_tables` did: ``used`` (the evaluations read tables), ``seconds``
     (the build, the read or the coverage check), ``reason`` (why not used), ``kind``
-    ("global": the global tables cover the box; "box": the study's own table)."""
+    ("global": the global tables cover the box; "patches": the study's patches of them,
+    :mod:`diagap.fastpath.patches`; "box": the study's own table)."""
 
     def __init__(self, used: bool, seconds: float = 0.0, reason: str = "", kind: str = "box"):
         self.used, self.seconds, self.reason, self.kind = used, seconds, reason, kind
@@ -101,19 +107,21 @@ def _box_probes(design, ranges) -> list:
                        for pt in points]
 
 
-def global_tables_cover(design, keys, ranges) -> bool:
+def global_tables_cover(design, keys, ranges, patches=None) -> bool:
     """True when the global tables (built beforehand with ``diagap tables``; only read here)
     give every one of ``keys`` at the nominal design and at the corners of the box
     (:func:`_box_probes`), a corner collapsed beyond doubt counting as answered for its
     ``response`` paths (:func:`diagap.evaluate.absent_paths`): the study then needs no table of
     its own. A point inside the box that they do not cover after all is evaluated with the full
-    FE (as any point without a table)."""
+    FE (as any point without a table). With ``patches`` the cell, rim and flow-cell tables
+    are read from those patches (:mod:`diagap.fastpath.patches`)."""
     from diagap.evaluate import absent_paths
     from diagap.fastpath import fast_summary, read_only
 
+    extra = {} if patches is None else {"patches": patches}
     try:  # a corner outside the design rules (DesignError), or outside the tables
         for probe in _box_probes(design, ranges):
-            out = fast_summary(probe, mapper=read_only)
+            out = fast_summary(probe, mapper=read_only, **extra)
             absent = absent_paths(out, keys)
             if not all(k in out or k in absent for k in keys):
                 return False
@@ -137,14 +145,17 @@ def family_covered(design, ranges) -> bool:
     return True
 
 
-def build_global_tables(design, ranges, mapper) -> None:
+def build_global_tables(design, ranges, mapper, patches=None) -> None:
     """Build (on demand, cached on disk) the global tables that the nominal design and the
-    corners of the box read: a fast summary of each with a building ``mapper``."""
+    corners of the box read: a fast summary of each with a building ``mapper``. With
+    ``patches`` (:func:`diagap.fastpath.patches.study_patches`) the cell, rim and flow-cell
+    tables are built as those patches; the diaphragm and film-shape tables stay global."""
     from diagap.fastpath import fast_summary
 
+    extra = {} if patches is None else {"patches": patches}
     for probe in _box_probes(design, ranges):
         try:
-            fast_summary(probe, mapper=mapper)
+            fast_summary(probe, mapper=mapper, **extra)
         except ValueError:  # a corner the tables do not answer: the cover check says so
             continue
 
@@ -183,9 +194,9 @@ def prepare_tables(design, keys, ranges, *, exact: bool = False, workers: int | 
         distributed reference; ``drive``: the keys).
     build_global : bool
         When the global tables do not cover the box yet but its designs lie in their family
-        (:func:`family_covered`), build the global tables they read (:func:`build_global_tables`)
-        instead of a box table, and use them if they then cover the box (an optimisation: a box
-        table over wide bounds of the hole pattern costs more than the family's global tables).
+        (:func:`family_covered`), build the study's patches of them (module docstring) instead
+        of a box table, and use them if they then cover the box (an optimisation: a box table
+        over wide bounds of the hole pattern costs more than its patches).
         Only with a Dask client or more than one local worker (the table points then run in
         worker processes); with one worker the box table is built as before.
 
@@ -212,17 +223,21 @@ def prepare_tables(design, keys, ranges, *, exact: bool = False, workers: int | 
         return KeyEvaluator(keys, False), TableBuild(True, seconds, kind="global")
     if (not box_only and build_global and _parallel(workers, client)
             and family_covered(design, ranges)):
-        log.info("building the global tables of the study's design family")
+        from diagap.fastpath.patches import study_patches
+
+        patches = study_patches(design, ranges)
+        log.info("building the study's patches of the global tables: %r", patches)
         mapper = mapper_for(workers, client)
         try:
-            build_global_tables(design, ranges, mapper)
+            build_global_tables(design, ranges, mapper, patches)
         finally:
             close_mapper(mapper)
-        if global_tables_cover(design, keys, ranges):
+        if global_tables_cover(design, keys, ranges, patches):
             seconds = time.perf_counter() - t0
-            log.info("global tables built and covering the study's box in %.1f s", seconds)
-            return KeyEvaluator(keys, False), TableBuild(True, seconds, kind="global")
-        log.info("the global tables do not give every key at the box's corners: box table")
+            log.info("patches built and covering the study's box in %.1f s", seconds)
+            return (KeyEvaluator(keys, False, patches=patches),
+                    TableBuild(True, seconds, kind="patches"))
+        log.info("the patches do not give every key at the box's corners: box table")
     from diagap.response_stage import is_distributed_output
 
     options.setdefault("distributed", any(is_distributed_output(k) for k in keys))
