@@ -33,6 +33,21 @@ fixes the Knudsen number) is held fixed: the patch has no axis for it and answer
 A design whose coordinates leave the patch gets :class:`~diagap.fastpath.FastPathUnavailable`
 (the study then runs that point with the full FE), never an extrapolation.
 
+Measured (two cores, empty cache; tests/bench/bench_studies.py and bench_patches.py, the demo
+design, an invented scenario). The demo optimisation's box (hole radius 2–6 µm, pitch 14–30 µm,
+electrode radius 0.3–0.48 mm) reaches a/p 0.07–0.43 and t/R_c 0.13–0.27 with the Knudsen
+number fixed; at "draft" its patches took 13.0 s (cell, 269 FE points, nodes 9 × 3 × 9), 8.7 s
+(rim, 17, nodes 9) and 32.8 s (flow cell, 485, nodes 17 × 9 × 3), 77 s with the diaphragm and
+film-shape tables, where the global tables it would read took 305 s; the whole first
+optimisation 90 s, the same optimum as with the global tables. At "normal" 103 s of tables
+(the first run 120 s in all). Fast summary from the patches against the full FE pipeline,
+random designs of the box: "draft" 20 designs, 0 of 1536 outputs over 1e-3 (the largest the
+film's cutoff 9.1e-4, of the size of the draft reference's own error); "normal" 12 designs,
+0 of 920 (largest 6.3e-4). A process box (gap ±15 %, backplate thickness 1.5–2.5 µm,
+diaphragm thickness ±10 %, stress 5–15 MPa: every flow-cell group moves, the Knudsen number
+with the gap): patches 16 s ("draft"), 38 s ("normal"); 0 of 1540 and 0 of 924 outputs over
+1e-3.
+
 Use. :func:`using` makes a :class:`PatchSet` active for the fast-path calls inside it
 (:func:`diagap.fastpath.fast_summary` with ``patches=``); the fast path then reads each
 patchable table from its patch (:func:`active_table`), built on demand with the building

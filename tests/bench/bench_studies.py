@@ -2,9 +2,10 @@
 invented scenario). Not collected by pytest; run it on purpose.
 
 Goals, once the fast tables exist (medians on two cores): 1000 tolerance samples <= 60 s; a
-3-variable optimisation <= 2 min. Each study first builds the fast table over its box (the
-tolerance box and the optimisation's bounds are different tables); the first run of each study
-measures that build (or its read from the on-disk cache of ``DIAGAP_CACHE_DIR``, when an
+3-variable optimisation <= 2 min; building the tables <= 3 min. Each study first builds its
+fast tables (the tolerance study a table over its box; the optimisation, with two or more
+workers, its patches of the global tables, diagap.fastpath.patches, unless the global tables
+already cover its bounds); the first run of each study measures that build (or its read from the on-disk cache of ``DIAGAP_CACHE_DIR``, when an
 earlier run built it: point the variable at an empty folder for a cold build), the repeats
 measure the study with the table in memory. Without the fast path every evaluation runs the full
 FE pipeline (seconds each); use --samples and --starts small then, and read the per-evaluation
