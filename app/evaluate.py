@@ -63,14 +63,20 @@ def fast_path_installed() -> bool:
 
 
 def check_keys(keys: Iterable[str], what: str = "summary path") -> tuple[str, ...]:
-    """The summary paths ``keys`` as a tuple, each ``section.key`` with a known section.
+    """The summary paths ``keys`` as a tuple, each ``section.key`` with a known section and a
+    numeric output of that section (a key of the names table, :func:`diagap.names.lookup`, which
+    names every numeric summary output).
 
     Raises
     ------
     diagap.design.DesignError
-        A path that is not ``section.key`` or names an unknown section (one line).
+        A path that is not ``section.key``, names an unknown section, or is no numeric output
+        (one line; the nearest output's name as a hint).
     """
+    import difflib
+
     from diagap.design import DesignError
+    from diagap.names import LIST_KEYS, NAMES, TEXT_KEYS, lookup
 
     out = []
     for key in keys:
@@ -79,6 +85,14 @@ def check_keys(keys: Iterable[str], what: str = "summary path") -> tuple[str, ..
             raise DesignError(f"{what} {key!r}: expected section.key with a section of "
                               f"{', '.join((*_ORDER, *_WHOLE_RUN))}, e.g. "
                               f"'response.sensitivity_db_v_per_pa'")
+        if lookup(key) is None or key in TEXT_KEYS:
+            near = difflib.get_close_matches(key, [k for k in NAMES if k not in TEXT_KEYS], n=1)
+            hint = f"; did you mean {near[0]!r}?" if near else ""
+            raise DesignError(f"{what} {key!r}: not a numeric output of summary.json (lists "
+                              f"take _1, _2, ...){hint}")
+        if key in LIST_KEYS:
+            raise DesignError(f"{what} {key!r}: a list of numbers; name one entry, e.g. "
+                              f"'{key}_1'")
         out.append(key)
     if not out:
         raise DesignError(f"no {what} given")

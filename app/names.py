@@ -25,7 +25,7 @@ import re
 from dataclasses import dataclass
 
 __all__ = ["Name", "NAMES", "INPUT_NAMES", "KEY_OUTPUTS", "lookup", "input_name", "format_display",
-           "display_text", "TEXT_KEYS"]
+           "display_text", "TEXT_KEYS", "LIST_KEYS"]
 
 
 @dataclass(frozen=True)
@@ -391,6 +391,13 @@ TEXT_KEYS = ("mechanics.model", "mechanics.accuracy", "damping.perforation.latti
              "mechanics.backplate_plate.lattice",
              "response.thd_limit_note", "coupled.note", "response.scope",
              "response.aop_limited_by", "response.aop_note")
+
+#: summary keys holding a list of numbers (a study or a sweep names one entry: ``_1``, ``_2``)
+LIST_KEYS = ("mechanics.natural_frequencies_hz", "mechanics.distinct_frequencies_hz",
+             "mechanics.backplate_natural_frequencies_hz", "mechanics.mesh_dofs",
+             "response.distributed_dofs", "large_deflection.mesh_dofs",
+             "large_deflection.linear_center_deflection_m", "large_deflection.pressures_pa",
+             "large_deflection.center_deflection_m")
 
 # design inputs (sweep axes): (section.key of the design file) → (label, SI unit, unit, scale)
 _INPUTS = {

@@ -79,6 +79,35 @@ def test_names_cover_every_flattened_sweep_output(summary):
     assert set(texts) <= set(TEXT_KEYS), texts
 
 
+def test_list_keys_are_the_summary_lists_that_have_names(summary):
+    """LIST_KEYS (a study names one entry of them) holds every list of the summary with a
+    name; the study paths refuse the bare list and unknown keys in one line."""
+    from diagap.design import DesignError
+    from diagap.evaluate import check_keys
+    from diagap.names import LIST_KEYS, NAMES
+
+    lists = set()
+
+    def walk(obj, path):
+        if isinstance(obj, dict):
+            for k, v in obj.items():
+                walk(v, f"{path}.{k}" if path else k)
+        elif isinstance(obj, list):
+            lists.add(path)
+
+    walk({k: v for k, v in summary.items() if k not in _NOT_SECTIONS}, "")
+    assert {k for k in lists if k in NAMES} <= set(LIST_KEYS)
+    assert set(LIST_KEYS) <= set(NAMES)
+    assert check_keys(["mechanics.natural_frequencies_hz_2", "response.snr_db"]) == (
+        "mechanics.natural_frequencies_hz_2", "response.snr_db")
+    with pytest.raises(DesignError, match=r"'mechanics.natural_frequencies_hz': a list.*_1'"):
+        check_keys(["mechanics.natural_frequencies_hz"])
+    with pytest.raises(DesignError, match=r"not a numeric output.*did you mean 'response.snr_db'"):
+        check_keys(["response.snr_dbx"])
+    with pytest.raises(DesignError, match="not a numeric output"):
+        check_keys(["mechanics.model"])
+
+
 def _pint_unit(text: str) -> str:
     for a, b in (("µ", "u"), ("·", "*"), ("²", "**2"), ("³", "**3"), ("√Hz", "Hz**0.5"),
                  ("Ω", "ohm")):
