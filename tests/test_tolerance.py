@@ -151,6 +151,15 @@ def test_resumes_without_computing_finished_samples(tmp_path):
       "correlations": {"backplate.gap, diaphragm.thickness": 1.5},
       "outputs": ["response.snr_db"]}, "-1, 1"),
     ({"inputs": {"backplate.gap": "normal 1 %"}, "samplez": 3}, "unknown key"),
+    ({"inputs": {"backplate.gap": "normal -1 %"}}, "σ must be positive"),
+    ({"inputs": {"backplate.gap": "uniform 0 um"}}, "half-width must be positive"),
+    # the demo's 4 µm gap: ±10 pc (a length unit of pint) and a 40 % σ reach below zero
+    ({"inputs": {"backplate.gap": "uniform 10 parsec"}},
+     r"low end = -3\.0\d*e\+17 m: must be positive \(the allowed range of backplate.gap\)"),
+    ({"inputs": {"backplate.gap": "normal 40 %"}},
+     r"mean ± 3σ, low end = -8e-07 m: must be positive"),
+    ({"inputs": {"backplate.gap": "normal 1 %"}, "outputs": ["response.snr_dbx"]},
+     "did you mean 'response.snr_db'"),
 ])
 def test_bad_sections_are_one_line_errors(table, match):
     with pytest.raises(DesignError, match=match) as info:

@@ -40,6 +40,10 @@ __all__ = ["Varied", "parse_inputs", "parse_correlations", "unit_samples", "join
            "METHODS"]
 
 METHODS = ("lhs", "sobol")
+#: a normal spread is refused when its mean ± NORMAL_REACH·σ leaves the design key's allowed
+#: range (0.27 % of the samples beyond ±3σ would be designs that cannot exist: a spread that
+#: wide is a typing slip, or calls for a uniform interval inside the range)
+NORMAL_REACH = 3.0
 _PERCENT = re.compile(r"\s*(?P<num>[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)\s*%\s*")
 _EPS = 1e-12
 
@@ -83,8 +87,21 @@ def _spread(path: str, text: str, nominal: float, where: str) -> float:
         if nominal == 0.0:
             raise DesignError(f"{where} = {text!r}: a relative spread needs a non-zero nominal "
                               f"value ({path} is 0); give an absolute one")
-        return abs(float(m.group("num"))) / 100.0 * abs(nominal)
-    return abs(quantity_text(where, text, input_field(path, where)))
+        return float(m.group("num")) / 100.0 * abs(nominal)
+    return quantity_text(where, text, input_field(path, where))
+
+
+def _inside_schema(path: str, where: str, spec: str, lo: float, hi: float, what: str) -> None:
+    """A one-line error when [lo, hi] leaves the allowed range of the design key ``path``."""
+    from diagap.quantities import _bounds
+
+    f = input_field(path, where)
+    for end, x in (("low", lo), ("high", hi)):
+        try:
+            _bounds(f"{where} = {spec!r}: {what} {end} end", x, x, f)
+        except DesignError as exc:
+            raise DesignError(f"{exc} (the allowed range of {path}); narrow the spread") \
+                from None
 
 
 def _one(path: str, spec, design) -> Varied:
@@ -100,6 +117,8 @@ def _one(path: str, spec, design) -> Varied:
         sigma = _spread(path, rest.strip(), nominal, where)
         if not sigma > 0:
             raise DesignError(f"{where} = {spec!r}: σ must be positive")
+        _inside_schema(path, where, spec, nominal - NORMAL_REACH * sigma,
+                       nominal + NORMAL_REACH * sigma, f"mean ± {NORMAL_REACH:g}σ,")
         return Varied(path, "normal", nominal, nominal, sigma, spec)
     if kind == "uniform":
         if ".." in rest:
@@ -108,10 +127,13 @@ def _one(path: str, spec, design) -> Varied:
             lo, hi = quantity_text(where, lo_t.strip(), f), quantity_text(where, hi_t.strip(), f)
         else:
             half = _spread(path, rest.strip(), nominal, where)
+            if not half > 0:
+                raise DesignError(f"{where} = {spec!r}: the half-width must be positive")
             lo, hi = nominal - half, nominal + half
         if not hi > lo:
             raise DesignError(f"{where} = {spec!r}: the interval is empty (low must be below "
                               f"high)")
+        _inside_schema(path, where, spec, lo, hi, "the interval's")
         return Varied(path, "uniform", nominal, lo, hi, spec)
     raise DesignError(f"{where} = {spec!r}: the distribution must be normal or uniform")
 
