@@ -70,6 +70,8 @@ def test_inactive_constraint_leaves_the_unconstrained_optimum(tmp_path):
     ({"variables": {"backplate.hole_radius": "6 um .. 2 um"}}, "below"),
     ({"variables": {"backplate.hole_lattice": "hex .. square"}}, "numeric"),
     ({"variables": {"backplate.hole_radius": "2 um"}}, "LOW .. HIGH"),
+    ({"variables": {"backplate.gap": "-1 um .. 6 um"}}, r"LOW = -1e-06 m: must be positive"),
+    ({"minimise": "response.snr_dbx"}, "did you mean 'response.snr_db'"),
     ({"starts": 0}, "starts"),
     ({"colour": 1}, "unknown key"),
 ])

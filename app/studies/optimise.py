@@ -42,7 +42,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from diagap.design import DesignError
-from diagap.quantities import quantity_text
+from diagap.quantities import _bounds, quantity_text
 from diagap.studies.spec import input_field, parse_limit
 
 __all__ = ["OptimiseSpec", "parse_optimise", "run_optimise", "OptimiseResult"]
@@ -102,6 +102,8 @@ def parse_optimise(table: dict, design=None) -> OptimiseSpec:
         lo, hi = quantity_text(where, lo_t.strip(), f), quantity_text(where, hi_t.strip(), f)
         if not hi > lo:
             raise DesignError(f"{where} = {text!r}: LOW must be below HIGH")
+        for end, x in (("LOW", lo), ("HIGH", hi)):  # both bounds inside the key's range
+            _bounds(f"{where} = {text!r}: {end}", x, x, f)
         out.append((path, lo, hi))
     cons = table.get("constraints", [])
     if not isinstance(cons, list):
