@@ -148,6 +148,8 @@ def test_unknown_free_value_is_refused(model, clean):
     ("bias (V),charge (pC)\n0,1.7\n", "no column 'capacitance"),
     ("bias (V),capacitance (m)\n0,1.7\n", "dimension"),
     ("", "empty"),
+    ("bias (V),capacitance (pF)\n0,1.7\n5,-1.8\n", r"cv.csv:3: capacitance \(pF\) = '-1.8': "
+     "must be positive"),
 ])
 def test_fit_command_bad_csv_exits_2_without_outputs(tmp_path, capsys, text, match):
     import re

@@ -192,10 +192,11 @@ def _cmd_fit(args) -> int:
     if args.accuracy:
         design = design.with_accuracy(args.accuracy)
     free = tuple(s.strip() for s in args.free.split(",")) if args.free else DEFAULT_FREE
-    data = read_curve(args.cv, {"bias": "V", "capacitance": "F"})
+    data = read_curve(args.cv, {"bias": "V", "capacitance": "F"}, positive=("capacitance",))
     response = None
     if args.response:
-        r = read_curve(args.response, {"frequency": "Hz", "sensitivity|level|magnitude": "dB"})
+        r = read_curve(args.response, {"frequency": "Hz", "sensitivity|level|magnitude": "dB"},
+                       positive=("frequency",))
         response = (r["frequency"], r["sensitivity|level|magnitude"])
     from diagap.cli import check_output_folder
 

@@ -30,7 +30,7 @@ _HEADER = re.compile(r"\s*(?P<name>[^()]+?)\s*\((?P<unit>[^()]+)\)\s*")
 _MAX_BYTES = 10_000_000
 
 
-def read_curve(path, columns: dict) -> dict:
+def read_curve(path, columns: dict, positive: tuple = ()) -> dict:
     """Columns of a measured CSV in SI.
 
     Parameters
@@ -39,6 +39,9 @@ def read_curve(path, columns: dict) -> dict:
     columns : dict
         Wanted quantity → its SI unit, e.g. ``{"bias": "V", "capacitance": "F"}``; a header
         matches when its name starts with the quantity (``"capacitance, total (pF)"``).
+    positive : tuple of str
+        Quantities of ``columns`` whose every value must be above zero (a measured capacitance,
+        a frequency).
 
     Raises
     ------
@@ -91,6 +94,8 @@ def read_curve(path, columns: dict) -> dict:
                                   ) from None
             if not np.isfinite(x):
                 raise DesignError(f"{p}:{n}: {header[j].strip()} = {cell!r} is not finite")
+            if want in positive and not x > 0:
+                raise DesignError(f"{p}:{n}: {header[j].strip()} = {cell!r}: must be positive")
             out[want].append(x * factor[want])
     return {k: np.array(v) for k, v in out.items()}
 
