@@ -489,6 +489,21 @@ def test_unreachable_scheduler_is_one_line():
     assert "\n" not in str(info.value)
 
 
+@pytest.mark.parametrize("address", ["nonsense", "tcp://host-without-port"])
+def test_malformed_scheduler_address_is_one_line_at_once(address):
+    """A malformed address is refused before a Dask client exists (a client failing inside
+    its constructor hangs for its 30 s close timeout and prints a traceback at exit)."""
+    import time
+
+    pytest.importorskip("distributed")
+    from diagap.sweep.exec import connect
+
+    t0 = time.perf_counter()
+    with pytest.raises(SweepError, match="not an address .*missing port.*tcp://") as info:
+        connect(address, timeout_s=0.5)
+    assert "\n" not in str(info.value) and time.perf_counter() - t0 < 5.0
+
+
 # ---- the real pipeline -----------------------------------------------------------------------
 
 @pytest.mark.slow

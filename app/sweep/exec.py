@@ -244,6 +244,15 @@ def connect(scheduler, timeout_s: float = 15.0):
     if not isinstance(scheduler, str) or not scheduler.strip():
         raise SweepError(f"--scheduler {scheduler!r}: expected an address such as "
                          f"tcp://10.0.0.5:8786")
+    try:  # a malformed address fails inside the Client, whose clean-up then hangs for 30 s
+        from distributed.comm.addressing import parse_address, parse_host_port
+
+        protocol, location = parse_address(scheduler.strip())
+        if protocol in ("tcp", "tls"):
+            parse_host_port(location)
+    except Exception as exc:  # noqa: BLE001 - any parse failure is one line for the user
+        raise SweepError(f"--scheduler {scheduler!r}: not an address ({_line(exc)}); expected "
+                         f"one such as tcp://10.0.0.5:8786") from None
     try:
         client = distributed.Client(scheduler.strip(), timeout=f"{timeout_s}s",
                                     set_as_default=False)
