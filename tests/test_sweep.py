@@ -490,18 +490,20 @@ def test_unreachable_scheduler_is_one_line():
 
 
 @pytest.mark.parametrize("address", ["nonsense", "tcp://host-without-port"])
-def test_malformed_scheduler_address_is_one_line_at_once(address):
+def test_malformed_scheduler_address_is_one_line_at_once(address, monkeypatch):
     """A malformed address is refused before a Dask client exists (a client failing inside
     its constructor hangs for its 30 s close timeout and prints a traceback at exit)."""
-    import time
-
-    pytest.importorskip("distributed")
+    distributed = pytest.importorskip("distributed")
     from diagap.sweep.exec import connect
 
-    t0 = time.perf_counter()
+    class NoClient:
+        def __init__(self, *args, **kwargs):
+            raise AssertionError("a Client was made for a malformed address")
+
+    monkeypatch.setattr(distributed, "Client", NoClient)
     with pytest.raises(SweepError, match="not an address .*missing port.*tcp://") as info:
         connect(address, timeout_s=0.5)
-    assert "\n" not in str(info.value) and time.perf_counter() - t0 < 5.0
+    assert "\n" not in str(info.value)
 
 
 # ---- the real pipeline -----------------------------------------------------------------------
