@@ -58,6 +58,25 @@ def test_region_holds_every_corner_and_fixes_what_the_box_does_not_move():
                                    for v, a, b in zip(x, r.lows, r.highs)), (name, x)
 
 
+def test_regions_stop_at_the_global_tables_range():
+    """Holes up to r/R_c = 0.905 (beyond the flow cell's 0.86) and a/p = 0.475 (beyond the
+    cell table's 0.45): the regions end at those limits; a box (and nominal design) entirely
+    beyond them gets no patch of those tables (the fast path refuses such designs before
+    reading a table)."""
+    from diagap.fastpath import cells, flowcell
+
+    design = _design()  # pitch 20 µm, hexagonal lattice
+    partly = {r.name: r for r in study_patches(
+        design, (("backplate.hole_radius", 4e-6, 9.5e-6),)).regions}
+    q = flowcell.CELL_RANGE["hole_radius_over_cell_radius"][1]
+    assert partly["flowcell"].highs[0] == pytest.approx(q / (1 - q), rel=1e-9, abs=0)
+    a = cells.CELL_RANGE["hole_radius_over_pitch"][1]
+    assert partly["cell-hex"].lows[0] == pytest.approx(0.5 - a, rel=1e-9, abs=0)
+    wide_holes = with_overrides(design, {"backplate.hole_radius": 9.7e-6})  # nominal inside
+    beyond = study_patches(wide_holes, (("backplate.hole_radius", 9.6e-6, 9.8e-6),))
+    assert {r.name for r in beyond.regions} == {"rim"}
+
+
 def test_a_patch_agrees_with_the_cell_fe_and_refuses_outside_its_region():
     """Only the electrode radius varies: the cell table's patch has one free axis, the local
     gap over pitch of the c(g) samples; between its nodes it agrees with the cell FE within

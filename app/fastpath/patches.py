@@ -28,8 +28,10 @@ Each is monotonic in every design value, so over a box of design values their ex
 the box's corners; :func:`study_patches` takes the nominal design and every corner (up to ten
 varied values; beyond that the ends of each value and 1024 seeded random points), and widens
 each coordinate's range by 1 % of its width (mapped coordinates) on either side, clipped to the
-global table's range. A coordinate that does not move at all (a gap the study does not vary
-fixes the Knudsen number) is held fixed: the patch has no axis for it and answers only there.
+global table's range (a table that the box reaches only outside that range gets no patch: the
+fast path refuses those designs before it reads a table). A coordinate that does not move at
+all (a gap the study does not vary fixes the Knudsen number) is held fixed: the patch has no
+axis for it and answers only there.
 A design whose coordinates leave the patch gets :class:`~diagap.fastpath.FastPathUnavailable`
 (the study then runs that point with the full FE), never an extrapolation.
 
@@ -71,6 +73,8 @@ from diagap.fastpath.grid import Axis, TensorTable
 __all__ = ["PATCHABLE", "Region", "PatchSet", "PatchTable", "table_points", "study_patches",
            "using", "active", "active_table", "patch_table"]
 
+log = logging.getLogger(__name__)
+
 #: tables that patches can stand in for
 PATCHABLE = ("cell-hex", "cell-square", "rim", "flowcell")
 #: widening of each coordinate's range, as a fraction of its width (mapped coordinates)
@@ -94,8 +98,6 @@ def _tol(getter) -> float:
     import inspect
 
     return TOL_FRACTION * float(inspect.signature(getter).parameters["tol"].default)
-
-log = logging.getLogger(__name__)
 
 _ACTIVE: contextvars.ContextVar = contextvars.ContextVar("diagap_patches", default=None)
 
@@ -241,11 +243,16 @@ def study_patches(design, ranges) -> PatchSet:
         pad = np.where(width > FIXED_WIDTH, MARGIN * width, 0.0)
         g_lo = np.array([a.breaks[0] for a in axes])
         g_hi = np.array([a.breaks[-1] for a in axes])
-        lo = np.maximum(lo - pad, np.minimum(g_lo, lo))
-        hi = np.minimum(hi + pad, np.maximum(g_hi, hi))
+        slack = 1e-9 * np.maximum(1.0, np.abs(g_hi - g_lo))
+        fixed = width <= FIXED_WIDTH
+        lo = np.where(fixed, lo, np.maximum(lo - pad, g_lo))
+        hi = np.where(fixed, lo, np.minimum(hi + pad, g_hi))
+        if np.any(lo < g_lo - slack) or np.any(hi > g_hi + slack) or \
+                np.any(~fixed & (hi - lo <= FIXED_WIDTH)):
+            continue  # the box reaches this table only outside its validated range
         lows = tuple(float(a.from_mapped(v)) for a, v in zip(axes, lo))
-        highs = tuple(float(a.from_mapped(v)) if w > FIXED_WIDTH else lw
-                      for a, v, w, lw in zip(axes, hi, width, lows))
+        highs = tuple(lw if f else float(a.from_mapped(v))
+                      for a, v, f, lw in zip(axes, hi, fixed, lows))
         regions.append(Region(name, acc, lows, highs))
     return PatchSet(acc, tuple(regions))
 
